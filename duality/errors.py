@@ -1,0 +1,56 @@
+"""Exceptions raised by the package.
+
+Every error the user can provoke is a :class:`DualityError` (a ``ValueError``) whose
+message names the problem and where it is, so front ends can show it on one line.
+"""
+from __future__ import annotations
+
+
+class DualityError(ValueError):
+    """Base class of every error raised for bad input or an impossible request."""
+
+
+class FormulaError(DualityError):
+    """A formula text could not be read.
+
+    Attributes
+    ----------
+    text : str
+        The formula as given.
+    position : int or None
+        0-based character offset of the problem in ``text`` (None when the whole
+        text is at fault, e.g. it is too long).
+    """
+
+    def __init__(self, message: str, text: str = "", position: int | None = None):
+        self.text = text
+        self.position = position
+        self.reason = message
+        where = f" at position {position + 1}" if position is not None else ""
+        full = f"{message}{where}"
+        if position is not None and text and len(text) <= 200:
+            full += f"\n  {text}\n  {' ' * position}^"
+        super().__init__(full)
+
+
+class ModelError(DualityError):
+    """A model is inconsistent (unknown symbol, a name used twice, bad parameter value)."""
+
+
+class NoSolutionError(DualityError):
+    """The requested dual does not exist for this model (e.g. profit under constant returns).
+
+    The message explains why; ``reason`` holds the same text.
+    """
+
+    def __init__(self, message: str):
+        self.reason = message
+        super().__init__(message)
+
+
+class DomainError(DualityError):
+    """A function was evaluated outside the region where it is valid."""
+
+
+class BudgetExceeded(DualityError):
+    """Symbolic work did not finish within its wall-clock budget."""

@@ -1,0 +1,84 @@
+"""Quasi-linear: g(x) = a*x_k + sum_j phi_j(x_j), linear in one numeraire quantity x_k.
+
+Each phi_j is a strictly concave function of its own quantity whose first-order condition
+phi_j'(x_j) = q has one positive solution that sympy finds in closed form (log and power
+terms, say).
+"""
+from __future__ import annotations
+
+import sympy as sp
+
+from .base import CoreSolution, Form, free_of, positive_condition
+
+_q = sp.Symbol("q_", positive=True)
+
+
+class QuasiLinear(Form):
+    key = "quasi_linear"
+    title = "quasi-linear"
+    source = ("Mas-Colell, Whinston and Green, Microeconomic Theory (1995), §3.B–3.E "
+              "(quasilinear preferences); Varian, Microeconomic Analysis, 3rd ed. (1992), "
+              "ch. 7 (from memory)")
+
+    def match(self, core, xs):
+        if not isinstance(core, sp.Add) or len(xs) < 2:
+            return None
+        linear, phis = {}, {}
+        for t in core.args:
+            syms = t.free_symbols & set(xs)
+            if len(syms) != 1:
+                return None
+            (x,) = syms
+            coeff, rest = t.as_independent(*xs, as_Add=False)
+            if rest == x:
+                linear[x] = coeff
+            else:
+                phis[x] = phis.get(x, 0) + t
+        if len(linear) != 1 or set(linear) | set(phis) != set(xs) or set(linear) & set(phis):
+            return None
+        (k,) = linear
+        roots = {}
+        for x, phi in phis.items():
+            d2 = sp.diff(phi, x, 2)
+            if d2.is_negative is False and d2.is_number:
+                return None
+            xp = sp.Symbol("xp_", positive=True)
+            sols = [s for s in sp.solve(sp.Eq(sp.diff(phi, x).subs(x, xp), _q), xp)
+                    if s.is_real is not False]
+            if len(sols) != 1:
+                return None
+            roots[x] = sols[0]
+        return {"numeraire": k, "a": linear[k], "phi": phis, "root": roots}
+
+    def requirements(self, pieces, xs):
+        return positive_condition(pieces["a"])
+
+    def _interior(self, pieces, xs, ws):
+        k, a = pieces["numeraire"], pieces["a"]
+        wk = ws[xs.index(k)]
+        xo = {x: r.subs(_q, a * ws[xs.index(x)] / wk) for x, r in pieces["root"].items()}
+        phi = sp.Add(*[p.subs(x, xo[x]) for x, p in pieces["phi"].items()])
+        spend_o = sp.Add(*[ws[xs.index(x)] * v for x, v in xo.items()])
+        return k, a, wk, xo, phi, spend_o
+
+    def solve(self, pieces, xs, ws, g0):
+        """Notes
+        -----
+        phi_j'(x_j) = a w_j / w_k fixes the non-numeraire quantities; the numeraire buys
+        the rest: x_k = (g0 - phi(x_o)) / a, interior only when that is positive.
+        """
+        k, a, wk, xo, phi, spend_o = self._interior(pieces, xs, ws)
+        xk = (g0 - phi) / a
+        demands = tuple(xk if x == k else xo[x] for x in xs)
+        return CoreSolution(spend_o + wk * xk, demands,
+                            conditions=(sp.StrictGreaterThan(xk, 0),),
+                            notes=(f"interior solution: valid while the numeraire {k} is "
+                                   "bought in positive amount",))
+
+    def level(self, pieces, xs, ws, spend):
+        k, a, wk, xo, phi, spend_o = self._interior(pieces, xs, ws)
+        return a * (spend - spend_o) / wk + phi, (sp.StrictGreaterThan(spend - spend_o, 0),)
+
+    def marshallian(self, pieces, xs, ws, m):
+        k, a, wk, xo, phi, spend_o = self._interior(pieces, xs, ws)
+        return tuple((m - spend_o) / wk if x == k else xo[x] for x in xs)

@@ -231,8 +231,6 @@ def _build(role: str, formula: str | sp.Expr, quantities: list[str], prices: lis
            level: str, output_price: str | None, income: str | None,
            params: Mapping[str, float | None] | None, assume: Mapping[str, str] | None,
            name: str) -> Model:
-    from .formula import parse  # local: formula imports nothing from here
-
     if role not in ROLES:
         raise ModelError(f"role {role!r} is not one of {', '.join(ROLES)}")
     if isinstance(quantities, str) or isinstance(prices, str):
@@ -268,6 +266,7 @@ def _build(role: str, formula: str | sp.Expr, quantities: list[str], prices: lis
                                  if s.name in table})
         text = ""
     elif isinstance(formula, str):
+        from .formula import parse  # local: formula imports nothing from here
         expr = parse(formula, symbols=table)
         text = formula
     else:

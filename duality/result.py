@@ -31,6 +31,7 @@ KINDS: dict[str, tuple[str, str]] = {
     "factor_demand": ("unconditional input demand", "x"),
     "marshallian_demand": ("Marshallian demand", "x"),
     "hicksian_demand": ("Hicksian demand", "h"),
+    "share": ("share", "s"),
 }
 
 
@@ -117,7 +118,7 @@ class Derived:
         """``head(args) = closed form`` in LaTeX (or a note that it is numeric)."""
         head = KINDS[self.kind][1]
         if self.kind in ("conditional_demand", "factor_demand", "marshallian_demand",
-                         "hicksian_demand", "supply") and self.name:
+                         "hicksian_demand", "supply", "share") and self.name:
             head = sp.latex(sp.Symbol(self.name))
         lhs = f"{head}({', '.join(sp.latex(a) for a in self.args)})"
         if self.expr is None:

@@ -198,12 +198,20 @@ def _symbolic(model: Model, budget, notes: list, candidates_fn, verify_fn):
         if isinstance(cands, str):
             notes.append(f"{method} route not applicable: {cands}")
             continue
+        rejected = []
         for value, demands in cands:
             ok, why = verify_fn(model, value, demands)
             if ok:
+                if rejected:
+                    notes.append(f"{method} route: {len(rejected)} of {len(cands)} solution "
+                                 "branches rejected by the numeric check (e.g. "
+                                 f"{rejected[0]})")
                 return method, value, demands
-            notes.append(f"{method} candidate rejected by the numeric check: {why}")
-        if not cands:
+            rejected.append(why)
+        if rejected:
+            notes.append(f"{method} route: every candidate rejected by the numeric check "
+                         f"(e.g. {rejected[0]})")
+        elif not cands:
             notes.append(f"{method} route found no solution")
     return None
 
@@ -239,9 +247,11 @@ def _spending_candidates(method: str, model: Model):
         sub = {xs[i]: rs[i - 1] * xs[0] for i in range(1, n)}
         ratios = []
         for i in range(1, n):
-            r = sp.powsimp(sp.simplify((grads[i] / grads[0]).xreplace(sub)), force=True)
-            if xs[0] in r.free_symbols:
+            r = (grads[i] / grads[0]).xreplace(sub)
+            if not _free_of_numerically(r, xs[0]):
                 return "the tangency conditions depend on scale (not homothetic)"
+            # the slope ratio does not depend on scale, so read it off at x1 = 1
+            r = sp.powsimp(sp.simplify(r.xreplace({xs[0]: 1})), force=True)
             ratios.append(sp.Eq(r, ws[i] / ws[0]))
         rsols = sp.solve(ratios, rs, dict=True)
         out = []
@@ -262,6 +272,23 @@ def _spending_candidates(method: str, model: Model):
                 out.append((sp.Add(*[w * d for w, d in zip(ws, demands)]), demands))
         return out
     raise ValueError(f"unknown symbolic method {method!r}")
+
+
+def _free_of_numerically(expr, x, tries: int = 6) -> bool:
+    """True when ``expr`` does not change with ``x`` at random values of every symbol."""
+    if x not in expr.free_symbols:
+        return True
+    rng = np.random.default_rng(5)
+    others = sorted(expr.free_symbols - {x}, key=str)
+    fn = sp.lambdify([x] + others, expr, modules="numpy")
+    for _ in range(tries):
+        vals = list(rng.uniform(0.3, 0.9, len(others)))
+        with np.errstate(all="ignore"):
+            a = complex(fn(0.7, *vals))
+            b = complex(fn(2.3, *vals))
+        if not (np.isfinite(a) and np.isfinite(b)) or abs(a - b) > 1e-9 * (1 + abs(a)):
+            return False
+    return True
 
 
 def _exp_of_logs(z):

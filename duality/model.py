@@ -160,6 +160,7 @@ def technology(formula: str | sp.Expr, inputs: Sequence[str], prices: Sequence[s
         Parameter name -> sign assumption for free parameters
         (``positive``, ``negative``, ``nonnegative``, ``nonpositive``, ``real``).
     """
+    _need_list(inputs, prices)
     prices = list(prices) if prices is not None else _default_prices(inputs, "w")
     return _build("technology", formula, list(inputs), prices, level=output,
                   output_price=output_price, income=None, params=params, assume=assume,
@@ -175,9 +176,15 @@ def preference(formula: str | sp.Expr, goods: Sequence[str], prices: Sequence[st
     Parameters are as in :func:`technology`; prices default to ``p1, p2, ...`` and the
     income and utility-level names to ``m`` and ``u``.
     """
+    _need_list(goods, prices)
     prices = list(prices) if prices is not None else _default_prices(goods, "p")
     return _build("preference", formula, list(goods), prices, level=utility, output_price=None,
                   income=income, params=params, assume=assume, name=name)
+
+
+def _need_list(quantities, prices) -> None:
+    if isinstance(quantities, str) or isinstance(prices, str):
+        raise ModelError("quantities and prices are lists of names, e.g. ['x1', 'x2']")
 
 
 def _default_prices(quantities: Sequence[str], letter: str) -> list[str]:

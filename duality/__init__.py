@@ -1,0 +1,47 @@
+"""duality — from a production or utility function to its duals, demands and checks.
+
+The public contract (kept stable)::
+
+    technology, preference                     build a model (validated, immutable)
+    cost, profit, expenditure, indirect_utility derive a dual (catalogue → symbolic → numeric)
+    conjugate                                   Legendre / Legendre–Fenchel transform
+    check                                       identities and properties as records
+
+Results carry ``.expr``, ``.route``, ``.source`` and ``.demands`` and are callable with
+keyword values.  Around them: :func:`elasticities`, :func:`shephard`, :func:`hotelling`,
+:func:`roy`, :func:`shares`, :func:`allen_uzawa`, :func:`morishima`, :func:`parse`.
+
+Results hold only for the assumed functional form and parameter values.
+"""
+from __future__ import annotations
+
+from .checks import CheckRecord, check
+from .conjugate import Conjugate, biconjugate, conjugate
+from .demand import hotelling, roy, shares, shephard
+from .derive import DEFAULT_BUDGET, cost, expenditure, indirect_utility, profit
+from .elasticity import ElasticityTable, allen_uzawa, elasticities, morishima, price_elasticities
+from .errors import (BudgetExceeded, DomainError, DualityError, FormulaError, ModelError,
+                     NoSolutionError)
+from .forms import CATALOGUE
+from .model import Model, Parameter, preference, technology
+from .result import Derived, NumericWarning
+
+__version__ = "0.1.0"
+
+
+def parse(text: str, **kwargs):
+    """Read a formula safely (see :func:`duality.formula.parse`)."""
+    from .formula import parse as _parse
+    return _parse(text, **kwargs)
+
+
+__all__ = [
+    "technology", "preference", "cost", "profit", "expenditure", "indirect_utility",
+    "conjugate", "check",
+    "biconjugate", "elasticities", "shephard", "hotelling", "roy", "shares", "allen_uzawa",
+    "morishima", "price_elasticities", "parse",
+    "Model", "Parameter", "Derived", "Conjugate", "CheckRecord", "ElasticityTable",
+    "CATALOGUE", "DEFAULT_BUDGET",
+    "DualityError", "FormulaError", "ModelError", "NoSolutionError", "DomainError",
+    "BudgetExceeded", "NumericWarning",
+]

@@ -1,0 +1,5 @@
+"""``python -m duality``: the command line."""
+from .cli import main
+
+if __name__ == "__main__":  # pragma: no cover
+    main()

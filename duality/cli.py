@@ -1,0 +1,253 @@
+"""Command line over the same API the library offers.
+
+``duality`` with no command derives and prints every dual, demand, elasticity and check
+of a built-in default technology.  Commands:
+
+* ``duality derive``    — duals and demands of a typed technology or preference
+* ``duality check``     — the check records of a typed model
+* ``duality conjugate`` — the convex conjugate of a typed one-variable formula
+
+Every bad input ends with a one-line message and a non-zero exit, never a traceback.
+"""
+from __future__ import annotations
+
+import json
+import sys
+import warnings
+
+import click
+
+from . import (check as run_checks, conjugate as conj, cost, elasticities, expenditure,
+               indirect_utility, preference, profit, technology)
+from .derive import DEFAULT_BUDGET
+from .errors import DualityError, NoSolutionError
+from .result import Derived
+
+#: The built-in default model: a small decreasing-returns technology.
+DEFAULT = {"formula": "2*x1^0.3*x2^0.5", "role": "technology", "quantities": "x1,x2",
+           "params": (), "point": "w1=1,w2=2,y=5,p=4"}
+
+CAUTION = ("Results hold only for the assumed functional form and parameter values; "
+           "check them before using them for policy or pricing decisions.")
+
+
+class _Fail(click.ClickException):
+    """A one-line error (exit code 2)."""
+
+    exit_code = 2
+
+    def show(self, file=None):
+        click.echo(f"error: {self.format_message()}", err=True)
+
+
+def _model(formula: str, role: str, quantities: str, params: tuple[str, ...], prices: str | None):
+    qs = [q.strip() for q in quantities.split(",") if q.strip()]
+    ps = [p.strip() for p in prices.split(",")] if prices else None
+    values = {}
+    for item in params:
+        if "=" not in item:
+            raise _Fail(f"--param {item!r}: expected name=value, e.g. a=0.3")
+        k, v = item.split("=", 1)
+        try:
+            values[k.strip()] = float(v) if v.strip().lower() != "free" else None
+        except ValueError:
+            raise _Fail(f"--param {item!r}: {v!r} is not a number") from None
+    build = technology if role == "technology" else preference
+    return build(formula, qs, ps, params=values)
+
+
+def _parse_point(text: str) -> dict[str, float]:
+    out = {}
+    for item in filter(None, (t.strip() for t in text.split(","))):
+        if "=" not in item:
+            raise _Fail(f"--at {item!r}: expected name=value pairs separated by commas")
+        k, v = item.split("=", 1)
+        try:
+            out[k.strip()] = float(v)
+        except ValueError:
+            raise _Fail(f"--at {item!r}: {v!r} is not a number") from None
+    return out
+
+
+def _duals(model, budget):
+    """(title, Derived or reason) for every dual of the model."""
+    makers = ([("cost function", cost), ("profit function", profit)] if model.is_technology
+              else [("indirect utility function", indirect_utility),
+                    ("expenditure function", expenditure)])
+    out = []
+    for title, make in makers:
+        try:
+            out.append((title, make(model, budget=budget)))
+        except NoSolutionError as exc:
+            out.append((title, exc.reason))
+    return out
+
+
+def _value(d: Derived, point: dict) -> float | None:
+    names = [str(a) for a in d.args]
+    if not all(n in point for n in names):
+        return None
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        try:
+            return d(**{n: point[n] for n in names})
+        except DualityError:
+            return None
+
+
+def _report(model, budget, point, as_json: bool, with_checks: bool = True) -> None:
+    duals = _duals(model, budget)
+    records = run_checks(model, budget=budget) if with_checks else []
+    table = None
+    el_point = {k: v for k, v in point.items()
+                if k in {str(s) for s in model.prices} | {str(model.level)}
+                | ({str(model.income)} if model.income is not None else set())}
+    try:
+        table = elasticities(model, budget=budget, **el_point)
+    except (DualityError, ArithmeticError, ValueError):
+        table = None
+    if as_json:
+        out = {"model": model.describe(), "caution": CAUTION, "duals": {}, "checks": []}
+        for title, d in duals:
+            if isinstance(d, str):
+                out["duals"][title] = {"exists": False, "reason": d}
+                continue
+            out["duals"][title] = {
+                "expr": None if d.expr is None else str(d.expr), "route": d.route,
+                "method": d.method, "source": d.source, "notes": list(d.notes),
+                "conditions": [str(c) for c in d.conditions], "value_at_point": _value(d, point),
+                "demands": {k: {"expr": None if x.expr is None else str(x.expr),
+                                "value_at_point": _value(x, point)}
+                            for k, x in d.demands.items()}}
+        out["point"] = point
+        out["elasticities"] = None if table is None else table.to_dict()
+        out["checks"] = [r.to_dict() for r in records]
+        click.echo(json.dumps(out, indent=2, default=str))
+        return
+    click.echo(model.describe())
+    click.echo(f"evaluated at: {', '.join(f'{k}={v:g}' for k, v in point.items())}")
+    for title, d in duals:
+        click.echo("")
+        if isinstance(d, str):
+            click.echo(f"{title}: does not exist — {d}")
+            continue
+        click.echo(d.summary())
+        v = _value(d, point)
+        if v is not None:
+            click.echo(f"  value at the point: {v:.10g}")
+        for name, x in d.demands.items():
+            body = "(numeric only)" if x.expr is None else str(x.expr)
+            val = _value(x, point)
+            click.echo(f"  {x.label} {name} = {body}"
+                       + (f"   [= {val:.10g}]" if val is not None else ""))
+    if table is not None:
+        click.echo("")
+        click.echo(table.as_text())
+    if records:
+        click.echo("")
+        click.echo("checks:")
+        for r in records:
+            click.echo("  " + r.line())
+    click.echo("")
+    click.echo(f"Caution: {CAUTION}")
+
+
+_model_options = [
+    click.option("--formula", "-f", default=DEFAULT["formula"], show_default=True,
+                 help="Production or utility function, e.g. 'A*x1^a*x2^b'."),
+    click.option("--role", type=click.Choice(["technology", "preference"]),
+                 default=DEFAULT["role"], show_default=True,
+                 help="Technology (production function) or preference (utility function)."),
+    click.option("--quantities", "-q", default=DEFAULT["quantities"], show_default=True,
+                 help="Comma-separated input or good names."),
+    click.option("--prices", default=None,
+                 help="Comma-separated price names (default w1,w2,... or p1,p2,...)."),
+    click.option("--param", "-P", "params", multiple=True, metavar="NAME=VALUE",
+                 help="Parameter value (repeatable); NAME=free leaves it symbolic."),
+    click.option("--at", "at", default=DEFAULT["point"], show_default=True,
+                 help="Point to evaluate at, e.g. 'w1=1,w2=2,y=5,p=4' or 'p1=1,p2=2,m=10'."),
+    click.option("--budget", type=float, default=DEFAULT_BUDGET, show_default=True,
+                 help="Seconds allowed for symbolic derivation before the numeric route."),
+    click.option("--json", "as_json", is_flag=True, help="Print JSON instead of text."),
+]
+
+
+def _with_model_options(fn):
+    for opt in reversed(_model_options):
+        fn = opt(fn)
+    return fn
+
+
+@click.group(invoke_without_command=True, context_settings={"help_option_names":
+                                                             ["-h", "--help"]})
+@click.pass_context
+def main(ctx: click.Context) -> None:
+    """Derive cost, profit, expenditure and indirect utility functions, their demand
+    systems, elasticities and theory checks from a production or utility function.
+
+    With no command, shows everything for a built-in default technology
+    (y = 2*x1^0.3*x2^0.5)."""
+    if ctx.invoked_subcommand is None:
+        _guard(lambda: _report(_model(DEFAULT["formula"], "technology", DEFAULT["quantities"],
+                                      (), None), DEFAULT_BUDGET,
+                               _parse_point(DEFAULT["point"]), False))
+
+
+@main.command()
+@_with_model_options
+def derive(formula, role, quantities, prices, params, at, budget, as_json):
+    """Print every dual function and demand of a model, with elasticities."""
+    _guard(lambda: _report(_model(formula, role, quantities, params, prices), budget,
+                           _parse_point(at), as_json, with_checks=False))
+
+
+@main.command(name="check")
+@_with_model_options
+def check_cmd(formula, role, quantities, prices, params, at, budget, as_json):
+    """Run the duality checks (lemmas, identities, homogeneity, curvature) of a model."""
+    def run():
+        model = _model(formula, role, quantities, params, prices)
+        records = run_checks(model, budget=budget)
+        if as_json:
+            click.echo(json.dumps([r.to_dict() for r in records], indent=2, default=str))
+        else:
+            click.echo(model.describe())
+            for r in records:
+                click.echo(r.line())
+        if any(r.status == "failed" for r in records):
+            sys.exit(1)
+    _guard(run)
+
+
+@main.command(name="conjugate")
+@click.argument("formula")
+@click.option("--var", "-x", default=None, help="The variable (default: the only one).")
+@click.option("--convention", type=click.Choice(["sup", "intercept"]), default="sup",
+              show_default=True, help="sup: sup_x p·x − f(x); intercept: f(x) − p·x at the "
+                                      "tangency.")
+@click.option("--json", "as_json", is_flag=True, help="Print JSON instead of text.")
+def conjugate_cmd(formula, var, convention, as_json):
+    """Print the convex conjugate of a formula, e.g.  duality conjugate 'x^2'."""
+    def run():
+        c = conj(formula, var, convention=convention)
+        if as_json:
+            click.echo(json.dumps({"expr": str(c.expr), "route": c.route, "kind": c.kind,
+                                   "convention": c.convention, "notes": list(c.notes)},
+                                  indent=2))
+        else:
+            click.echo(f"{c.kind} conjugate ({c.convention} convention, route {c.route}):")
+            click.echo(f"  {c.expr}")
+            for n in c.notes:
+                click.echo(f"  note: {n}")
+    _guard(run)
+
+
+def _guard(fn) -> None:
+    """Run a command body; any error of ours becomes one line and exit code 2."""
+    try:
+        fn()
+    except DualityError as exc:
+        raise _Fail(str(exc).splitlines()[0]) from None
+
+
+__all__ = ["main", "DEFAULT", "CAUTION"]

@@ -1,0 +1,74 @@
+"""The command line: default run, commands, JSON, and one-line errors."""
+from __future__ import annotations
+
+import json
+
+from click.testing import CliRunner
+
+from duality.cli import CAUTION, main
+
+
+def _run(*args):
+    return CliRunner().invoke(main, list(args), catch_exceptions=False)
+
+
+def test_default_run_prints_duals_checks_and_caution():
+    r = _run()
+    assert r.exit_code == 0, r.output
+    for text in ("cost function", "profit function", "conditional input demand",
+                 "Allen–Uzawa", "checks:", "Shephard's lemma", CAUTION):
+        assert text in r.output
+    assert "failed" not in r.output
+
+
+def test_derive_preference_json():
+    r = _run("derive", "--role", "preference", "-f", "x1^0.3*x2^0.7", "--at",
+             "p1=1,p2=2,m=10", "--json")
+    assert r.exit_code == 0, r.output
+    out = json.loads(r.output)
+    v = out["duals"]["indirect utility function"]
+    assert v["route"] == "catalogue"
+    # Marshallian demand x1 = a m / p1 = 3 (Varian 1992, ch. 7; from memory)
+    assert abs(v["demands"]["x1"]["value_at_point"] - 3.0) < 1e-12
+
+
+def test_profit_that_does_not_exist_is_explained():
+    r = _run("derive", "-f", "x1^0.5*x2^0.5", "--at", "w1=1,w2=1,y=1,p=2")
+    assert r.exit_code == 0
+    assert "profit function: does not exist" in r.output
+    assert "constant returns" in r.output
+
+
+def test_check_command_json():
+    r = _run("check", "-f", "x1^0.3*x2^0.5", "--json")
+    assert r.exit_code == 0, r.output
+    recs = json.loads(r.output)
+    assert {rec["status"] for rec in recs} <= {"proved", "held", "not applicable"}
+
+
+def test_conjugate_command():
+    r = _run("conjugate", "x^2")
+    assert r.exit_code == 0
+    assert "p**2/4" in r.output
+    r = _run("conjugate", "x^2", "--convention", "intercept")
+    assert "-p**2/4" in r.output
+
+
+def test_bad_input_is_one_line_and_exit_code_2():
+    for args in (["derive", "-f", "x1*x2 + __import__('os')"],
+                 ["derive", "-f", "x1*k", "-q", "x1"],
+                 ["derive", "-P", "a"],
+                 ["derive", "-f", "x1^a*x2", "-P", "a=abc"],
+                 ["derive", "--at", "w1=oops"],
+                 ["conjugate", "x +* 2"]):
+        r = CliRunner().invoke(main, args)
+        assert r.exit_code == 2, (args, r.output)
+        assert "Traceback" not in r.output
+        assert r.output.startswith("error: ") or "Error" in r.output
+        assert len(r.output.strip().splitlines()) == 1, r.output
+
+
+def test_help_everywhere():
+    for args in ([], ["derive"], ["check"], ["conjugate"]):
+        r = _run(*args, "--help")
+        assert r.exit_code == 0 and "Usage" in r.output

@@ -165,7 +165,7 @@ def _numeric_pass(spec: _Spec, points: list[dict]):
                 for k, r in enumerate(spec.residuals):
                     s = abs(spec.scale[k](pt)) if k < len(spec.scale) else 1.0
                     errs.append(abs(r(pt)) / max(s, 1.0 if not spec.scale else 1e-300))
-        except (DualityError, ArithmeticError, ValueError):
+        except (DualityError, ArithmeticError, ValueError, KeyError):
             continue
         if any(not math.isfinite(e) for e in errs):
             continue
@@ -204,8 +204,14 @@ def _sample(model: Model, n: int, seed: int) -> list[dict]:
     pts = []
     for _ in range(n):
         pv = {s: model.values.get(s, float(rng.uniform(0.2, 0.6))) for s in comp.params}
+        F = _Fns(comp, tuple(pv[s] for s in comp.params))
         x = rng.uniform(0.5, 3.0, len(model.quantities))
-        level = _Fns(comp, tuple(pv[s] for s in comp.params)).f(x)
+        level = F.f(x)
+        for _ in range(8):  # e.g. Stone–Geary: scale up until above subsistence
+            if math.isfinite(level):
+                break
+            x = 2.0 * x
+            level = F.f(x)
         pt = {**pv}
         prices = rng.uniform(0.5, 3.0, len(model.prices))
         pt.update(zip(model.prices, prices))

@@ -314,6 +314,10 @@ def _sample_points(model: Model, k: int = 5, seed: int = 7):
         x = rng.uniform(0.5, 3.0, len(model.quantities))
         w = rng.uniform(0.5, 3.0, len(model.quantities))
         F = _numeric._Fns(comp, tuple(pv[s] for s in comp.params))
+        for _ in range(8):  # scale up until the function is defined (e.g. subsistence)
+            if math.isfinite(F.f(x)):
+                break
+            x = 2.0 * x
         out.append((pv, x, w, F))
     return out
 

@@ -35,6 +35,10 @@ KINDS: dict[str, tuple[str, str]] = {
 }
 
 
+_DEMAND_KINDS = ("conditional_demand", "factor_demand", "marshallian_demand",
+                 "hicksian_demand", "supply", "share")
+
+
 class NumericWarning(UserWarning):
     """Some points of a batch could not be computed and were returned as NaN."""
 
@@ -117,8 +121,7 @@ class Derived:
     def latex(self, *, at_values: bool = False) -> str:
         """``head(args) = closed form`` in LaTeX (or a note that it is numeric)."""
         head = KINDS[self.kind][1]
-        if self.kind in ("conditional_demand", "factor_demand", "marshallian_demand",
-                         "hicksian_demand", "supply", "share") and self.name:
+        if self.kind in _DEMAND_KINDS and self.name:
             head = sp.latex(sp.Symbol(self.name))
         lhs = f"{head}({', '.join(sp.latex(a) for a in self.args)})"
         if self.expr is None:
@@ -137,7 +140,8 @@ class Derived:
 
     def summary(self) -> str:
         """A few lines of text: the function, its route, source, conditions and notes."""
-        lines = [f"{self.label}: {self.name or KINDS[self.kind][1]}"
+        head = self.name if self.kind in _DEMAND_KINDS else KINDS[self.kind][1].lstrip("\\")
+        lines = [f"{self.label}: {head}"
                  f"({', '.join(map(str, self.args))}) = "
                  f"{'(numeric only)' if self.expr is None else self.expr}",
                  f"  route: {self.route} ({self.method})"]

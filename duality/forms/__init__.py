@@ -26,14 +26,18 @@ for _form in (CobbDouglas(), CES(), Leontief(), Linear(), StoneGeary(), QuasiLin
 def _cores(expr: sp.Expr, xs: Sequence[sp.Symbol], values: Mapping) -> list:
     """Candidate (core, layers) splits of ``expr``: as typed and with logs combined."""
     out = []
+
+    def add(core, layers):
+        if all(core != c for c, _ in out):
+            out.append((core, layers))
+
     for e in (expr, sp.logcombine(expr, force=True)):
         core, layers = peel(e, xs, values)
+        add(core, layers)  # as typed: a sum of logs may be quasi-linear
         combined = sp.logcombine(core, force=True)
         if combined != core:
             inner, more = peel(combined, xs, values)
-            core, layers = inner, layers + more
-        if all(core != c for c, _ in out):
-            out.append((core, layers))
+            add(inner, layers + more)
     return out
 
 

@@ -38,6 +38,7 @@ from typing import Any, Callable, Iterable, Sequence
 
 import numpy as np
 import sympy as sp
+from sympy.calculus.util import continuous_domain
 
 from .budget import run_with_budget
 from .errors import BudgetExceeded, DualityError
@@ -627,9 +628,25 @@ def _effective(f, x):
     return pairs[main[0]][0].xreplace({xr: x}), dom
 
 
+def _natural_domain(val, x):
+    """The interval where ``val`` is real and continuous (log x, sqrt x need x > 0 / >= 0)."""
+    xr = sp.Symbol(x.name, real=True)
+    try:
+        nat = continuous_domain(val.xreplace({x: xr}), xr, sp.S.Reals)
+    except Exception:  # noqa: BLE001 - no inference: keep the declared domain
+        return sp.S.Reals
+    return nat if isinstance(nat, sp.Interval) else sp.S.Reals
+
+
 def _conj1_any(f, x, p, deadline) -> _Raw:
     val, dom = _effective(f, x)
     dom = dom.intersect(_symbol_interval(x))
+    nat = _natural_domain(val, x)
+    natural_note = None
+    if nat != sp.S.Reals and not dom.is_subset(nat):
+        dom = dom.intersect(nat)
+        natural_note = (f"f is defined only for {x} in {nat} (its natural domain); it is "
+                        "taken as +oo outside")
     if dom is sp.S.EmptySet:
         raise DualityError(f"f is +oo everywhere (empty domain for {x})")
     if not isinstance(dom, sp.Interval):
@@ -648,6 +665,8 @@ def _conj1_any(f, x, p, deadline) -> _Raw:
     val = val.xreplace({x: xw})
     raw = _conj1(val, xw, p, dom, deadline)
     raw.argmax = {x: v for k, v in raw.argmax.items()}
+    if natural_note:
+        raw.notes = [natural_note] + list(raw.notes)
     return raw
 
 

@@ -391,3 +391,13 @@ def test_custom_dual_name_and_clash_default():
     c2 = conjugate(pp * x**2, x)
     assert [str(v) for v in c2.variables] == ["p_x"]
     assert close(c2(p_x=2.0, p=1.0), 1.0)
+
+
+def test_natural_domain_is_inferred_for_text_without_assumptions():
+    # -log x has domain x > 0 even when x carries no sign assumption:
+    # f*(p) = -1 - log(-p) for p < 0, +oo otherwise (Boyd & Vandenberghe 2004, §3.3.1,
+    # Example 3.21; from memory)
+    c = conjugate("-log(x)", "x")
+    assert c(p=-2.0) == pytest.approx(-1 - math.log(2.0), rel=1e-12)
+    assert c(p=0.5) == math.inf
+    assert any("natural domain" in n for n in c.notes)

@@ -339,14 +339,10 @@ def _verify_spending(model: Model, value, demands) -> tuple[bool, str]:
         level = F.f(xr)
         if not math.isfinite(level):
             continue
-        vals = list(w) + [level] + [pv[s] for s in comp.params]
-        with np.errstate(all="ignore"):
-            x = np.asarray(dfn(*vals), dtype=complex).reshape(-1)
-            v = complex(vfn(*vals))
+        x, v = _bundle(dfn, vfn, list(w) + [level] + [pv[s] for s in comp.params])
         where = _where(ws, w, y, level)
-        if np.any(np.abs(x.imag) > 1e-9 * (1 + np.abs(x.real))) or np.any(x.real <= 0):
+        if x is None:
             return False, f"demands not positive and real at {where}"
-        x = x.real
         if abs(F.f(x) - level) > 1e-8 * (1 + abs(level)):
             return False, f"the level constraint fails at {where}"
         if abs(v.real - w @ x) > 1e-8 * (1 + abs(v.real)):
@@ -358,6 +354,16 @@ def _verify_spending(model: Model, value, demands) -> tuple[bool, str]:
         if not _numeric._second_order_spending(F, x):
             return False, f"the second-order condition fails at {where} (not a minimum)"
     return True, ""
+
+
+def _bundle(dfn, vfn, vals):
+    """Evaluate candidate demands and value; demands None unless positive and real."""
+    with np.errstate(all="ignore"):
+        x = np.asarray(dfn(*vals), dtype=complex).reshape(-1)
+        v = complex(vfn(*vals))
+    if np.any(np.abs(x.imag) > 1e-9 * (1 + np.abs(x.real))) or np.any(x.real <= 0):
+        return None, v
+    return x.real, v
 
 
 def _where(syms, vals, lsym=None, lval=None) -> str:
@@ -419,14 +425,10 @@ def _verify_utility(model: Model, v, marsh) -> tuple[bool, str]:
         return False, f"cannot evaluate ({exc})"
     for pv, xr, p, F in _sample_points(model):
         income = float(p @ xr)
-        vals = list(p) + [income] + [pv[s] for s in comp.params]
-        with np.errstate(all="ignore"):
-            x = np.asarray(dfn(*vals), dtype=complex).reshape(-1)
-            u = complex(vfn(*vals))
+        x, u = _bundle(dfn, vfn, list(p) + [income] + [pv[s] for s in comp.params])
         where = _where(ps, p, m, income)
-        if np.any(np.abs(x.imag) > 1e-9 * (1 + np.abs(x.real))) or np.any(x.real <= 0):
+        if x is None:
             return False, f"demands not positive and real at {where}"
-        x = x.real
         if abs(p @ x - income) > 1e-8 * income or abs(F.f(x) - u.real) > 1e-8 * (1 + abs(u)):
             return False, f"budget or utility level wrong at {where}"
         if F.f(xr) > u.real + 1e-8 * (1 + abs(u)):

@@ -31,6 +31,9 @@ from .result import Derived, NumericWarning
 
 STATUSES = ("proved", "held", "failed", "not applicable")
 
+#: Seconds allowed for each symbolic proof attempt (at most the derivation budget).
+PROOF_BUDGET = 2.0
+
 #: Relative tolerance of numeric checks by finite-difference depth of the residual.
 TOLERANCE = {0: 1e-8, 1: 1e-5, 2: 1e-3}
 
@@ -104,7 +107,10 @@ def _is_zero(expr: sp.Expr) -> bool:
                     lambda e: sp.simplify(sp.powsimp(sp.expand_power_base(
                         sp.expand_log(e, force=True), force=True), force=True)),
                     lambda e: sp.simplify(sp.logcombine(sp.powdenest(e, force=True),
-                                                        force=True))):
+                                                        force=True)),
+                    # homogeneity: pull a common positive factor out of sums under powers
+                    lambda e: sp.simplify(sp.powsimp(sp.expand_power_base(sp.factor_terms(
+                        sp.expand_power_base(e, force=True)), force=True), force=True))):
         try:
             if attempt(expr) == 0:
                 return True
@@ -244,7 +250,7 @@ def check(model: Model, *, budget: float | None = DEFAULT_BUDGET, points: int | 
                            f"{type(model).__name__}")
     names = model.symbols
     names = {v: k for k, v in names.items()}
-    proof_budget = None if budget is None else min(budget, 3.0)
+    proof_budget = None if budget is None else min(budget, PROOF_BUDGET)
     if model.is_technology:
         specs, numeric = _technology_specs(model, budget)
     else:

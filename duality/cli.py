@@ -24,8 +24,7 @@ from .errors import DualityError, NoSolutionError
 from .result import Derived
 
 #: The built-in default model: a small decreasing-returns technology.
-DEFAULT = {"formula": "2*x1^0.3*x2^0.5", "role": "technology", "quantities": "x1,x2",
-           "params": (), "point": "w1=1,w2=2,y=5,p=4"}
+DEFAULT = {"formula": "2*x1^0.3*x2^0.5", "role": "technology", "quantities": "x1,x2"}
 
 CAUTION = ("Results hold only for the assumed functional form and parameter values; "
            "check them before using them for policy or pricing decisions.")
@@ -95,13 +94,43 @@ def _value(d: Derived, point: dict) -> float | None:
             return None
 
 
-def _report(model, budget, point, as_json: bool, with_checks: bool = True) -> None:
+def _default_point(model, given: dict) -> dict:
+    """The evaluation point: what the user gave, completed with plain defaults."""
+    point = {str(s): float(i + 1) for i, s in enumerate(model.prices)}
+    if model.is_technology:
+        point.update({str(model.level): 5.0, str(model.output_price): 4.0})
+    else:
+        point[str(model.income)] = 100.0
+    known = set(point) | {str(model.level)}
+    unknown = sorted(set(given) - known)
+    if unknown:
+        raise _Fail(f"--at: unknown name(s) {', '.join(unknown)}; the model's prices and "
+                    f"levels are {', '.join(sorted(known))}")
+    point.update(given)
+    return point
+
+
+def _complete_utility(model, duals, point: dict) -> None:
+    """For a preference, evaluate expenditure at the utility that income buys."""
+    if model.is_technology or str(model.level) in point:
+        return
+    v = next((d for t, d in duals if isinstance(d, Derived) and d.kind == "indirect_utility"),
+             None)
+    if v is not None:
+        u = _value(v, point)
+        if u is not None:
+            point[str(model.level)] = u
+
+
+def _report(model, budget, at, as_json: bool, with_checks: bool = True) -> None:
+    point = _default_point(model, _parse_point(at or ""))
     duals = _duals(model, budget)
+    _complete_utility(model, duals, point)
     records = run_checks(model, budget=budget) if with_checks else []
     table = None
+    level = model.level if model.is_technology else model.income
     el_point = {k: v for k, v in point.items()
-                if k in {str(s) for s in model.prices} | {str(model.level)}
-                | ({str(model.income)} if model.income is not None else set())}
+                if k in {str(s) for s in model.prices} | {str(level)}}
     try:
         table = elasticities(model, budget=budget, **el_point)
     except (DualityError, ArithmeticError, ValueError):
@@ -164,8 +193,9 @@ _model_options = [
                  help="Comma-separated price names (default w1,w2,... or p1,p2,...)."),
     click.option("--param", "-P", "params", multiple=True, metavar="NAME=VALUE",
                  help="Parameter value (repeatable); NAME=free leaves it symbolic."),
-    click.option("--at", "at", default=DEFAULT["point"], show_default=True,
-                 help="Point to evaluate at, e.g. 'w1=1,w2=2,y=5,p=4' or 'p1=1,p2=2,m=10'."),
+    click.option("--at", "at", default=None,
+                 help="Point to evaluate at, e.g. 'w1=1,w2=2,y=5,p=4' or 'p1=1,p2=2,m=10' "
+                      "(default: prices 1, 2, 3, ...; y=5, p=4 or m=100; u = v(p, m))."),
     click.option("--budget", type=float, default=DEFAULT_BUDGET, show_default=True,
                  help="Seconds allowed for symbolic derivation before the numeric route."),
     click.option("--json", "as_json", is_flag=True, help="Print JSON instead of text."),
@@ -190,7 +220,7 @@ def main(ctx: click.Context) -> None:
     if ctx.invoked_subcommand is None:
         _guard(lambda: _report(_model(DEFAULT["formula"], "technology", DEFAULT["quantities"],
                                       (), None), DEFAULT_BUDGET,
-                               _parse_point(DEFAULT["point"]), False))
+                               None, False))
 
 
 @main.command()
@@ -198,13 +228,15 @@ def main(ctx: click.Context) -> None:
 def derive(formula, role, quantities, prices, params, at, budget, as_json):
     """Print every dual function and demand of a model, with elasticities."""
     _guard(lambda: _report(_model(formula, role, quantities, params, prices), budget,
-                           _parse_point(at), as_json, with_checks=False))
+                           at, as_json, with_checks=False))
 
 
 @main.command(name="check")
 @_with_model_options
 def check_cmd(formula, role, quantities, prices, params, at, budget, as_json):
-    """Run the duality checks (lemmas, identities, homogeneity, curvature) of a model."""
+    """Run the duality checks (lemmas, identities, homogeneity, curvature) of a model.
+
+    Exit code 1 when a check fails, 2 on bad input."""
     def run():
         model = _model(formula, role, quantities, params, prices)
         records = run_checks(model, budget=budget)

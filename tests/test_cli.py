@@ -72,3 +72,17 @@ def test_help_everywhere():
     for args in ([], ["derive"], ["check"], ["conjugate"]):
         r = _run(*args, "--help")
         assert r.exit_code == 0 and "Usage" in r.output
+
+
+def test_preference_gets_a_default_point_and_its_elasticities():
+    r = _run("derive", "--role", "preference", "-f", "log(x1)+2*log(x2)")
+    assert r.exit_code == 0, r.output
+    assert "evaluated at: p1=1, p2=2, m=100" in r.output
+    assert "income elasticities" in r.output
+    # e(p, v(p, m)) = m is shown at the default point
+    assert "value at the point: 100\n" in r.output
+
+
+def test_unknown_point_name_is_refused():
+    r = CliRunner().invoke(main, ["derive", "--at", "w1=2,zz=3"])
+    assert r.exit_code == 2 and "unknown name(s) zz" in r.output

@@ -18,6 +18,7 @@ import numpy as np
 import sympy as sp
 
 from .result import Derived
+from .lambdas import numpy_function
 
 #: Relative step of central finite differences.
 FD_STEP = 1e-5
@@ -61,7 +62,7 @@ class Fn:
             if self._compiled is None:
                 e = self.sym.xreplace(self._params)
                 syms = sorted(e.free_symbols, key=str)
-                self._compiled = (sp.lambdify(syms, e, modules="numpy"), syms)
+                self._compiled = (numpy_function(syms, e), syms)
             fn, syms = self._compiled
             with np.errstate(all="ignore"):
                 try:

@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import math
 import warnings
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Callable, Sequence
 
 import numpy as np
@@ -27,7 +27,7 @@ from .calculus import Fn
 from .derive import DEFAULT_BUDGET, cost, expenditure, indirect_utility, profit
 from .errors import BudgetExceeded, DualityError, NoSolutionError
 from .model import Model
-from .result import Derived, NumericWarning
+from .result import NumericWarning
 
 STATUSES = ("proved", "held", "failed", "not applicable")
 
@@ -277,9 +277,8 @@ def _grad_checks(kind: str, main: Fn, demands: dict, prices, sign: int, lemma: s
     specs = []
     res = [main.diff(w) * sign - Fn.of(x) for (name, x), w in zip(demands.items(), prices)]
     scale = [Fn.of(x) for x in demands.values()]
-    head = "c" if kind == "cost" else ("e" if kind == "expenditure" else r"\pi")
-    specs.append(_Spec(lemma, rf"\partial {head}/\partial w_i = x_i" if kind == "cost" else
-                       (rf"\partial e/\partial p_i = h_i" if kind == "expenditure" else
+    specs.append(_Spec(lemma, r"\partial c/\partial w_i = x_i" if kind == "cost" else
+                       (r"\partial e/\partial p_i = h_i" if kind == "expenditure" else
                         r"-\partial \pi/\partial w_i = x_i"),
                        res, scale, depth=_depth(main, *scale), domain=domain))
     return specs
@@ -421,7 +420,6 @@ def _preference_specs(model: Model, budget) -> tuple[list, bool]:
                        [sum((Fn(p) * x for p, x in zip(ps, X)), Fn.const(0)) - Fn(m)],
                        [Fn(m)], depth=_depth(*X), domain=vdom))
     # Slutsky equation at u = v(p, m): dx_i/dp_j = dh_i/dp_j - x_j dx_i/dm
-    Hv = [h.subs({u: V}) for h in H]
     slutsky_res, slutsky_scale = [], []
     for i, x in enumerate(X):
         for j, p in enumerate(ps):

@@ -34,7 +34,7 @@ from __future__ import annotations
 import math
 import time
 from dataclasses import dataclass, field
-from typing import Any, Callable, Iterable, Sequence
+from typing import Any, Callable
 
 import numpy as np
 import sympy as sp
@@ -42,6 +42,7 @@ from sympy.calculus.util import continuous_domain
 
 from .budget import run_with_budget
 from .errors import BudgetExceeded, DualityError
+from .lambdas import numpy_function
 
 CONVENTIONS = ("sup", "intercept")
 ROUTES = ("legendre", "fenchel", "numeric")
@@ -417,7 +418,6 @@ def _quadratic(f, xs, ps) -> _Raw | None:
         return None
     if poly.total_degree() > 2:
         return None
-    n = len(xs)
     if any(x.is_positive or x.is_negative or x.is_nonnegative or x.is_nonpositive
            for x in xs):
         return None
@@ -461,7 +461,7 @@ def _smooth_multi(f, xs, ps, deadline) -> _Raw:
         grad = [sp.diff(f, x) for x in xs]
         H = sp.hessian(f, xs)
         samples = _multi_samples(xs)
-        hf = sp.lambdify(xs, H, "numpy")
+        hf = numpy_function(xs, H)
         for pt in samples:
             eig = np.linalg.eigvalsh(np.array(hf(*pt), dtype=float))
             if eig.min() <= 0:
@@ -523,7 +523,7 @@ def _multi_samples(xs):
 
 
 def _pick_multi(sols, f, xs, ps, samples):
-    grad = sp.lambdify(xs, [sp.diff(f, x) for x in xs], "numpy")
+    grad = numpy_function(xs, [sp.diff(f, x) for x in xs])
     for sol in sols:
         if set(sol) != set(xs):
             continue
@@ -548,8 +548,8 @@ def _pick_multi(sols, f, xs, ps, samples):
 
 def _numeric_multi(f, xs, ps, notes) -> _Raw:
     from scipy.optimize import minimize
-    fn = sp.lambdify([xs], f, "numpy")
-    gr = sp.lambdify([xs], [sp.diff(f, x) for x in xs], "numpy")
+    fn = numpy_function([xs], f)
+    gr = numpy_function([xs], [sp.diff(f, x) for x in xs])
     bounds = []
     x0 = []
     for x in xs:
@@ -753,7 +753,7 @@ def _convexity(f2, x, dom, params):
     if params:
         return None
     pts = _samples1(dom, 60)
-    fn = sp.lambdify(x, f2, "numpy")
+    fn = numpy_function(x, f2)
     try:
         with np.errstate(all="ignore"):
             vals = np.array([complex(fn(t)) for t in pts])
@@ -794,7 +794,7 @@ def _legendre_worker(f, x, p, dom):
     pv = _param_values(params)
     notes = []
     xs_pts = _samples1(dom, 7)
-    f1n = sp.lambdify(x, f1.subs(pv), "numpy")
+    f1n = numpy_function(x, f1.subs(pv))
 
     def check(cand, pts):
         for t in pts:
@@ -937,7 +937,7 @@ def _numeric1(f, x, p, dom, notes) -> _Raw:
     if f.free_symbols - {x}:
         raise DualityError("the numeric route needs values for the parameters "
                            f"{', '.join(sorted(map(str, f.free_symbols - {x})))}")
-    fn = sp.lambdify(x, f, "numpy")
+    fn = numpy_function(x, f)
     lo = float(dom.start)
     hi = float(dom.end)
 

@@ -31,6 +31,7 @@ from .errors import BudgetExceeded, DualityError, NoSolutionError
 from .forms import recognise
 from .model import Model
 from .result import Derived
+from .lambdas import numpy_function
 from sympy.solvers.solveset import NonlinearError
 
 #: Default wall-clock budget (seconds) of the symbolic route of one dual.
@@ -280,7 +281,7 @@ def _free_of_numerically(expr, x, tries: int = 6) -> bool:
         return True
     rng = np.random.default_rng(5)
     others = sorted(expr.free_symbols - {x}, key=str)
-    fn = sp.lambdify([x] + others, expr, modules="numpy")
+    fn = numpy_function([x] + others, expr)
     for _ in range(tries):
         vals = list(rng.uniform(0.3, 0.9, len(others)))
         with np.errstate(all="ignore"):
@@ -323,11 +324,11 @@ def _sample_points(model: Model, k: int = 5, seed: int = 7):
 
 
 def _lam(args, expr):
-    return sp.lambdify(args, expr, modules="numpy")
+    return numpy_function(args, expr)
 
 
 def _verify_spending(model: Model, value, demands) -> tuple[bool, str]:
-    xs, ws, y = list(model.quantities), list(model.prices), model.level
+    ws, y = list(model.prices), model.level
     comp = _numeric.compile_model(model)
     args = ws + [y] + list(comp.params)
     try:
@@ -439,7 +440,7 @@ def _verify_utility(model: Model, v, marsh) -> tuple[bool, str]:
 # -- profit ---------------------------------------------------------------------------------
 @lru_cache(maxsize=256)
 def _profit_solution(model: Model, budget) -> Solution:
-    xs, ws, y, p = list(model.quantities), list(model.prices), model.level, model.output_price
+    ws, y, p = list(model.prices), model.level, model.output_price
     spend = _spending_solution(model, budget)
     notes = list(spend.notes)
     if spend.value is not None:

@@ -17,6 +17,7 @@ import numpy as np
 import sympy as sp
 
 from .errors import DualityError, ModelError
+from .lambdas import numpy_function
 
 ROLES = ("technology", "preference")
 _NAME = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
@@ -324,7 +325,7 @@ def _check_monotone(model: Model) -> None:
     if f.free_symbols - set(model.quantities):
         return
     try:
-        fn = sp.lambdify(model.quantities, f, modules="numpy")
+        fn = numpy_function(model.quantities, f)
     except Exception:  # pragma: no cover - lambdify failures are reported at use
         return
     n = len(model.quantities)

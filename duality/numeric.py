@@ -27,6 +27,7 @@ from scipy import optimize
 
 from .errors import NoSolutionError
 from .model import Model
+from .lambdas import numpy_function
 
 #: First-order conditions must hold to this (relative) accuracy for a point to count.
 KKT_TOL = 1e-9
@@ -54,11 +55,10 @@ def compile_model(model: Model) -> Compiled:
     grad = [sp.diff(f, x) for x in xs]
     hess = [[sp.diff(g, x) for x in xs] for g in grad]
     args = xs + list(params)
-    mods = ["numpy"]
     return Compiled(len(xs),
-                    sp.lambdify(args, f, modules=mods, cse=True),
-                    sp.lambdify(args, sp.Matrix(grad), modules=mods, cse=True),
-                    sp.lambdify(args, sp.Matrix(hess), modules=mods, cse=True),
+                    numpy_function(args, f, cse=True),
+                    numpy_function(args, sp.Matrix(grad), cse=True),
+                    numpy_function(args, sp.Matrix(hess), cse=True),
                     params)
 
 

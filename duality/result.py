@@ -17,6 +17,7 @@ import numpy as np
 import sympy as sp
 
 from .errors import DomainError, DualityError
+from .lambdas import numpy_function
 
 ROUTES = ("catalogue", "symbolic", "numeric")
 
@@ -157,7 +158,7 @@ class Derived:
     @cached_property
     def _lambda(self) -> Callable:
         syms = list(self.args) + sorted(self.expr.free_symbols - set(self.args), key=str)
-        fn = sp.lambdify(syms, self.expr, modules=["numpy", {"Heaviside": _heaviside}], cse=True)
+        fn = numpy_function(syms, self.expr, cse=True)
         return fn, syms
 
     @cached_property
@@ -165,7 +166,7 @@ class Derived:
         out = []
         for c in self.conditions:
             syms = sorted(c.free_symbols, key=str)
-            out.append((str(c), sp.lambdify(syms, c, modules="numpy"), syms))
+            out.append((str(c), numpy_function(syms, c), syms))
         return out
 
     def __call__(self, **values) -> float | np.ndarray:
@@ -204,6 +205,11 @@ class Derived:
             out[bad] = np.nan
         if scalar:
             if not np.isfinite(out).all() and not bad.any():
+                if self.route == "numeric":
+                    raise DomainError(
+                        f"the numeric solver found no interior optimum for the {self.label} "
+                        "at this point (the optimum may be a corner solution, or may not "
+                        "exist at these prices)")
                 raise DomainError(f"the {self.label} has no finite value at this point")
             return float(out.reshape(-1)[0])
         return out
@@ -244,10 +250,6 @@ def _first_bad(arr: np.ndarray, finite: bool = False) -> str:
     flat = arr.reshape(-1)
     idx = np.flatnonzero(~np.isfinite(flat) if finite else ~(flat > 0))[0]
     return f"{flat[idx]:g}" + (f" at index {idx}" if flat.size > 1 else "")
-
-
-def _heaviside(x, h0=0.5):
-    return np.heaviside(x, h0)
 
 
 __all__ = ["Derived", "KINDS", "ROUTES", "NumericWarning"]

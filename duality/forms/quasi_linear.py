@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import sympy as sp
 
-from .base import CoreSolution, Form, free_of, positive_condition
+from .base import CoreSolution, Form, positive_condition
 
 _q = sp.Symbol("q_", positive=True)
 

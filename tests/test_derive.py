@@ -232,3 +232,12 @@ def test_non_convergent_numeric_points_are_nan_with_a_warning():
         warnings.simplefilter("error", dy.NumericWarning)
         with pytest.raises(dy.NumericWarning):
             c(w1=np.array([1.0, 2.0]), w2=1.0, y=4.0)
+
+
+def test_kinked_preference_evaluates_numerically():
+    # U = min(x1, x2) + x1: one unit of utility costs p1 with x1 alone and (p1 + p2)/2 with
+    # x1 = x2, so e(p, u) = u * min(p1, (p1 + p2)/2) (common practice, no source). Its
+    # Hessian involves DiracDelta, which must not break the numeric route.
+    e = dy.expenditure(dy.preference("min(x1, x2) + x1", ["x1", "x2"]), budget=2)
+    assert e.route == "numeric"
+    assert e(p1=2.0, p2=3.0, u=4.0) == pytest.approx(8.0, rel=1e-6)

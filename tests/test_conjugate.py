@@ -216,7 +216,6 @@ def test_intercept_convention():
 
 
 def test_text_input():
-    pytest.importorskip("duality.formula")
     c = conjugate("x**2", "x")
     assert close(c(p=3.0), 9 / 4)
 

@@ -126,19 +126,21 @@ def _derived(model: Model, kind: str, demand_kind: str, args: tuple, sol: Soluti
             out[yname] = Derived(
                 "supply", args, yexpr, sol.route, sol.method, values, sol.source,
                 sol.notes, sol.conditions, yname, positive,
-                numeric=None if yexpr is not None else (lambda pt: batch(pt)["y"]))
+                numeric=None if yexpr is not None else (lambda pt: batch(pt)["y"]),
+                solver=batch)
         for i, name in enumerate(names):
             e = None if sol.demands is None else sol.demands[i]
             out[name] = Derived(
                 demand_kind, args, e, sol.route, sol.method, values, sol.source, sol.notes,
                 sol.conditions, name, positive,
-                numeric=None if e is not None else (lambda pt, i=i: batch(pt)["x"][i]))
+                numeric=None if e is not None else (lambda pt, i=i: batch(pt)["x"][i]),
+                solver=batch)
         return out
 
     return Derived(kind, args, sol.value, sol.route, sol.method, values, sol.source,
                    sol.notes, sol.conditions, kind, positive,
                    numeric=numeric_value if sol.value is None else None,
-                   demand_factory=factory)
+                   demand_factory=factory, solver=batch)
 
 
 def _spending_result(model: Model, kind: str, demand_kind: str, budget) -> Derived:

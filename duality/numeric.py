@@ -31,8 +31,12 @@ from .lambdas import numpy_function
 
 #: First-order conditions must hold to this (relative) accuracy for a point to count.
 KKT_TOL = 1e-9
-SOLVER = "SLSQP with analytic gradients (ftol 1e-15) polished by Newton steps on the " \
-         "first-order conditions in log-quantities"
+SOLVER = ("batched Newton on the first-order conditions in log-quantities (analytic "
+          "gradients and Hessians, residual 1e-12); points it cannot finish are solved one "
+          "by one with SLSQP and Newton polishing")
+
+#: At most this many points of a batch get the careful one-by-one rescue.
+RESCUE_LIMIT = 1000
 
 
 @dataclass(frozen=True)
@@ -326,13 +330,19 @@ class Batch:
     def __call__(self, point: dict) -> dict:
         key = tuple((str(k), np.asarray(v).tobytes(), np.shape(v)) for k, v in
                     sorted(point.items(), key=lambda kv: str(kv[0])))
-        if key == self._last_key:
-            return self._last
-        out = self._solve(point)
-        self._last_key, self._last = key, out
+        if key != self._last_key:
+            self._last, self._last_key = self._solve(point), key
+        out = self._last
+        bad = int((~out["ok"]).sum())
+        if bad:
+            from .result import NumericWarning
+            warnings.warn(f"the numeric solver did not converge at {bad} of "
+                          f"{out['ok'].size} point(s); those are returned as NaN",
+                          NumericWarning, stacklevel=3)
         return out
 
     def _solve(self, point: dict) -> dict:
+        from . import batch
         m = self.model
         missing = [str(s) for s in self.comp.params if s not in point]
         if missing:
@@ -341,29 +351,33 @@ class Batch:
         shape = np.broadcast(*[np.asarray(v) for v in point.values()]).shape
         flat = {k: np.broadcast_to(np.asarray(v, dtype=float), shape).reshape(-1)
                 for k, v in point.items()}
-        size = int(np.prod(shape)) if shape else 1
-        n = len(m.quantities)
-        value = np.full(size, np.nan)
-        xs = np.full((n, size), np.nan)
-        ys = np.full(size, np.nan)
-        ok = np.zeros(size, dtype=bool)
-        for k in range(size):
-            F = _Fns(self.comp, tuple(float(flat[s][k]) for s in self.comp.params))
-            prices = np.array([flat[s][k] for s in m.prices])
+        prices = np.stack([flat[s] for s in m.prices], axis=1)
+        params = [flat[s] for s in self.comp.params]
+        if self.kind == "spending":
+            res = batch.solve_spending(m, prices, flat[m.level], params)
+        elif self.kind == "utility":
+            res = batch.solve_utility(m, prices, flat[m.income], params)
+        else:
+            res = batch.solve_profit(m, flat[m.output_price], prices, params)
+        value, X = res.value.copy(), res.quantities.copy()
+        Y = None if res.output is None else res.output.copy()
+        ok = res.converged.copy()
+        # points the batched Newton could not finish: one careful solve each
+        for k in np.flatnonzero(~ok)[:RESCUE_LIMIT]:
+            F = _Fns(self.comp, tuple(float(p[k]) for p in params))
             if self.kind == "spending":
-                value[k], xs[:, k], ok[k] = spending_point(F, prices, float(flat[m.level][k]))
+                value[k], X[k], ok[k] = spending_point(F, prices[k], float(flat[m.level][k]))
             elif self.kind == "utility":
-                value[k], xs[:, k], ok[k] = utility_point(F, prices, float(flat[m.income][k]))
+                value[k], X[k], ok[k] = utility_point(F, prices[k], float(flat[m.income][k]))
             else:
-                value[k], ys[k], xs[:, k], ok[k] = profit_point(
-                    F, float(flat[m.output_price][k]), prices)
-        if not ok.all():
-            from .result import NumericWarning
-            warnings.warn(f"the numeric solver did not converge at {int((~ok).sum())} of "
-                          f"{size} point(s); those are returned as NaN", NumericWarning,
-                          stacklevel=3)
-        return {"value": value.reshape(shape), "x": [r.reshape(shape) for r in xs],
-                "y": ys.reshape(shape), "ok": ok.reshape(shape)}
+                value[k], Y[k], X[k], ok[k] = profit_point(
+                    F, float(flat[m.output_price][k]), prices[k])
+        ys = np.full(ok.size, np.nan) if Y is None else Y
+        return {"value": value.reshape(shape), "x": [X[:, i].reshape(shape)
+                                                     for i in range(X.shape[1])],
+                "y": ys.reshape(shape), "ok": ok.reshape(shape),
+                "iterations": res.iterations.reshape(shape),
+                "residual": res.residual.reshape(shape)}
 
 
 __all__ = ["Batch", "compile_model", "spending_point", "utility_point", "profit_point",

@@ -84,12 +84,23 @@ class Derived:
     positive_args: frozenset = frozenset()
     numeric: Callable[..., np.ndarray] | None = field(default=None, repr=False)
     demand_factory: Callable[[], dict] | None = field(default=None, repr=False)
+    solver: Callable[[dict], dict] | None = field(default=None, repr=False)
 
     def __post_init__(self) -> None:
         if self.route not in ROUTES:
             raise ValueError(f"route {self.route!r} is not one of {ROUTES}")
         if self.expr is None and self.numeric is None:
             raise ValueError("a derived function needs an expression or a numeric evaluator")
+
+    def __getstate__(self):
+        # compiled code is rebuilt on demand (it does not travel to other processes)
+        state = dict(self.__dict__)
+        for key in ("_lambda", "_condition_fns"):
+            state.pop(key, None)
+        return state
+
+    def __setstate__(self, state):
+        self.__dict__.update(state)
 
     # -- views -------------------------------------------------------------------
     @property
@@ -213,6 +224,22 @@ class Derived:
                 raise DomainError(f"the {self.label} has no finite value at this point")
             return float(out.reshape(-1)[0])
         return out
+
+    def solver_report(self, **values) -> dict[str, np.ndarray]:
+        """Per point, how the numeric solver did: ``iterations``, ``residual`` (max-norm
+        of the first-order conditions in logs) and ``converged``.
+
+        Only for numeric results; arguments as for calling the function.
+        """
+        if self.solver is None:
+            raise DualityError(f"this {self.label} is a closed form ({self.route}); "
+                               "there is no solver report")
+        point, _ = self._point(values)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", NumericWarning)
+            out = self.solver(point)
+        return {"iterations": out["iterations"], "residual": out["residual"],
+                "converged": out["ok"]}
 
     def _point(self, values: Mapping[str, object]) -> tuple[dict, bool]:
         names = {str(a): a for a in self.args}

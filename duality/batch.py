@@ -1,0 +1,612 @@
+"""Batched numeric duals: Newton on the first-order conditions for all points at once.
+
+For a model with no closed-form dual, the cost (expenditure), indirect utility and profit
+functions are evaluated at N price points together:
+
+* unknowns are log-quantities z = log x (and the log multiplier), so every quantity stays
+  positive and the conditions are well scaled;
+* gradients and Hessians come from sympy, lambdified once per model (with common
+  subexpressions shared) and evaluated on whole arrays;
+* every Newton step solves N small linear systems in one batched call; step halving is
+  applied only at the points whose residual did not fall;
+* a homothetic technology is solved once at a reference level and then scaled along the
+  ray to each requested level (the tangency direction does not depend on the level);
+* each point reports its iterations and final residual; a point that does not converge,
+  or converges to a point that is not a minimum (second-order condition), is reported as
+  such and its value is NaN — never returned as a number.
+
+Notes
+-----
+Spending problem, min w·x s.t. f(x) = y, in z = log x and μ = log λ:
+    log w_i − μ − log f_i(x) = 0 (i = 1..n),   log f(x) − log y = 0.
+Utility problem, max f(x) s.t. p·x = m:
+    log f_i(x) − μ − log p_i = 0,   log(p·x) − log m = 0.
+Profit, max p f(x) − w·x: the output y solves λ(w, y) = p, where λ is the spending
+problem's multiplier (marginal cost); found by a safeguarded secant in log y, with
+λ increasing in y required (decreasing returns locally).
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from functools import lru_cache
+
+import numpy as np
+import sympy as sp
+
+from .lambdas import numpy_function
+from .model import Model
+
+#: Residual (max-norm, in logs) under which a point counts as converged.
+TOL = 1e-12
+MAXITER = 60
+
+
+@dataclass(frozen=True)
+class BatchResult:
+    """Solutions at N points.
+
+    Attributes
+    ----------
+    value : ndarray (N,)
+        Minimal cost or expenditure, maximal utility, or maximal profit; NaN where the
+        point did not converge.
+    quantities : ndarray (N, n)
+        Optimal bundle (NaN where not converged).
+    multiplier : ndarray (N,)
+        Lagrange multiplier (marginal cost, or marginal utility of income).
+    output : ndarray (N,) or None
+        Output supplied (profit problems only).
+    iterations : ndarray of int (N,)
+        Newton iterations used.
+    residual : ndarray (N,)
+        Final max-norm residual of the first-order conditions (in logs).
+    converged : ndarray of bool (N,)
+    """
+
+    value: np.ndarray
+    quantities: np.ndarray
+    multiplier: np.ndarray
+    iterations: np.ndarray
+    residual: np.ndarray
+    converged: np.ndarray
+    output: np.ndarray | None = None
+    notes: tuple[str, ...] = field(default=())
+
+    @property
+    def failed(self) -> np.ndarray:
+        """Indices of the points that did not converge."""
+        return np.flatnonzero(~self.converged)
+
+
+# -- compiled model ------------------------------------------------------------------------
+class Compiled:
+    """f, ∇f and ∇²f of a model as numpy functions of whole arrays of points."""
+
+    def __init__(self, model: Model):
+        xs = list(model.quantities)
+        self.n = len(xs)
+        self.params = tuple(sorted(model.expr.free_symbols - set(xs), key=str))
+        f = model.expr
+        grad = [sp.diff(f, x) for x in xs]
+        self._pairs = [(i, j) for i in range(self.n) for j in range(i, self.n)]
+        hess = [sp.diff(grad[i], xs[j]) for i, j in self._pairs]
+        args = xs + list(self.params)
+        self._f = numpy_function(args, f, cse=True)
+        self._g = numpy_function(args, grad, cse=True)
+        self._h = numpy_function(args, hess, cse=True)
+
+    def _args(self, X, P):
+        return [X[:, i] for i in range(self.n)] + list(P)
+
+    def f(self, X, P):
+        with np.errstate(all="ignore"):
+            return _real(np.broadcast_to(self._f(*self._args(X, P)), X.shape[:1]))
+
+    def fg(self, X, P):
+        a = self._args(X, P)
+        N = X.shape[0]
+        with np.errstate(all="ignore"):
+            f = _real(np.broadcast_to(self._f(*a), (N,)))
+            G = np.stack([_real(np.broadcast_to(g, (N,))) for g in self._g(*a)], axis=1)
+        return f, G
+
+    def fgh(self, X, P):
+        a = self._args(X, P)
+        N = X.shape[0]
+        f, G = self.fg(X, P)
+        H = np.empty((N, self.n, self.n))
+        with np.errstate(all="ignore"):
+            for (i, j), h in zip(self._pairs, self._h(*a)):
+                H[:, i, j] = H[:, j, i] = _real(np.broadcast_to(h, (N,)))
+        return f, G, H
+
+
+def _real(a):
+    a = np.asarray(a)
+    if np.iscomplexobj(a):
+        out = a.real.astype(float)
+        out[np.abs(a.imag) > 1e-12 * (1 + np.abs(a.real))] = np.nan
+        return out
+    return np.array(a, dtype=float)  # a writable copy (inputs may be broadcast views)
+
+
+@lru_cache(maxsize=64)
+def compiled(model: Model) -> Compiled:
+    """The compiled model (cached per model)."""
+    return Compiled(model)
+
+
+@lru_cache(maxsize=64)
+def is_homothetic(model: Model) -> bool:
+    """True when the slope ratios f_i/f_1 do not change along rays (checked numerically).
+
+    Needs every parameter to have a value; a model with free parameters reports False.
+    """
+    comp = compiled(model)
+    if comp.params and set(comp.params) - set(model.values):
+        return False
+    rng = np.random.default_rng(17)
+    X = rng.uniform(0.3, 3.0, (8, comp.n))
+    P = [np.full(8, model.values[s]) for s in comp.params]
+    _, G1 = comp.fg(X, P)
+    _, G2 = comp.fg(3.7 * X, P)
+    if not (np.all(np.isfinite(G1)) and np.all(np.isfinite(G2))) or np.any(G1 <= 0):
+        return False
+    r1, r2 = G1 / G1[:, :1], G2 / G2[:, :1]
+    return bool(np.max(np.abs(r1 - r2) / np.abs(r1)) < 1e-10)
+
+
+# -- spending -----------------------------------------------------------------------------
+def _level_res(f, y):
+    """Residual of f = y: in logs where y > 0, else relative."""
+    with np.errstate(all="ignore"):
+        pos = y > 0
+        out = np.where(pos, np.log(np.where(pos, f, 1.0)) - np.log(np.where(pos, y, 1.0)),
+                       (f - y) / np.maximum(1.0, np.abs(y)))
+        out[pos & ~(f > 0)] = np.nan
+    return out, pos
+
+
+def start_on_level(comp: Compiled, W, Y, P):
+    """Points on the ray x = t·(1/w)/Σ(1/w) with f(x) = y.
+
+    Newton steps in s = log t (f increases along the ray, so d log f/ds = ∇f·x / f > 0)
+    for every point at once; points where that fails are bracketed and bisected.
+    Returns the start points and a mask of the points where the level was reached.
+    """
+    base = (1.0 / W) / (1.0 / W).sum(axis=1, keepdims=True)
+    N = W.shape[0]
+    s = np.zeros(N)
+    pos = Y > 0
+    for _ in range(30):
+        X = np.exp(s)[:, None] * base
+        f, G = comp.fg(X, P)
+        with np.errstate(all="ignore"):
+            r = np.where(pos, np.log(f) - np.log(np.where(pos, Y, 1.0)), f - Y)
+            d = np.where(pos, np.einsum("ij,ij->i", G, X) / f, np.einsum("ij,ij->i", G, X))
+            step = np.clip(r / d, -3.0, 3.0)
+        if np.all(np.abs(r) < 1e-13):
+            break
+        s = np.where(np.isfinite(step), s - step, s)
+    X = np.exp(s)[:, None] * base
+    f = comp.f(X, P)
+    with np.errstate(all="ignore"):
+        good = np.abs(np.where(pos, np.log(f) - np.log(np.where(pos, Y, 1.0)), f - Y)) < 1e-10
+    if good.all():
+        return X, good
+    X_b, ok_b = _bisect_on_level(comp, W[~good], Y[~good], [p[~good] for p in P])
+    X[~good], good[~good] = X_b, ok_b
+    return X, good
+
+
+def _bisect_on_level(comp: Compiled, W, Y, P, iters: int = 80):
+    base = (1.0 / W) / (1.0 / W).sum(axis=1, keepdims=True)
+    N = W.shape[0]
+    lo, hi = np.full(N, -2.0), np.full(N, 2.0)
+
+    def gap(s):
+        v = comp.f(np.exp(s)[:, None] * base, P)
+        return np.where(np.isfinite(v), v - Y, np.nan)
+
+    for _ in range(40):  # widen until bracketed (NaN below counts as "too low")
+        glo, ghi = gap(lo), gap(hi)
+        need_lo = ~(glo <= 0)
+        need_hi = ~(ghi >= 0)
+        if not (need_lo.any() or need_hi.any()):
+            break
+        lo = np.where(need_lo, lo - 3.0, lo)
+        hi = np.where(need_hi, hi + 3.0, hi)
+        lo, hi = np.maximum(lo, -300.0), np.minimum(hi, 300.0)
+    for _ in range(iters):
+        mid = 0.5 * (lo + hi)
+        gm = gap(mid)
+        up = gm >= 0
+        hi = np.where(up, mid, hi)
+        lo = np.where(up, lo, mid)
+    ok = np.abs(gap(hi)) <= 1e-9 * np.maximum(1.0, np.abs(Y))  # NaN (undefined) fails
+    return np.exp(hi)[:, None] * base, ok
+
+
+def _spending_system(comp, W, Y, P, z, mu):
+    X = np.exp(z)
+    f, G, H = comp.fgh(X, P)
+    with np.errstate(all="ignore"):
+        r = np.empty((len(Y), comp.n + 1))
+        r[:, :comp.n] = np.log(W) - mu[:, None] - np.log(G)
+        r[:, comp.n], pos = _level_res(f, Y)
+        J = np.zeros((len(Y), comp.n + 1, comp.n + 1))
+        J[:, :comp.n, :comp.n] = -H * X[:, None, :] / G[:, :, None]
+        J[:, :comp.n, comp.n] = -1.0
+        denom = np.where(pos, f, np.maximum(1.0, np.abs(Y)))
+        J[:, comp.n, :comp.n] = G * X / denom[:, None]
+    return r, J, (f, G, H, X)
+
+
+def _residual_only(comp, W, Y, P, z, mu):
+    X = np.exp(z)
+    f, G = comp.fg(X, P)
+    with np.errstate(all="ignore"):
+        r = np.empty((len(Y), comp.n + 1))
+        r[:, :comp.n] = np.log(W) - mu[:, None] - np.log(G)
+        r[:, comp.n], _ = _level_res(f, Y)
+    return _maxnorm(r)
+
+
+def _maxnorm(r):
+    out = np.max(np.abs(r), axis=1)
+    out[~np.all(np.isfinite(r), axis=1)] = np.inf
+    return out
+
+
+def _newton(system, residual, v, args, tol, maxiter):
+    """Damped Newton for all points; halving only where the residual did not fall."""
+    N = v.shape[0]
+    iters = np.zeros(N, dtype=int)
+    active = np.ones(N, dtype=bool)
+    norm = np.full(N, np.inf)
+    first = True
+    for _ in range(maxiter + 1):
+        idx = np.flatnonzero(active)
+        if idx.size == 0:
+            break
+        if first:
+            sub = [a[idx] if isinstance(a, np.ndarray) else [p[idx] for p in a] for a in args]
+            norm[idx] = residual(*sub, v[idx])
+            first = False
+        nr = norm[idx]
+        done = nr <= tol
+        bad = ~np.isfinite(nr)
+        active[idx[done | bad]] = False
+        keep = ~(done | bad)
+        idx, nr = idx[keep], nr[keep]
+        if idx.size == 0:
+            break
+        sub = [a[idx] if isinstance(a, np.ndarray) else [p[idx] for p in a] for a in args]
+        r, J, _ = system(*sub, v[idx])
+        step = solve_small(J, -r)
+        iters[idx] += 1
+        t = np.ones(idx.size)
+        pending = np.ones(idx.size, dtype=bool)
+        for _ in range(40):
+            pidx = np.flatnonzero(pending)
+            if pidx.size == 0:
+                break
+            gidx = idx[pidx]
+            cand = v[gidx] + t[pidx, None] * step[pidx]
+            sub = [a[gidx] if isinstance(a, np.ndarray) else [p[gidx] for p in a]
+                   for a in args]
+            new = residual(*sub, cand)
+            better = new < nr[pidx]
+            acc = pidx[better]
+            v[idx[acc]] = cand[better]
+            norm[idx[acc]] = new[better]
+            pending[acc] = False
+            t[pidx[~better]] *= 0.5
+        stuck = idx[pending]
+        active[stuck] = False  # no descent along the Newton direction: give up here
+    return v, iters, norm
+
+
+def solve_spending(model: Model, W, Y, P, *, tol: float = TOL,
+                   maxiter: int = MAXITER) -> BatchResult:
+    """min w·x s.t. f(x) = y at N points (rows of ``W``; ``Y`` and parameter arrays ``P``
+    in the order of :attr:`Compiled.params`, each of length N)."""
+    comp = compiled(model)
+    W = np.asarray(W, float)
+    Y = np.asarray(Y, float)
+    N = W.shape[0]
+    P = [np.broadcast_to(np.asarray(p, float), (N,)) for p in P]
+    notes = []
+    if (N > 1 and np.all(Y > 0) and all(np.ptp(p) == 0 for p in P if p.size)
+            and is_homothetic(model)):
+        repeats = len(np.unique(W[:, 0])) <= N // 2  # cheap screen on one column
+        uniq, inverse = (np.unique(W, axis=0, return_inverse=True) if repeats
+                         else (W, None))
+        if repeats and len(uniq) <= N // 2:  # solve each price row once, then scale
+            res = _homothetic(comp, uniq, np.asarray(inverse).reshape(-1), W, Y, P, tol,
+                              maxiter)
+            if res is not None:
+                return res
+            notes.append("homothetic shortcut failed; solved at each level")
+    X0, ok = start_on_level(comp, W, Y, P)
+    z = np.log(X0)
+    f0, G0 = comp.fg(X0, P)
+    with np.errstate(all="ignore"):
+        lam0 = np.einsum("ij,ij->i", W, X0) / np.einsum("ij,ij->i", G0, X0)
+        mu0 = np.log(np.where(lam0 > 0, lam0, 1.0))
+    v = np.concatenate([z, mu0[:, None]], axis=1)
+    v[~ok] = np.nan
+
+    def system(W_, Y_, P_, v_):
+        return _spending_system(comp, W_, Y_, P_, v_[:, :comp.n], v_[:, comp.n])
+
+    def residual(W_, Y_, P_, v_):
+        return _residual_only(comp, W_, Y_, P_, v_[:, :comp.n], v_[:, comp.n])
+
+    v, iters, norm = _newton(system, residual, v, (W, Y, P), tol, maxiter)
+    return _spending_result(comp, W, P, v, iters, norm, tol, tuple(notes))
+
+
+def _spending_result(comp, W, P, v, iters, norm, tol, notes) -> BatchResult:
+    X = np.exp(v[:, :comp.n])
+    conv = (norm <= tol) & second_order(comp, X, P)
+    X[~conv] = np.nan
+    value = np.einsum("ij,ij->i", W, X)
+    lam = np.exp(v[:, comp.n])
+    lam[~conv] = np.nan
+    return BatchResult(value, X, lam, iters, norm, conv, None, notes)
+
+
+def second_order(comp: Compiled, X, P) -> np.ndarray:
+    """f quasi-concave at X: ∇²f negative semidefinite on the tangent space of ∇f."""
+    N = X.shape[0]
+    ok = np.zeros(N, dtype=bool)
+    finite = np.all(np.isfinite(X), axis=1)
+    if not finite.any():
+        return ok
+    idx = np.flatnonzero(finite)
+    Xs = X[idx]
+    Ps = [p[idx] if np.ndim(p) else p for p in P]
+    _, G, H = comp.fgh(Xs, Ps)
+    good = np.all(np.isfinite(G), axis=1) & np.all(np.isfinite(H), axis=(1, 2))
+    if comp.n == 1:
+        ok[idx] = good
+        return ok
+    Gs = np.where(good[:, None], G, 1.0)
+    Hs = np.where(good[:, None, None], H, 0.0)
+    Z = _tangent_basis(Gs)                                   # (N, n, n-1), orthonormal
+    M = np.matmul(np.transpose(Z, (0, 2, 1)), np.matmul(Hs, Z))
+    top = _max_eigenvalue(M)
+    scale = np.maximum(1.0, np.abs(Hs).max(axis=(1, 2)))
+    ok[idx] = good & (top <= 1e-7 * scale)
+    return ok
+
+
+def _tangent_basis(G):
+    """Orthonormal bases of the planes orthogonal to the rows of G (Householder)."""
+    N, n = G.shape
+    u = G / np.linalg.norm(G, axis=1, keepdims=True)
+    sign = np.where(u[:, 0] >= 0, 1.0, -1.0)
+    v = u.copy()
+    v[:, 0] += sign                                          # v = u + sign(u1) e1
+    Hh = np.eye(n)[None] - 2 * v[:, :, None] * v[:, None, :] / np.einsum("ni,ni->n", v, v)[:, None, None]
+    return Hh[:, :, 1:]                                      # columns 2..n span u⊥
+
+
+def _max_eigenvalue(M):
+    """Largest eigenvalue of symmetric (N, k, k) matrices; closed form for k <= 2."""
+    k = M.shape[1]
+    if k == 1:
+        return M[:, 0, 0]
+    if k == 2:
+        a, b, c = M[:, 0, 0], 0.5 * (M[:, 0, 1] + M[:, 1, 0]), M[:, 1, 1]
+        return 0.5 * (a + c) + np.sqrt(0.25 * (a - c) ** 2 + b * b)
+    return np.linalg.eigvalsh(0.5 * (M + np.transpose(M, (0, 2, 1)))).max(axis=1)
+
+
+def solve_small(A, b):
+    """Solve A x = b for a batch of small systems (N, m, m).
+
+    Gaussian elimination with partial pivoting written over the batch axis: every
+    operation acts on a length-N vector, which for m <= 8 is several times faster than
+    LAPACK called once per tiny matrix.  Singular systems give non-finite rows.
+    """
+    N, m, _ = A.shape
+    if m > 8:
+        with np.errstate(all="ignore"):
+            try:
+                return np.linalg.solve(A, b[..., None])[..., 0]
+            except np.linalg.LinAlgError:
+                return np.stack([np.linalg.lstsq(a_, r_, rcond=None)[0]
+                                 for a_, r_ in zip(A, b)])
+    a = [[np.array(A[:, i, j], dtype=float) for j in range(m)] for i in range(m)]
+    r = [np.array(b[:, i], dtype=float) for i in range(m)]
+    with np.errstate(all="ignore"):
+        for k in range(m):
+            if k < m - 1:
+                piv = k + np.argmax(np.abs(np.stack([a[i][k] for i in range(k, m)])), axis=0)
+                for i in range(k + 1, m):
+                    sw = piv == i
+                    if sw.any():
+                        for j in range(k, m):
+                            a[k][j], a[i][j] = (np.where(sw, a[i][j], a[k][j]),
+                                                np.where(sw, a[k][j], a[i][j]))
+                        r[k], r[i] = np.where(sw, r[i], r[k]), np.where(sw, r[k], r[i])
+            for i in range(k + 1, m):
+                f = a[i][k] / a[k][k]
+                for j in range(k + 1, m):
+                    a[i][j] -= f * a[k][j]
+                r[i] -= f * r[k]
+        x = [None] * m
+        for k in range(m - 1, -1, -1):
+            acc = r[k].copy()
+            for j in range(k + 1, m):
+                acc -= a[k][j] * x[j]
+            x[k] = acc / a[k][k]
+    return np.stack(x, axis=1)
+
+
+def _homothetic(comp, Wu, inverse, W, Y, P, tol, maxiter) -> BatchResult | None:
+    """Solve once per distinct price row at a reference level, then move along each ray
+    to the requested level (for homothetic f the tangency direction does not depend on
+    the level)."""
+    P1 = [p[:1] for p in P]
+    yref = float(comp.f(np.ones((1, comp.n)), P1)[0])
+    if not (np.isfinite(yref) and yref > 0):
+        return None
+    N = W.shape[0]
+    K = Wu.shape[0]
+    unit = solve_spending_plain(comp, Wu, np.full(K, yref), [p[:K] for p in P], tol, maxiter)
+    if not np.all(unit[2] <= tol):
+        return None
+    Xh = np.exp(unit[0][:, :comp.n])[inverse]
+    # scale: log f(e^s x̂) = log y, Newton in s from s = 0 (f(x̂) = yref)
+    s = np.zeros(N)
+    norm = np.full(N, np.inf)
+    for _ in range(100):
+        X = np.exp(s)[:, None] * Xh
+        f, G = comp.fg(X, P)
+        with np.errstate(all="ignore"):
+            r = np.log(f) - np.log(Y)
+            d = np.einsum("ij,ij->i", G, X) / f
+        norm = np.abs(r)
+        if np.all(norm <= tol) or not np.all(np.isfinite(r)) or np.any(d <= 0):
+            break
+        s = s - r / d
+    if not np.all(np.isfinite(norm)):
+        return None
+    X = np.exp(s)[:, None] * Xh
+    f, G = comp.fg(X, P)
+    with np.errstate(all="ignore"):
+        mu = np.log(np.einsum("ij,ij->i", W, X) / np.einsum("ij,ij->i", G, X))
+    v = np.concatenate([np.log(X), mu[:, None]], axis=1)
+    full = _residual_only(comp, W, Y, P, v[:, :comp.n], v[:, comp.n])
+    iters = unit[1][inverse]
+    return _spending_result(comp, W, P, v, iters, full, max(tol, 1e-11),
+                            ("homothetic: solved at a reference level, then scaled",))
+
+
+def solve_spending_plain(comp, W, Y, P, tol, maxiter):
+    X0, ok = start_on_level(comp, W, Y, P)
+    f0, G0 = comp.fg(X0, P)
+    with np.errstate(all="ignore"):
+        lam0 = np.einsum("ij,ij->i", W, X0) / np.einsum("ij,ij->i", G0, X0)
+        mu0 = np.log(np.where(lam0 > 0, lam0, 1.0))
+    v = np.concatenate([np.log(X0), mu0[:, None]], axis=1)
+    v[~ok] = np.nan
+
+    def system(W_, Y_, P_, v_):
+        return _spending_system(comp, W_, Y_, P_, v_[:, :comp.n], v_[:, comp.n])
+
+    def residual(W_, Y_, P_, v_):
+        return _residual_only(comp, W_, Y_, P_, v_[:, :comp.n], v_[:, comp.n])
+
+    return _newton(system, residual, v, (W, Y, P), tol, maxiter)
+
+
+# -- utility --------------------------------------------------------------------------------
+def solve_utility(model: Model, Pr, M, P, *, tol: float = TOL,
+                  maxiter: int = MAXITER) -> BatchResult:
+    """max f(x) s.t. p·x = m at N points."""
+    comp = compiled(model)
+    Pr = np.asarray(Pr, float)
+    M = np.asarray(M, float)
+    P = [np.broadcast_to(np.asarray(p, float), (len(M),)) for p in P]
+    n = comp.n
+    X0 = M[:, None] / (n * Pr)
+    _, G0 = comp.fg(X0, P)
+    with np.errstate(all="ignore"):
+        mu0 = np.log(np.einsum("ij,ij->i", G0, X0) / M)
+    v = np.concatenate([np.log(X0), np.where(np.isfinite(mu0), mu0, 0.0)[:, None]], axis=1)
+
+    def parts(Pr_, M_, P_, v_, hess=True):
+        X = np.exp(v_[:, :n])
+        mu = v_[:, n]
+        if hess:
+            f, G, H = comp.fgh(X, P_)
+        else:
+            f, G = comp.fg(X, P_)
+            H = None
+        with np.errstate(all="ignore"):
+            r = np.empty((len(M_), n + 1))
+            r[:, :n] = np.log(G) - mu[:, None] - np.log(Pr_)
+            spend = np.einsum("ij,ij->i", Pr_, X)
+            r[:, n] = np.log(spend) - np.log(M_)
+        return r, X, G, H, spend
+
+    def system(Pr_, M_, P_, v_):
+        r, X, G, H, spend = parts(Pr_, M_, P_, v_)
+        J = np.zeros((len(M_), n + 1, n + 1))
+        with np.errstate(all="ignore"):
+            J[:, :n, :n] = H * X[:, None, :] / G[:, :, None]
+            J[:, :n, n] = -1.0
+            J[:, n, :n] = Pr_ * X / spend[:, None]
+        return r, J, None
+
+    def residual(Pr_, M_, P_, v_):
+        return _maxnorm(parts(Pr_, M_, P_, v_, hess=False)[0])
+
+    v, iters, norm = _newton(system, residual, v, (Pr, M, P), tol, maxiter)
+    X = np.exp(v[:, :n])
+    conv = (norm <= tol) & second_order(comp, X, P)
+    X[~conv] = np.nan
+    value = comp.f(np.where(conv[:, None], X, 1.0), P)
+    value[~conv] = np.nan
+    lam = np.exp(v[:, n])
+    lam[~conv] = np.nan
+    return BatchResult(value, X, lam, iters, norm, conv)
+
+
+# -- profit -----------------------------------------------------------------------------------
+def solve_profit(model: Model, price, W, P, *, tol: float = TOL,
+                 maxiter: int = MAXITER) -> BatchResult:
+    """max p f(x) − w·x at N points: find y with marginal cost λ(w, y) = p."""
+    comp = compiled(model)
+    price = np.asarray(price, float)
+    W = np.asarray(W, float)
+    N = W.shape[0]
+    P = [np.broadcast_to(np.asarray(p, float), (N,)) for p in P]
+    price = np.broadcast_to(price, (N,))
+    logp = np.log(price)
+    # two trial levels give a local slope of log λ in log y
+    ly = np.zeros(N)
+    a = solve_spending(model, W, np.exp(ly), P, tol=tol, maxiter=maxiter)
+    b = solve_spending(model, W, np.exp(ly + 0.5), P, tol=tol, maxiter=maxiter)
+    la, lb = np.log(a.multiplier), np.log(b.multiplier)
+    y_prev, l_prev = ly + 0.5, lb
+    y_cur = ly
+    l_cur = la
+    iters = a.iterations + b.iterations
+    last = a
+    for _ in range(60):
+        with np.errstate(all="ignore"):
+            slope = (l_cur - l_prev) / (y_cur - y_prev)
+            slope = np.where(np.isfinite(slope) & (slope > 1e-9), slope, np.nan)
+            step = (logp - l_cur) / slope
+            step = np.clip(step, -5.0, 5.0)
+        done = np.abs(logp - l_cur) <= tol
+        if np.all(done | ~np.isfinite(step)):
+            break
+        y_new = np.where(done | ~np.isfinite(step), y_cur, y_cur + step)
+        res = solve_spending(model, W, np.exp(y_new), P, tol=tol, maxiter=maxiter)
+        iters = iters + res.iterations
+        y_prev, l_prev = y_cur, l_cur
+        y_cur, l_cur = y_new, np.log(res.multiplier)
+        last = res
+    conv = last.converged & (np.abs(logp - l_cur) <= 1e-10)
+    # marginal cost must rise with output (second-order condition of profit maximisation)
+    with np.errstate(all="ignore"):
+        rising = (l_cur - l_prev) / (y_cur - y_prev) > 0
+    conv &= np.where(np.isfinite(rising), rising, False) | (np.abs(y_cur - y_prev) == 0)
+    Y = np.exp(y_cur)
+    X = last.quantities.copy()
+    X[~conv] = np.nan
+    value = price * Y - np.einsum("ij,ij->i", W, X)
+    value[~conv] = np.nan
+    Y = np.where(conv, Y, np.nan)
+    return BatchResult(value, X, np.where(conv, price, np.nan), iters,
+                       np.abs(logp - l_cur), conv, Y)
+
+
+__all__ = ["BatchResult", "Compiled", "compiled", "is_homothetic", "solve_spending",
+           "solve_utility", "solve_profit", "second_order", "start_on_level", "TOL"]

@@ -9,7 +9,8 @@ The public contract (kept stable)::
 
 Results carry ``.expr``, ``.route``, ``.source`` and ``.demands`` and are callable with
 keyword values.  Around them: :func:`elasticities`, :func:`shephard`, :func:`hotelling`,
-:func:`roy`, :func:`shares`, :func:`allen_uzawa`, :func:`morishima`, :func:`parse`.
+:func:`roy`, :func:`shares`, :func:`allen_uzawa`, :func:`morishima`, :func:`parse`,
+:func:`evaluate` (tables, dask, files).
 
 Results hold only for the assumed functional form and parameter values.
 """
@@ -20,6 +21,7 @@ from .conjugate import Conjugate, biconjugate, conjugate
 from .demand import hotelling, roy, shares, shephard
 from .derive import DEFAULT_BUDGET, cost, expenditure, indirect_utility, profit
 from .elasticity import ElasticityTable, allen_uzawa, elasticities, morishima, price_elasticities
+from .evaluate import evaluate, evaluate_dask, evaluate_file
 from .errors import (BudgetExceeded, DomainError, DualityError, FormulaError, ModelError,
                      NoSolutionError)
 from .forms import CATALOGUE
@@ -39,7 +41,7 @@ __all__ = [
     "technology", "preference", "cost", "profit", "expenditure", "indirect_utility",
     "conjugate", "check",
     "biconjugate", "elasticities", "shephard", "hotelling", "roy", "shares", "allen_uzawa",
-    "morishima", "price_elasticities", "parse",
+    "morishima", "price_elasticities", "parse", "evaluate", "evaluate_dask", "evaluate_file",
     "Model", "Parameter", "Derived", "Conjugate", "CheckRecord", "ElasticityTable",
     "CATALOGUE", "DEFAULT_BUDGET",
     "DualityError", "FormulaError", "ModelError", "NoSolutionError", "DomainError",

@@ -92,8 +92,8 @@ class Compiled:
         hess = [sp.diff(grad[i], xs[j]) for i, j in self._pairs]
         args = xs + list(self.params)
         self._f = numpy_function(args, f, cse=True)
-        self._g = numpy_function(args, grad, cse=True)
-        self._h = numpy_function(args, hess, cse=True)
+        self._fg = numpy_function(args, [f] + grad, cse=True)
+        self._fgh = numpy_function(args, [f] + grad + hess, cse=True)  # shared subexpressions
 
     def _args(self, X, P):
         return [X[:, i] for i in range(self.n)] + list(P)
@@ -103,21 +103,26 @@ class Compiled:
             return _real(np.broadcast_to(self._f(*self._args(X, P)), X.shape[:1]))
 
     def fg(self, X, P):
-        a = self._args(X, P)
         N = X.shape[0]
         with np.errstate(all="ignore"):
-            f = _real(np.broadcast_to(self._f(*a), (N,)))
-            G = np.stack([_real(np.broadcast_to(g, (N,))) for g in self._g(*a)], axis=1)
+            out = self._fg(*self._args(X, P))
+        f = _real(np.broadcast_to(out[0], (N,)))
+        G = np.empty((N, self.n))
+        for i in range(self.n):
+            G[:, i] = _real(np.broadcast_to(out[1 + i], (N,)))
         return f, G
 
     def fgh(self, X, P):
-        a = self._args(X, P)
-        N = X.shape[0]
-        f, G = self.fg(X, P)
-        H = np.empty((N, self.n, self.n))
+        N, n = X.shape[0], self.n
         with np.errstate(all="ignore"):
-            for (i, j), h in zip(self._pairs, self._h(*a)):
-                H[:, i, j] = H[:, j, i] = _real(np.broadcast_to(h, (N,)))
+            out = self._fgh(*self._args(X, P))
+        f = _real(np.broadcast_to(out[0], (N,)))
+        G = np.empty((N, n))
+        for i in range(n):
+            G[:, i] = _real(np.broadcast_to(out[1 + i], (N,)))
+        H = np.empty((N, n, n))
+        for (i, j), h in zip(self._pairs, out[1 + n:]):
+            H[:, i, j] = H[:, j, i] = _real(np.broadcast_to(h, (N,)))
         return f, G, H
 
 
@@ -185,13 +190,13 @@ def start_on_level(comp: Compiled, W, Y, P):
             r = np.where(pos, np.log(f) - np.log(np.where(pos, Y, 1.0)), f - Y)
             d = np.where(pos, np.einsum("ij,ij->i", G, X) / f, np.einsum("ij,ij->i", G, X))
             step = np.clip(r / d, -3.0, 3.0)
-        if np.all(np.abs(r) < 1e-13):
+        if np.all(np.abs(r) < 1e-6):  # a start point only: Newton on the KKT finishes
             break
         s = np.where(np.isfinite(step), s - step, s)
     X = np.exp(s)[:, None] * base
     f = comp.f(X, P)
     with np.errstate(all="ignore"):
-        good = np.abs(np.where(pos, np.log(f) - np.log(np.where(pos, Y, 1.0)), f - Y)) < 1e-10
+        good = np.abs(np.where(pos, np.log(f) - np.log(np.where(pos, Y, 1.0)), f - Y)) < 1e-4
     if good.all():
         return X, good
     X_b, ok_b = _bisect_on_level(comp, W[~good], Y[~good], [p[~good] for p in P])
@@ -228,17 +233,20 @@ def _bisect_on_level(comp: Compiled, W, Y, P, iters: int = 80):
 
 
 def _spending_system(comp, W, Y, P, z, mu):
+    """Residuals (N, n+1) and the Jacobian as an (n+1) x (n+1) table of length-N vectors."""
+    n = comp.n
     X = np.exp(z)
     f, G, H = comp.fgh(X, P)
     with np.errstate(all="ignore"):
-        r = np.empty((len(Y), comp.n + 1))
-        r[:, :comp.n] = np.log(W) - mu[:, None] - np.log(G)
-        r[:, comp.n], pos = _level_res(f, Y)
-        J = np.zeros((len(Y), comp.n + 1, comp.n + 1))
-        J[:, :comp.n, :comp.n] = -H * X[:, None, :] / G[:, :, None]
-        J[:, :comp.n, comp.n] = -1.0
+        r = np.empty((len(Y), n + 1))
+        r[:, :n] = np.log(W) - mu[:, None] - np.log(G)
+        r[:, n], pos = _level_res(f, Y)
+        invG = 1.0 / G
         denom = np.where(pos, f, np.maximum(1.0, np.abs(Y)))
-        J[:, comp.n, :comp.n] = G * X / denom[:, None]
+        minus_one = np.full(len(Y), -1.0)
+        J = [[-H[:, i, j] * X[:, j] * invG[:, i] for j in range(n)] + [minus_one]
+             for i in range(n)]
+        J.append([G[:, j] * X[:, j] / denom for j in range(n)] + [np.zeros(len(Y))])
     return r, J, (f, G, H, X)
 
 
@@ -253,8 +261,12 @@ def _residual_only(comp, W, Y, P, z, mu):
 
 
 def _maxnorm(r):
-    out = np.max(np.abs(r), axis=1)
-    out[~np.all(np.isfinite(r), axis=1)] = np.inf
+    """Row-wise max |r| (inf where any entry is NaN or inf), column by column: a reduction
+    over a short inner axis is several times slower in numpy."""
+    out = np.abs(r[:, 0])
+    for i in range(1, r.shape[1]):
+        np.maximum(out, np.abs(r[:, i]), out=out)      # NaN propagates
+    out[np.isnan(out)] = np.inf
     return out
 
 
@@ -411,7 +423,15 @@ def solve_small(A, b):
     operation acts on a length-N vector, which for m <= 8 is several times faster than
     LAPACK called once per tiny matrix.  Singular systems give non-finite rows.
     """
-    N, m, _ = A.shape
+    if isinstance(A, list):  # a table of length-N vectors
+        m = len(A)
+        a = [[np.array(A[i][j], dtype=float) for j in range(m)] for i in range(m)]
+        if m > 8:
+            A = np.stack([np.stack(row, axis=1) for row in a], axis=1)
+    else:
+        N, m, _ = A.shape
+        a = None if m > 8 else [[np.array(A[:, i, j], dtype=float) for j in range(m)]
+                                for i in range(m)]
     if m > 8:
         with np.errstate(all="ignore"):
             try:
@@ -419,7 +439,6 @@ def solve_small(A, b):
             except np.linalg.LinAlgError:
                 return np.stack([np.linalg.lstsq(a_, r_, rcond=None)[0]
                                  for a_, r_ in zip(A, b)])
-    a = [[np.array(A[:, i, j], dtype=float) for j in range(m)] for i in range(m)]
     r = [np.array(b[:, i], dtype=float) for i in range(m)]
     with np.errstate(all="ignore"):
         for k in range(m):
@@ -536,11 +555,12 @@ def solve_utility(model: Model, Pr, M, P, *, tol: float = TOL,
 
     def system(Pr_, M_, P_, v_):
         r, X, G, H, spend = parts(Pr_, M_, P_, v_)
-        J = np.zeros((len(M_), n + 1, n + 1))
         with np.errstate(all="ignore"):
-            J[:, :n, :n] = H * X[:, None, :] / G[:, :, None]
-            J[:, :n, n] = -1.0
-            J[:, n, :n] = Pr_ * X / spend[:, None]
+            invG = 1.0 / G
+            minus_one = np.full(len(M_), -1.0)
+            J = [[H[:, i, j] * X[:, j] * invG[:, i] for j in range(n)] + [minus_one]
+                 for i in range(n)]
+            J.append([Pr_[:, j] * X[:, j] / spend for j in range(n)] + [np.zeros(len(M_))])
         return r, J, None
 
     def residual(Pr_, M_, P_, v_):

@@ -202,7 +202,9 @@ class Derived:
                 out = np.asarray(fn(*(point[s] for s in syms)), dtype=float)
             else:
                 out = np.asarray(self.numeric(point), dtype=float)
-            out = np.broadcast_to(out, np.broadcast(*point.values()).shape).copy()
+            shape = np.broadcast(*point.values()).shape
+            if out.shape != shape or not out.flags.writeable:
+                out = np.broadcast_to(out, shape).copy()
             bad = np.zeros(out.shape, dtype=bool)
             for text, fn, syms in self._condition_fns:
                 ok = np.asarray(fn(*(point[s] for s in syms)), dtype=bool)
@@ -252,9 +254,16 @@ class Derived:
                                    f"{', '.join(names)}"
                                    + (f" (parameters: {', '.join(params)})" if params else ""))
             arr = np.asarray(v, dtype=float)
-            if sym in self.positive_args and np.any(~(arr > 0)):
-                raise DualityError(f"{k} must be positive; got {_first_bad(arr)}")
-            if not np.all(np.isfinite(arr)):
+            if sym in self.positive_args:
+                if not np.all(arr > 0):  # NaN fails this too
+                    if np.isnan(arr).any():
+                        raise DualityError(f"{k} must be finite; got "
+                                           f"{_first_bad(arr, finite=True)}")
+                    raise DualityError(f"{k} must be positive; got {_first_bad(arr)}")
+                if not arr.max() < np.inf:
+                    raise DualityError(f"{k} must be finite; got "
+                                       f"{_first_bad(arr, finite=True)}")
+            elif not np.all(np.isfinite(arr)):
                 raise DualityError(f"{k} must be finite; got {_first_bad(arr, finite=True)}")
             point[sym] = arr
         missing = [str(a) for a in self.args if a not in point]
@@ -267,9 +276,9 @@ class Derived:
         except ValueError as exc:
             raise DualityError(f"argument arrays do not broadcast together: {exc}") from None
         for s, v in self.params.items():
-            point.setdefault(s, np.asarray(v, dtype=float))
-        for k in list(point):
-            point[k] = np.broadcast_to(point[k], shape)
+            point.setdefault(s, float(v))
+        # no broadcasting here: scalar parameters stay scalars, so the compiled code does
+        # scalar work once instead of once per row; results are broadcast afterwards
         return point, scalar
 
 

@@ -581,7 +581,6 @@ def solve_utility(model: Model, Pr, M, P, *, tol: float = TOL,
 def solve_profit(model: Model, price, W, P, *, tol: float = TOL,
                  maxiter: int = MAXITER) -> BatchResult:
     """max p f(x) − w·x at N points: find y with marginal cost λ(w, y) = p."""
-    comp = compiled(model)
     price = np.asarray(price, float)
     W = np.asarray(W, float)
     N = W.shape[0]

@@ -272,7 +272,7 @@ class Derived:
                                f"{', '.join(names)}")
         scalar = all(np.ndim(point[a]) == 0 for a in self.args)
         try:
-            shape = np.broadcast(*point.values()).shape
+            np.broadcast(*point.values())
         except ValueError as exc:
             raise DualityError(f"argument arrays do not broadcast together: {exc}") from None
         for s, v in self.params.items():

@@ -1,8 +1,6 @@
 """Batched numeric duals against closed forms and an independent optimizer."""
 from __future__ import annotations
 
-import warnings
-
 import numpy as np
 import pytest
 from scipy import optimize

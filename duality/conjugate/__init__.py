@@ -26,9 +26,15 @@ Routes, tried in this order for each (separable part of the) function:
   ½xᵀAx + bᵀx + c in closed form, other smooth convex functions by solving ∇f = p
   symbolically, otherwise numerically (route ``"numeric"``, ``expr=None``).
 
+Sampled values (a numpy array, or a list/tuple of numbers) are transformed exactly on
+their grid by :func:`conjugate_samples` (``x`` is then the grid, ``p`` the query slopes);
+see :mod:`duality.conjugate.grid`.
+
 Primal symbols declared ``positive`` (``nonnegative``, ``negative``, ``nonpositive``)
 restrict the domain of f to that half line (f = +oo outside).
 """
 from .core import CONVENTIONS, KINDS, ROUTES, Conjugate, biconjugate, conjugate
+from .grid import GridConjugate, biconjugate_samples, conjugate_samples
 
-__all__ = ["conjugate", "biconjugate", "Conjugate", "CONVENTIONS", "ROUTES", "KINDS"]
+__all__ = ["conjugate", "biconjugate", "Conjugate", "CONVENTIONS", "ROUTES", "KINDS",
+           "conjugate_samples", "biconjugate_samples", "GridConjugate"]

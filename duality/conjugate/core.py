@@ -131,6 +131,9 @@ def conjugate(f, x=None, p=None, *, convention: str = "sup",
     if convention not in CONVENTIONS:
         raise DualityError(f"unknown convention {convention!r}; allowed values are "
                            f"{', '.join(repr(c) for c in CONVENTIONS)}")
+    if _is_samples(f):  # sampled values: x is the grid, p the query slopes
+        from .grid import conjugate_samples
+        return conjugate_samples(f, _sample_grid(x), p, convention=convention)
     fexpr = _to_expr(f)
     xs, fexpr = _primal_symbols(fexpr, x)
     ps = _dual_symbols(fexpr, xs, p)
@@ -148,6 +151,11 @@ def biconjugate(f, x=None, p=None, *, budget: float | None = 5.0) -> Conjugate:
     envelope of ``f`` otherwise.  Univariate results whose conjugate is numeric are
     evaluated numerically (``expr=None``); multivariate ones need a symbolic conjugate.
     """
+    if _is_samples(f):  # sampled values: the convex envelope at the grid x (an ndarray)
+        from .grid import biconjugate_samples
+        if p is not None:
+            raise DualityError("p is not used by the biconjugate of sampled values")
+        return biconjugate_samples(f, _sample_grid(x))
     first = conjugate(f, x, p, budget=budget)
     xs, ps = first.primal_variables, first.variables
     deadline = None if budget is None else time.monotonic() + float(budget)
@@ -175,6 +183,29 @@ def biconjugate(f, x=None, p=None, *, budget: float | None = 5.0) -> Conjugate:
 # ---------------------------------------------------------------------------------------
 # input handling
 # ---------------------------------------------------------------------------------------
+
+def _is_samples(f) -> bool:
+    """Sampled values: a numpy array, or a list/tuple of numbers (nested for n-D)."""
+    if isinstance(f, np.ndarray):
+        return True
+    if not isinstance(f, (list, tuple)):
+        return False
+    stack = list(f)
+    while stack:
+        item = stack.pop()
+        if isinstance(item, (list, tuple, np.ndarray)):
+            stack.extend(item)
+        elif isinstance(item, (str, sp.Basic)) and not isinstance(item, sp.Number):
+            return False
+    return True
+
+
+def _sample_grid(x):
+    if x is None:
+        raise DualityError("f is sampled values, so x must give the grid (x=array of "
+                           "points, or a tuple of grids for an n-D array)")
+    return x
+
 
 def _to_expr(f) -> sp.Expr:
     if isinstance(f, str):

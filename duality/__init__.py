@@ -3,6 +3,7 @@
 The public contract (kept stable)::
 
     technology, preference                     build a model (validated, immutable)
+    cost_function, profit_function, ...        or start from the dual side
     cost, profit, expenditure, indirect_utility derive a dual (catalogue → symbolic → numeric)
     conjugate                                   Legendre / Legendre–Fenchel transform
     check                                       identities and properties as records
@@ -25,6 +26,10 @@ from .evaluate import evaluate, evaluate_dask, evaluate_file
 from .errors import (BudgetExceeded, DomainError, DualityError, FormulaError, ModelError,
                      NoSolutionError)
 from .forms import CATALOGUE
+from .dual_forms import (DUAL_CATALOGUE, aids_expenditure, aids_share_equations,
+                         generalized_leontief_cost, translog_cost)
+from .dual_side import (cost_function, expenditure_function, indirect_utility_function,
+                        profit_function)
 from .model import Model, Parameter, preference, technology
 from .result import Derived, NumericWarning
 
@@ -40,6 +45,9 @@ def parse(text: str, **kwargs):
 __all__ = [
     "technology", "preference", "cost", "profit", "expenditure", "indirect_utility",
     "conjugate", "check",
+    "cost_function", "profit_function", "expenditure_function", "indirect_utility_function",
+    "translog_cost", "generalized_leontief_cost", "aids_expenditure", "aids_share_equations",
+    "DUAL_CATALOGUE",
     "biconjugate", "elasticities", "shephard", "hotelling", "roy", "shares", "allen_uzawa",
     "morishima", "price_elasticities", "parse", "evaluate", "evaluate_dask", "evaluate_file",
     "Model", "Parameter", "Derived", "Conjugate", "CheckRecord", "ElasticityTable",

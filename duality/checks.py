@@ -204,6 +204,8 @@ def _depth(*fns: Fn) -> int:
 # -- sampling -----------------------------------------------------------------------------------
 def _sample(model: Model, n: int, seed: int) -> list[dict]:
     """Points with prices in [0.5, 3] and reachable levels; parameter values included."""
+    if not model.is_primal:
+        return _sample_dual(model, n, seed)
     from .numeric import _Fns, compile_model
     rng = np.random.default_rng(seed)
     comp = compile_model(model)
@@ -227,6 +229,37 @@ def _sample(model: Model, n: int, seed: int) -> list[dict]:
             pt[model.income] = float(prices @ x)
         if model.output_price is not None:
             pt[model.output_price] = float(rng.uniform(1.0, 3.0))
+        pts.append(pt)
+    return pts
+
+
+def _sample_dual(model: Model, n: int, seed: int) -> list[dict]:
+    """Dual-side models: prices in [0.5, 3]; output in [0.5, 3]; income in [5, 50] and the
+    utility level it buys (u = v(p, m)), so both preference duals are checked consistently."""
+    rng = np.random.default_rng(seed)
+    v = None
+    if not model.is_technology:
+        import warnings as _w
+        from .derive import indirect_utility
+        with _w.catch_warnings():
+            _w.simplefilter("ignore")
+            v = Fn.of(indirect_utility(model))
+    pts = []
+    for _ in range(n):
+        pt = {s: float(rng.uniform(0.2, 0.6)) for s in model.free_params}
+        pt.update(model.values)
+        pt.update(zip(model.prices, rng.uniform(0.5, 3.0, len(model.prices))))
+        if model.is_technology:
+            pt[model.level] = float(rng.uniform(0.5, 3.0))
+            pt[model.output_price] = float(rng.uniform(1.0, 3.0))
+        else:
+            pt[model.income] = float(rng.uniform(5.0, 50.0))
+            try:
+                u = v(pt)
+            except (DualityError, ArithmeticError, ValueError, KeyError):
+                u = math.nan
+            if math.isfinite(u):
+                pt[model.level] = u
         pts.append(pt)
     return pts
 
@@ -332,10 +365,11 @@ def _technology_specs(model: Model, budget) -> tuple[list, bool]:
     specs.append(_Spec("cost = w·x (adding-up)", r"c(w, y) = \sum_i w_i x_i(w, y)",
                        [C - sum((Fn(w) * x for w, x in zip(ws, X)), Fn.const(0))], [C],
                        depth=_depth(C, *X), domain=dom))
-    f = Fn(model.expr, params=model.values)
-    specs.append(_Spec("demands reach the output level", r"f(x(w, y)) = y",
-                       [f.subs(dict(zip(model.quantities, X))) - Fn(y)], [Fn(y)],
-                       depth=_depth(*X), domain=dom))
+    if model.is_primal:
+        f = Fn(model.expr, params=model.values)
+        specs.append(_Spec("demands reach the output level", r"f(x(w, y)) = y",
+                           [f.subs(dict(zip(model.quantities, X))) - Fn(y)], [Fn(y)],
+                           depth=_depth(*X), domain=dom))
     specs.append(_hom_spec("cost homogeneous of degree 1 in prices",
                            r"c(t w, y) = t\, c(w, y)", C, ws, 1, dom))
     specs.append(_hom_multi("conditional demands homogeneous of degree 0 in prices",

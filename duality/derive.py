@@ -25,6 +25,7 @@ from functools import lru_cache
 import numpy as np
 import sympy as sp
 
+from . import derive_dual as _dual
 from . import numeric as _numeric
 from .budget import run_with_budget
 from .errors import BudgetExceeded, DualityError, NoSolutionError
@@ -113,6 +114,9 @@ def _derived(model: Model, kind: str, demand_kind: str, args: tuple, sol: Soluti
     positive = frozenset(a for a in args if a.is_positive)
     values = model.values
     names = [str(q) for q in model.quantities]
+    given = sol.extra.get("numeric")
+    if given is not None:  # numeric evaluators from the dual side (inversions)
+        return _derived_from_evaluators(model, kind, demand_kind, args, sol, given)
     batch = _numeric.Batch(model, numeric_kind) if sol.route == "numeric" else None
 
     def numeric_value(point):
@@ -143,6 +147,93 @@ def _derived(model: Model, kind: str, demand_kind: str, args: tuple, sol: Soluti
                    demand_factory=factory, solver=batch)
 
 
+def _derived_from_evaluators(model, kind, demand_kind, args, sol, ev) -> Derived:
+    positive = frozenset(a for a in args if a.is_positive)
+    values = model.values
+    names = [str(q) for q in model.quantities]
+
+    def factory():
+        out = {}
+        if kind == "profit":
+            out[str(model.level)] = Derived("supply", args, None, "numeric", sol.method,
+                                            values, None, sol.notes, (), str(model.level),
+                                            positive, numeric=ev["y"])
+        for i, name in enumerate(names):
+            out[name] = Derived(demand_kind, args, None, "numeric", sol.method, values, None,
+                                sol.notes, (), name, positive, numeric=ev["x"][i])
+        return out
+    return Derived(kind, args, None, "numeric", sol.method, values, None, sol.notes, (),
+                   kind, positive, numeric=ev["value"], demand_factory=factory)
+
+
+# -- the dual side -------------------------------------------------------------------------
+def _dual_spending(model: Model, budget) -> Solution:
+    """Cost or expenditure of a dual-side model: given, or by inversion / conjugation."""
+    if model.side in ("cost", "expenditure"):
+        return _dual.given(model)
+    notes: list[str] = []
+    g = _dual.given(model)
+    if model.side == "indirect_utility":
+        m, u = model.income, model.level
+        _dual.check_monotone_level(model, model.expr, m)
+        e = _dual.invert(model, model.expr, m, u, budget, notes, "v(p, m) = u for m")
+        if e is not None:
+            return Solution(e, tuple(d.xreplace({m: e}) for d in g.demands), "symbolic",
+                            "v(p, m) = u solved for m; Hicksian demands are the Marshallian "
+                            "ones at m = e(p, u)", g.source, tuple(notes))
+        value, xs = _dual.numeric_inverse(model, model.expr, m, u, list(g.demands), log=True)
+        return Solution(None, None, "numeric", "v(p, m) = u solved for m by bisection",
+                        None, tuple(notes), (), {"numeric": {"value": value, "x": xs}})
+    # profit side: c(w, y) = p*·y − π(p*, w) where supply ∂π/∂p = y
+    p, y = model.output_price, model.level
+    supply = g.extra["supply"]
+    _dual.check_monotone_level(model, supply, p)
+    pstar = _dual.invert(model, supply, p, y, budget, notes, "∂π/∂p = y for p")
+    if pstar is not None:
+        c = (p * y - model.expr).xreplace({p: pstar})
+        return Solution(c, tuple(d.xreplace({p: pstar}) for d in g.demands), "symbolic",
+                        "c(w, y) = max_p p·y − π(p, w), at the price where supply is y",
+                        g.source, tuple(notes))
+    value, xs = _dual.numeric_inverse(model, supply, p, y,
+                                      [p * y - model.expr] + list(g.demands), log=True)
+    return Solution(None, None, "numeric", "c(w, y) = max_p p·y − π(p, w) by bisection on "
+                    "the supply function", None, tuple(notes), (),
+                    {"numeric": {"value": xs[0], "x": xs[1:]}})
+
+
+def _dual_indirect(model: Model, budget) -> Solution:
+    if model.side == "indirect_utility":
+        return _dual.given(model)
+    notes: list[str] = []
+    g = _dual.given(model)
+    m, u = model.income, model.level
+    _dual.check_monotone_level(model, model.expr, u)
+    v = _dual.invert(model, model.expr, u, m, budget, notes, "e(p, u) = m for u")
+    if v is not None:
+        return Solution(v, tuple(d.xreplace({u: v}) for d in g.demands), "symbolic",
+                        "e(p, u) = m solved for u; Marshallian demands are the Hicksian ones "
+                        "at u = v(p, m)", g.source, tuple(notes))
+    value, xs = _dual.numeric_inverse(model, model.expr, u, m, list(g.demands), log=False)
+    return Solution(None, None, "numeric", "e(p, u) = m solved for u by bisection", None,
+                    tuple(notes), (), {"numeric": {"value": value, "x": xs}})
+
+
+def _dual_numeric_profit(model: Model, spend: Solution, notes: list) -> Solution:
+    """Profit from a cost function with no closed-form supply: marginal cost = p."""
+    y, p = model.level, model.output_price
+    mc = sp.diff(spend.value, y)
+    _dual.check_monotone_level(
+        model, mc, y, "no profit function: marginal cost falls as output rises at {at} "
+        "(increasing returns there), so p·y − c(w, y) has no interior maximum; a profit "
+        "function needs rising marginal cost (decreasing returns to scale)")
+    value, xs = _dual.numeric_inverse(model, mc, y, p,
+                                      [p * y - spend.value, y] + list(spend.demands),
+                                      log=True)
+    return Solution(None, None, "numeric", "π(p, w) = max_y p·y − c(w, y) by bisection on "
+                    "marginal cost", None, tuple(notes), (),
+                    {"numeric": {"value": xs[0], "y": xs[1], "x": xs[2:]}})
+
+
 def _spending_result(model: Model, kind: str, demand_kind: str, budget) -> Derived:
     sol = _spending_solution(model, budget)
     args = tuple(model.prices) + (model.level,)
@@ -152,6 +243,8 @@ def _spending_result(model: Model, kind: str, demand_kind: str, budget) -> Deriv
 # -- spending problem: min w·x s.t. f(x) >= level --------------------------------------
 @lru_cache(maxsize=256)
 def _spending_solution(model: Model, budget) -> Solution:
+    if not model.is_primal:
+        return _dual_spending(model, budget)
     xs, ws, level = list(model.quantities), list(model.prices), model.level
     match, notes = recognise(model.expr, xs, model.values, model.role)
     notes = list(notes)
@@ -379,6 +472,8 @@ def _where(syms, vals, lsym=None, lval=None) -> str:
 # -- indirect utility ---------------------------------------------------------------------
 @lru_cache(maxsize=256)
 def _indirect_solution(model: Model, budget) -> Solution:
+    if not model.is_primal:
+        return _dual_indirect(model, budget)
     xs, ps, m = list(model.quantities), list(model.prices), model.income
     spend = _spending_solution(model, budget)
     notes = list(spend.notes)
@@ -442,6 +537,8 @@ def _verify_utility(model: Model, v, marsh) -> tuple[bool, str]:
 # -- profit ---------------------------------------------------------------------------------
 @lru_cache(maxsize=256)
 def _profit_solution(model: Model, budget) -> Solution:
+    if model.side == "profit":
+        return _dual.given(model)
     ws, y, p = list(model.prices), model.level, model.output_price
     spend = _spending_solution(model, budget)
     notes = list(spend.notes)
@@ -484,6 +581,8 @@ def _profit_solution(model: Model, budget) -> Solution:
             if ok:
                 return sol
             notes.append(f"candidate supply rejected by the numeric check: {why}")
+    if not model.is_primal:
+        return _dual_numeric_profit(model, spend, notes)
     if not model.free_params:
         _check_returns_numerically(model)
     _numeric_allowed(model, notes)

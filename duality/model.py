@@ -41,7 +41,9 @@ class Model:
     ----------
     role : {"technology", "preference"}
     side : str
-        Which function was given: ``"primal"`` (production or utility function).
+        Which function was given: ``"primal"`` (production or utility function), or on the
+        dual side ``"cost"``, ``"profit"``, ``"expenditure"``, ``"indirect_utility"``
+        (see :mod:`duality.dual_side`).
     expr : sympy.Expr
         The function, in the symbols below.
     quantities : tuple of Symbol
@@ -72,6 +74,7 @@ class Model:
     params: tuple[Parameter, ...] = ()
     text: str = ""
     name: str = ""
+    form: str = ""
     _key: tuple = field(default=(), repr=False, compare=False)
 
     # -- derived views --------------------------------------------------------------
@@ -116,6 +119,15 @@ class Model:
             raise ModelError(f"unknown parameter(s) {', '.join(unknown)}; "
                              f"the model has {', '.join(sorted(known)) or 'none'}")
         params = {p.name: (values[p.name] if p.name in values else p.value) for p in self.params}
+        if not self.is_primal:
+            from .dual_side import _build_dual
+            return _build_dual(self.side, self.expr if not self.text else self.text,
+                               [str(p) for p in self.prices], [str(q) for q in self.quantities],
+                               level=str(self.level),
+                               output_price=None if self.output_price is None
+                               else str(self.output_price),
+                               income=None if self.income is None else str(self.income),
+                               params=params, assume=None, name=self.name, form=self.form)
         return _build(self.role, self.expr if not self.text else self.text,
                       [str(q) for q in self.quantities], [str(p) for p in self.prices],
                       level=str(self.level),
@@ -129,10 +141,27 @@ class Model:
     def __eq__(self, other: object) -> bool:
         return isinstance(other, Model) and self._key == other._key
 
+    @property
+    def is_primal(self) -> bool:
+        return self.side == "primal"
+
+    @property
+    def dual_args(self) -> tuple[sp.Symbol, ...]:
+        """Arguments of the given dual function, in the usual order."""
+        ps = tuple(self.prices)
+        return {"cost": ps + (self.level,), "profit": (self.output_price,) + ps,
+                "expenditure": ps + (self.level,),
+                "indirect_utility": ps + (self.income,)}.get(self.side, ())
+
     def describe(self) -> str:
         """One line: role, formula and parameter values."""
         vals = ", ".join(f"{p.name}={p.value:g}" if p.value is not None else f"{p.name} free"
                          for p in self.params)
+        if not self.is_primal:
+            head = {"cost": "c", "profit": "π", "expenditure": "e", "indirect_utility": "v"}
+            args = ", ".join(map(str, self.dual_args))
+            return (f"{self.side.replace('_', ' ')} function {head[self.side]}({args}) = "
+                    f"{self.expr}" + (f"  ({vals})" if vals else ""))
         what = "production function" if self.is_technology else "utility function"
         lhs = str(self.level)
         return f"{what} {lhs} = {self.expr}" + (f"  ({vals})" if vals else "")

@@ -31,7 +31,8 @@ from .dual_forms import (DUAL_CATALOGUE, aids_expenditure, aids_share_equations,
 from .dual_side import (cost_function, expenditure_function, indirect_utility_function,
                         profit_function)
 from .model import Model, Parameter, preference, technology
-from .regularity import RegularityReport, regularity
+from .data_regularity import RegularityReport, regularity
+from .recover import Recovered, recover
 from .theory import impose_restrictions, restrictions, violations
 from .result import Derived, NumericWarning
 
@@ -50,7 +51,7 @@ __all__ = [
     "cost_function", "profit_function", "expenditure_function", "indirect_utility_function",
     "translog_cost", "generalized_leontief_cost", "aids_expenditure", "aids_share_equations",
     "DUAL_CATALOGUE", "restrictions", "violations", "impose_restrictions", "regularity",
-    "RegularityReport",
+    "RegularityReport", "recover", "Recovered",
     "biconjugate", "elasticities", "shephard", "hotelling", "roy", "shares", "allen_uzawa",
     "morishima", "price_elasticities", "parse", "evaluate", "evaluate_dask", "evaluate_file",
     "Model", "Parameter", "Derived", "Conjugate", "CheckRecord", "ElasticityTable",

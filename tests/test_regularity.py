@@ -8,7 +8,7 @@ import pytest
 
 import duality as dy
 from duality.errors import DualityError
-from duality.regularity import RegularityWarning, regularity
+from duality.data_regularity import RegularityWarning, regularity
 
 # translog cost satisfying homogeneity: Σ a_i = 1, rows of g sum to zero, Σ g_iy = 0
 TL = dict(a0=0.1, a1=0.3, a2=0.5, a3=0.2, g11=0.1, g12=-0.05, g13=-0.05, g22=0.08,
@@ -391,7 +391,7 @@ def test_slutsky_route_without_expenditure_function_agrees(rng, monkeypatch):
     # equation S_ij = ∂x_i/∂p_j + x_j ∂x_i/∂m of Roy's demands; it must equal the Hessian
     # of e(p, u) at u = v(p, m) (Slutsky; e.g. Varian, Microeconomic Analysis (1992),
     # ch. 8; from memory)
-    import duality.regularity as reg
+    import duality.data_regularity as reg
     model = dy.aids_expenditure(3, params=AIDS)
     data = _price_data(rng, 40, ["p1", "p2", "p3"], -0.5, 0.5)
     data["m"] = np.exp(rng.uniform(0.5, 2.5, 40))

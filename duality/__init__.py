@@ -32,7 +32,7 @@ from .dual_side import (cost_function, expenditure_function, indirect_utility_fu
                         profit_function)
 from .model import Model, Parameter, preference, technology
 from .data_regularity import RegularityReport, regularity
-from .recover import Recovered, recover
+from .recovery import Recovered, recover
 from .theory import impose_restrictions, restrictions, violations
 from .result import Derived, NumericWarning
 

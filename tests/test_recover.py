@@ -14,7 +14,7 @@ import sympy as sp
 
 import duality as dy
 from duality.errors import DualityError, NoSolutionError
-from duality.recover import Recovered, recover
+from duality.recovery import Recovered, recover
 
 X1, X2, X3 = sp.symbols("x1 x2 x3", positive=True)
 RNG = np.random.default_rng(2024)

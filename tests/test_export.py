@@ -372,16 +372,11 @@ def test_bundle_translog(translog):
     assert {p["name"] for p in doc["parameters"]} == set(TRANSLOG_VALUES)
     assert doc["columns"]["w1"] == "price_labour" and doc["columns"]["w2"] == "w2"
     assert doc["equations"][0]["dependent"] == "s_x1"
-    try:
-        import duality.restrictions  # noqa: F401
-    except ImportError:
-        assert doc["restrictions"] == [] and "not available" in doc["restrictions_note"]
-    else:
-        eqs = {(r["lhs"], r["rhs"]) for r in doc["restrictions"]}
-        assert ("a1 + a2 + a3", "1") in eqs
-        assert ("g11 + g12 + g13", "0") in eqs
-        assert all(r["kind"] in ("homogeneity", "adding-up", "symmetry")
-                   for r in doc["restrictions"])
+    eqs = {(r["lhs"], r["rhs"]) for r in doc["restrictions"]}
+    assert ("a1 + a2 + a3", "1") in eqs
+    assert ("g11 + g12 + g13", "0") in eqs
+    assert all(r["kind"] in ("homogeneity", "adding-up", "symmetry")
+               for r in doc["restrictions"])
     # equations evaluate to the engine's shares
     back = load_json(json.dumps(doc))
     shares = dy.shares(translog)

@@ -33,7 +33,9 @@ from .dual_side import (cost_function, expenditure_function, indirect_utility_fu
 from .model import Model, Parameter, preference, technology
 from .data_regularity import RegularityReport, regularity
 from .recovery import Recovered, recover
+from .scenario import load as load_scenario, save as save_scenario
 from .theory import impose_restrictions, restrictions, violations
+from .welfare import compare as price_change, scenario_table
 from .result import Derived, NumericWarning
 
 __version__ = "0.1.0"
@@ -51,7 +53,8 @@ __all__ = [
     "cost_function", "profit_function", "expenditure_function", "indirect_utility_function",
     "translog_cost", "generalized_leontief_cost", "aids_expenditure", "aids_share_equations",
     "DUAL_CATALOGUE", "restrictions", "violations", "impose_restrictions", "regularity",
-    "RegularityReport", "recover", "Recovered",
+    "RegularityReport", "recover", "Recovered", "load_scenario", "save_scenario",
+    "scenario_table", "price_change",
     "biconjugate", "elasticities", "shephard", "hotelling", "roy", "shares", "allen_uzawa",
     "morishima", "price_elasticities", "parse", "evaluate", "evaluate_dask", "evaluate_file",
     "Model", "Parameter", "Derived", "Conjugate", "CheckRecord", "ElasticityTable",

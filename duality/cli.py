@@ -6,6 +6,10 @@ of a built-in default technology.  Commands:
 * ``duality derive``    — duals and demands of a typed technology or preference
 * ``duality check``     — the check records of a typed model
 * ``duality conjugate`` — the convex conjugate of a typed one-variable formula
+* ``duality run``       — a scenario file: every variant against its baseline, welfare
+* ``duality evaluate``  — the duals and demands on a CSV or Parquet file, chunk by chunk
+* ``duality export``    — code, LaTeX, JSON or an estimation bundle of every function
+* ``duality scenarios`` — list the scenario files of a folder
 
 Every bad input ends with a one-line message and a non-zero exit, never a traceback.
 """
@@ -14,6 +18,7 @@ from __future__ import annotations
 import json
 import sys
 import warnings
+from pathlib import Path
 
 import click
 
@@ -271,6 +276,149 @@ def conjugate_cmd(formula, var, convention, as_json):
             click.echo(f"  {c.expr}")
             for n in c.notes:
                 click.echo(f"  note: {n}")
+    _guard(run)
+
+
+def _scenario_model(path: str | None, formula, role, quantities, params, prices):
+    """The model of a scenario file (with the scenario) or of the typed options."""
+    if path:
+        from . import scenario as _scn
+        scn = _scn.load(path)
+        return scn.build_model(), scn
+    return _model(formula, role, quantities, params, prices), None
+
+
+_scenario_option = click.option("--scenario", "-s", "scenario_path", default=None,
+                                type=click.Path(dir_okay=False),
+                                help="Take the model from a scenario file instead.")
+
+
+@main.command(name="run")
+@click.argument("scenario_file", type=click.Path(dir_okay=False))
+@click.option("--json", "as_json", is_flag=True, help="Print JSON instead of text.")
+def run_cmd(scenario_file, as_json):
+    """Run a scenario file: every variant against the baseline (costs, demands, welfare)."""
+    def run():
+        import pandas as pd
+        from . import scenario as _scn
+        from .welfare import scenario_table
+        scn = _scn.load(scenario_file)
+        model = scn.build_model()
+        with click.progressbar(length=max(len(scn.variants), 1), label="variants",
+                               file=sys.stderr) as bar:
+            table = scenario_table(scn)
+            bar.update(max(len(scn.variants), 1))
+        if as_json:
+            rows = [{"variant": v, "measure": m, **{k: _plain(x) for k, x in r.items()}}
+                    for (v, m), r in table.to_dict(orient="index").items()]
+            click.echo(json.dumps({"title": scn.title, "model": model.describe(),
+                                   "caution": CAUTION, "table": rows}, indent=2,
+                                  default=str))
+            return
+        click.echo(scn.title)
+        click.echo(model.describe())
+        with pd.option_context("display.width", 120, "display.max_rows", 500,
+                               "display.max_colwidth", 60):
+            click.echo(table.to_string())
+        click.echo("")
+        click.echo(f"Caution: {CAUTION}")
+    _guard(run)
+
+
+def _plain(x):
+    try:
+        return float(x)
+    except (TypeError, ValueError):
+        return x
+
+
+@main.command(name="evaluate")
+@_with_model_options
+@_scenario_option
+@click.option("--data", "data_path", default=None, type=click.Path(dir_okay=False),
+              help="CSV or Parquet file of prices and levels (default: the scenario's).")
+@click.option("--out", "out_path", required=True, type=click.Path(dir_okay=False),
+              help="Output file (.csv or .parquet), written atomically.")
+@click.option("--keep", multiple=True, help="Input column to copy to the output "
+                                            "(repeatable).")
+@click.option("--chunksize", type=int, default=200_000, show_default=True,
+              help="Rows per chunk (files larger than memory are fine).")
+def evaluate_cmd(formula, role, quantities, prices, params, at, budget, as_json,
+                 scenario_path, data_path, out_path, keep, chunksize):
+    """Evaluate the cost or indirect utility function and its demands on a data file."""
+    def run():
+        from .evaluate import evaluate_file, functions_of
+        model, scn = _scenario_model(scenario_path, formula, role, quantities, params, prices)
+        columns = None
+        src = data_path
+        if scn is not None and scn.data is not None:
+            columns = dict(scn.data.columns)
+            if src is None:
+                src = str((scn.path.parent if scn.path else Path(".")) / scn.data.file)
+        if src is None:
+            raise _Fail("--data is required (the scenario names no data file)")
+        fns = functions_of(model)
+        rows = evaluate_file(fns, src, out_path, columns=columns, keep=keep,
+                             chunksize=chunksize, progress=not as_json)
+        msg = {"rows": rows, "out": out_path, "functions": list(fns)}
+        click.echo(json.dumps(msg) if as_json else
+                   f"{rows} rows evaluated ({', '.join(fns)}) -> {out_path}")
+    _guard(run)
+
+
+@main.command(name="export")
+@_with_model_options
+@_scenario_option
+@click.option("--target", "-t", "targets", multiple=True,
+              help="Export target (repeatable): python, latex, latex-document, json, r, "
+                   "julia, octave, c, stata, bundle (default: the scenario's exports).")
+@click.option("--out", "out_path", default=None, type=click.Path(),
+              help="File (one target) or folder (several); default: print one target.")
+@click.option("--name", default="model", show_default=True, help="Name of the export.")
+def export_cmd(formula, role, quantities, prices, params, at, budget, as_json,
+               scenario_path, targets, out_path, name):
+    """Export every derived function as code, LaTeX, JSON or an estimation bundle."""
+    def run():
+        from . import export as _exp
+        model, scn = _scenario_model(scenario_path, formula, role, quantities, params, prices)
+        chosen = list(targets) or (list(scn.exports) if scn is not None else [])
+        if not chosen:
+            raise _Fail("give --target (python, latex, latex-document, json, r, julia, "
+                        "octave, c, stata, bundle)")
+        if out_path is None:
+            if len(chosen) != 1:
+                raise _Fail("several targets need --out FOLDER")
+            click.echo(_exp.export(model, chosen[0], name=name))
+            return
+        out = Path(out_path)
+        if len(chosen) == 1 and not out.is_dir():
+            _exp.write(model, chosen[0], out, name=name)
+            click.echo(f"{chosen[0]} -> {out}")
+            return
+        if not out.is_dir():
+            raise _Fail(f"--out {out}: several targets need an existing folder")
+        for t in chosen:
+            suffix = _exp.SUFFIXES.get(t, ".txt")
+            stem = name + ("_document" if t == "latex-document" else
+                           "_bundle" if t == "bundle" else "")
+            path = out / f"{stem}{suffix}"
+            _exp.write(model, t, path, name=name)
+            click.echo(f"{t} -> {path}")
+    _guard(run)
+
+
+@main.command(name="scenarios")
+@click.argument("folder", default="scenarios", type=click.Path(file_okay=False))
+def scenarios_cmd(folder):
+    """List the scenario files in a folder with their titles and variants."""
+    def run():
+        from . import scenario as _scn
+        paths = sorted(Path(folder).glob("*.toml"))
+        if not paths:
+            raise _Fail(f"no scenario files (*.toml) in {folder}")
+        for p in paths:
+            scn = _scn.load(p)
+            click.echo(f"{p.name}: {scn.title}  [variants: {', '.join(scn.variants) or '-'}]")
     _guard(run)
 
 

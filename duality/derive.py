@@ -544,6 +544,9 @@ def _profit_solution(model: Model, budget) -> Solution:
     notes = list(spend.notes)
     if spend.value is not None:
         s = _scale_elasticity(spend.value, y, ws)
+        if s is None and model.values:
+            # with the parameter values in, terms such as gyy·log y may vanish
+            s = _scale_elasticity(spend.value.xreplace(model.values), y, ws)
         if s is not None:
             # c = K(w) y**s: profit exists iff s > 1 (decreasing returns, RTS = 1/s < 1)
             sv = s.xreplace(model.values)

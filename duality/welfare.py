@@ -68,7 +68,6 @@ import math
 from functools import lru_cache
 from typing import Mapping
 
-import numpy as np
 import pandas as pd
 from scipy import integrate
 

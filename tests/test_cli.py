@@ -86,3 +86,46 @@ def test_preference_gets_a_default_point_and_its_elasticities():
 def test_unknown_point_name_is_refused():
     r = CliRunner().invoke(main, ["derive", "--at", "w1=2,zz=3"])
     assert r.exit_code == 2 and "unknown name(s) zz" in r.output
+
+
+def test_run_a_demo_scenario_text_and_json():
+    r = _run("run", "scenarios/pottery_workshop.toml")
+    assert r.exit_code == 0, r.output
+    assert "kiln_energy_spike" in r.output and "total cost" in r.output
+    r = _run("run", "scenarios/saltmere_household.toml", "--json")
+    out = json.loads(r.output[r.output.index("{"):])
+    measures = {row["measure"] for row in out["table"]}
+    assert {"compensating variation", "equivalent variation"} & measures or \
+        any("variation" in m for m in measures)
+
+
+def test_list_scenarios():
+    r = _run("scenarios")
+    assert r.exit_code == 0 and "pottery_workshop.toml" in r.output
+
+
+def test_evaluate_a_scenario_data_file(tmp_path):
+    out = tmp_path / "household.csv"
+    r = _run("evaluate", "--scenario", "scenarios/saltmere_household.toml", "--out", str(out))
+    assert r.exit_code == 0, r.output
+    import pandas as pd
+    table = pd.read_csv(out)
+    assert "indirect_utility" in table.columns and len(table) > 0
+
+
+def test_export_targets_to_a_folder_and_stdout(tmp_path):
+    r = _run("export", "--scenario", "scenarios/pottery_workshop.toml", "--out", str(tmp_path))
+    assert r.exit_code == 0, r.output
+    assert (tmp_path / "model.py").exists() and (tmp_path / "model.json").exists()
+    r = _run("export", "-f", "x1^0.3*x2^0.5", "--target", "python")
+    assert r.exit_code == 0 and "def cost(" in r.output
+
+
+def test_bad_scenario_file_is_one_line(tmp_path):
+    bad = tmp_path / "bad.toml"
+    bad.write_text('title = "x"\n[model]\nrole = "technology"\nformula = "x1*x2"\n'
+                   'quantities = ["x1", "x2"]\nprices = ["w1", "w2"]\ncolour = "blue"\n'
+                   '[baseline.prices]\nw1 = 1.0\nw2 = 1.0\n')
+    r = CliRunner().invoke(main, ["run", str(bad)])
+    assert r.exit_code == 2
+    assert "model.colour" in r.output and len(r.output.strip().splitlines()) == 1

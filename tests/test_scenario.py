@@ -94,6 +94,17 @@ def test_data_file_reads_with_column_mapping():
     assert len(out) == len(df)
 
 
+def test_module_docstring_example_is_valid(tmp_path):
+    text = sc.__doc__.split(".. code-block:: toml")[1].split("Python API")[0]
+    text = "\n".join(line[4:] for line in text.splitlines())
+    (tmp_path / "data").mkdir()
+    (tmp_path / "data" / "bakery_weeks.csv").write_text("flour_price\n0.8\n")
+    s = sc.load(write(tmp_path, text, "bakery.toml"))
+    assert set(s.variants) == {"energy_shock", "bigger_orders"}
+    assert s.build_model().is_technology
+    assert sc.loads(sc.dumps(s)) == s
+
+
 # -- reading a valid file ------------------------------------------------------------------
 def test_loads_fills_defaults_and_points():
     s = sc.loads(BASE)
@@ -442,3 +453,9 @@ def test_round_trip_through_a_file(tmp_path_factory, s):
     path = tmp_path_factory.mktemp("rt") / "s.toml"
     sc.save(s, path)
     assert sc.load(path) == s if s.data is None else sc.loads(path.read_text()) == s
+
+
+def test_export_names_match_the_export_table():
+    # the names accepted in 'exports' are exactly the targets the exporters register
+    export = pytest.importorskip("duality.export")
+    assert set(sc.EXPORT_TARGETS) == set(export.TARGETS)

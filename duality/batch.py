@@ -112,6 +112,24 @@ class Compiled:
             G[:, i] = _real(np.broadcast_to(out[1 + i], (N,)))
         return f, G
 
+    def tables(self, X, P):
+        """f, ∇f and ∇²f as length-N vectors: f, [g_i], [[h_ij]] (no array assembly)."""
+        N, n = X.shape[0], self.n
+        with np.errstate(all="ignore"):
+            out = self._fgh(*self._args(X, P))
+
+        def vec(a):
+            a = np.asarray(a)
+            if np.iscomplexobj(a) or a.shape != (N,):
+                return _real(np.broadcast_to(a, (N,)))
+            return a
+        f = vec(out[0])
+        G = [vec(out[1 + i]) for i in range(n)]
+        H = [[None] * n for _ in range(n)]
+        for (i, j), h in zip(self._pairs, out[1 + n:]):
+            H[i][j] = H[j][i] = vec(h)
+        return f, G, H
+
     def fgh(self, X, P):
         N, n = X.shape[0], self.n
         with np.errstate(all="ignore"):
@@ -270,52 +288,50 @@ def _maxnorm(r):
     return out
 
 
+def _take(args, idx, N):
+    """The arguments at rows ``idx`` (no copy when every row is taken)."""
+    if idx.size == N:
+        return args
+    return [a[idx] if isinstance(a, np.ndarray) else [p[idx] for p in a] for a in args]
+
+
 def _newton(system, residual, v, args, tol, maxiter):
     """Damped Newton for all points; halving only where the residual did not fall."""
     N = v.shape[0]
     iters = np.zeros(N, dtype=int)
     active = np.ones(N, dtype=bool)
-    norm = np.full(N, np.inf)
-    first = True
-    for _ in range(maxiter + 1):
+    norm = residual(*args, v)
+    for _ in range(maxiter):
+        active &= (norm > tol) & np.isfinite(norm)
         idx = np.flatnonzero(active)
         if idx.size == 0:
             break
-        if first:
-            sub = [a[idx] if isinstance(a, np.ndarray) else [p[idx] for p in a] for a in args]
-            norm[idx] = residual(*sub, v[idx])
-            first = False
         nr = norm[idx]
-        done = nr <= tol
-        bad = ~np.isfinite(nr)
-        active[idx[done | bad]] = False
-        keep = ~(done | bad)
-        idx, nr = idx[keep], nr[keep]
-        if idx.size == 0:
-            break
-        sub = [a[idx] if isinstance(a, np.ndarray) else [p[idx] for p in a] for a in args]
-        r, J, _ = system(*sub, v[idx])
+        vi = v if idx.size == N else v[idx]
+        r, J, _ = system(*_take(args, idx, N), vi)
         step = solve_small(J, -r)
         iters[idx] += 1
-        t = np.ones(idx.size)
-        pending = np.ones(idx.size, dtype=bool)
+        cand = vi + step
+        new = residual(*_take(args, idx, N), cand)
+        better = new < nr                      # full Newton step accepted here
+        acc = idx[better]
+        v[acc] = cand[better]
+        norm[acc] = new[better]
+        # step halving only where the full step did not improve
+        pend = np.flatnonzero(~better)
+        t = 0.5
         for _ in range(40):
-            pidx = np.flatnonzero(pending)
-            if pidx.size == 0:
+            if pend.size == 0:
                 break
-            gidx = idx[pidx]
-            cand = v[gidx] + t[pidx, None] * step[pidx]
-            sub = [a[gidx] if isinstance(a, np.ndarray) else [p[gidx] for p in a]
-                   for a in args]
-            new = residual(*sub, cand)
-            better = new < nr[pidx]
-            acc = pidx[better]
-            v[idx[acc]] = cand[better]
-            norm[idx[acc]] = new[better]
-            pending[acc] = False
-            t[pidx[~better]] *= 0.5
-        stuck = idx[pending]
-        active[stuck] = False  # no descent along the Newton direction: give up here
+            gidx = idx[pend]
+            c = v[gidx] + t * step[pend]
+            new = residual(*_take(args, gidx, N), c)
+            ok = new < nr[pend]
+            v[gidx[ok]] = c[ok]
+            norm[gidx[ok]] = new[ok]
+            pend = pend[~ok]
+            t *= 0.5
+        active[idx[pend]] = False  # no descent along the Newton direction: give up here
     return v, iters, norm
 
 
@@ -370,8 +386,12 @@ def _spending_result(comp, W, P, v, iters, norm, tol, notes) -> BatchResult:
 
 
 def second_order(comp: Compiled, X, P) -> np.ndarray:
-    """f quasi-concave at X: ∇²f negative semidefinite on the tangent space of ∇f."""
-    N = X.shape[0]
+    """f quasi-concave at X: ∇²f negative semidefinite on the tangent space of ∇f.
+
+    The tangent basis is the Householder reflection of ∇f/|∇f| (columns 2..n), built and
+    applied with length-N vectors, so no per-point matrices are formed for n <= 3.
+    """
+    N, n = X.shape
     ok = np.zeros(N, dtype=bool)
     finite = np.all(np.isfinite(X), axis=1)
     if not finite.any():
@@ -379,30 +399,37 @@ def second_order(comp: Compiled, X, P) -> np.ndarray:
     idx = np.flatnonzero(finite)
     Xs = X[idx]
     Ps = [p[idx] if np.ndim(p) else p for p in P]
-    _, G, H = comp.fgh(Xs, Ps)
-    good = np.all(np.isfinite(G), axis=1) & np.all(np.isfinite(H), axis=(1, 2))
-    if comp.n == 1:
-        ok[idx] = good
-        return ok
-    Gs = np.where(good[:, None], G, 1.0)
-    Hs = np.where(good[:, None, None], H, 0.0)
-    Z = _tangent_basis(Gs)                                   # (N, n, n-1), orthonormal
-    M = np.matmul(np.transpose(Z, (0, 2, 1)), np.matmul(Hs, Z))
-    top = _max_eigenvalue(M)
-    scale = np.maximum(1.0, np.abs(Hs).max(axis=(1, 2)))
+    _, G, H = comp.tables(Xs, Ps)
+    with np.errstate(all="ignore"):
+        good = np.ones(idx.size, dtype=bool)
+        for g in G:
+            good &= np.isfinite(g)
+        scale = np.ones(idx.size)
+        for row in H:
+            for h in row:
+                good &= np.isfinite(h)
+                scale = np.maximum(scale, np.abs(h))
+        if n == 1:
+            ok[idx] = good
+            return ok
+        norm = np.sqrt(sum(g * g for g in G))
+        u = [g / norm for g in G]
+        v = list(u)
+        v[0] = u[0] + np.where(u[0] >= 0, 1.0, -1.0)
+        vv = sum(x * x for x in v)
+        # Z[i][k] = δ_{i,k+1} − 2 v_i v_{k+1} / vᵀv, k = 0..n-2
+        Z = [[(1.0 if i == k + 1 else 0.0) - 2 * v[i] * v[k + 1] / vv for k in range(n - 1)]
+             for i in range(n)]
+        HZ = [[sum(H[i][j] * Z[j][k] for j in range(n)) for k in range(n - 1)]
+              for i in range(n)]
+        M = np.empty((idx.size, n - 1, n - 1))
+        for k in range(n - 1):
+            for m_ in range(k, n - 1):
+                M[:, k, m_] = M[:, m_, k] = sum(Z[i][k] * HZ[i][m_] for i in range(n))
+        M[~good] = 0.0
+        top = _max_eigenvalue(M)
     ok[idx] = good & (top <= 1e-7 * scale)
     return ok
-
-
-def _tangent_basis(G):
-    """Orthonormal bases of the planes orthogonal to the rows of G (Householder)."""
-    N, n = G.shape
-    u = G / np.linalg.norm(G, axis=1, keepdims=True)
-    sign = np.where(u[:, 0] >= 0, 1.0, -1.0)
-    v = u.copy()
-    v[:, 0] += sign                                          # v = u + sign(u1) e1
-    Hh = np.eye(n)[None] - 2 * v[:, :, None] * v[:, None, :] / np.einsum("ni,ni->n", v, v)[:, None, None]
-    return Hh[:, :, 1:]                                      # columns 2..n span u⊥
 
 
 def _max_eigenvalue(M):

@@ -18,7 +18,7 @@ import numpy as np
 import sympy as sp
 
 from .errors import ModelError
-from .model import Model, Parameter, _check_names, _check_value, _param_symbol, _satisfies
+from .model import Model, Parameter, _names_and_parameters
 
 #: side -> (role, level kind, what the formula may contain besides prices and params)
 SIDES = {
@@ -106,23 +106,9 @@ def _build_dual(side: str, formula, prices, quantities, *, level: str,
     if len(quantities) != len(prices):
         raise ModelError(f"{len(prices)} prices but {len(quantities)} quantities; give one "
                          "quantity name per price")
-    params = dict(params or {})
-    assume = dict(assume or {})
     qword = "input" if role == "technology" else "good"
-    extra = [("output" if role == "technology" else "utility level", [level])]
-    if output_price is not None:
-        extra.append(("output price", [output_price]))
-    if income is not None:
-        extra.append(("income", [income]))
-    _check_names([("price", prices), (qword, quantities), *extra, ("parameter", list(params))])
-    for k in assume:
-        if k not in params:
-            raise ModelError(f"assumption given for '{k}', which is not a parameter")
-    values = {k: _check_value(k, v) for k, v in params.items()}
-    psyms = {k: _param_symbol(k, values[k], assume.get(k)) for k in params}
-    for k, v in values.items():
-        if v is not None and assume.get(k) and not _satisfies(v, assume[k]):
-            raise ModelError(f"parameter '{k}' = {v:g} contradicts its assumption '{assume[k]}'")
+    values, psyms = _names_and_parameters(role, [("price", prices), (qword, quantities)],
+                                          level, output_price, income, params, assume)
     price_syms = {p: sp.Symbol(p, positive=True) for p in prices}
     level_sym = (sp.Symbol(level, positive=True) if role == "technology"
                  else sp.Symbol(level, real=True))
@@ -168,11 +154,11 @@ def _build_dual(side: str, formula, prices, quantities, *, level: str,
         quantities=tuple(sp.Symbol(q, positive=True) for q in quantities),
         prices=tuple(price_syms[p] for p in prices), level=level_sym,
         output_price=out_p, income=inc,
-        params=tuple(Parameter(k, psyms[k], values[k]) for k in params),
+        params=tuple(Parameter(k, psyms[k], values[k]) for k in values),
         text=text, name=name, form=form,
         _key=(role, side, form, sp.srepr(expr), tuple(quantities), tuple(prices), level,
               output_price, income,
-              tuple((k, values[k], str(psyms[k].assumptions0)) for k in params)),
+              tuple((k, values[k], str(psyms[k].assumptions0)) for k in values)),
     )
     _check_finite(model, what)
     return model

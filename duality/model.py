@@ -277,24 +277,9 @@ def _build(role: str, formula: str | sp.Expr, quantities: list[str], prices: lis
     if len(prices) != len(quantities):
         raise ModelError(f"{len(quantities)} quantities but {len(prices)} prices; "
                          "give one price per quantity")
-    params = dict(params or {})
-    assume = dict(assume or {})
     qword = "input" if role == "technology" else "good"
-    extra = [("output" if role == "technology" else "utility level", [level])]
-    if output_price is not None:
-        extra.append(("output price", [output_price]))
-    if income is not None:
-        extra.append(("income", [income]))
-    _check_names([(qword, quantities), ("price", prices), *extra, ("parameter", list(params))])
-    for k in assume:
-        if k not in params:
-            raise ModelError(f"assumption given for '{k}', which is not a parameter")
-
-    values = {k: _check_value(k, v) for k, v in params.items()}
-    psyms = {k: _param_symbol(k, values[k], assume.get(k)) for k in params}
-    for k, v in values.items():
-        if v is not None and assume.get(k) and not _satisfies(v, assume[k]):
-            raise ModelError(f"parameter '{k}' = {v:g} contradicts its assumption '{assume[k]}'")
+    values, psyms = _names_and_parameters(role, [(qword, quantities), ("price", prices)],
+                                          level, output_price, income, params, assume)
     qsyms = {q: sp.Symbol(q, positive=True) for q in quantities}
     table = {**qsyms, **psyms}
 
@@ -328,13 +313,38 @@ def _build(role: str, formula: str | sp.Expr, quantities: list[str], prices: lis
         level=level_sym,
         output_price=sp.Symbol(output_price, positive=True) if output_price else None,
         income=sp.Symbol(income, positive=True) if income else None,
-        params=tuple(Parameter(k, psyms[k], values[k]) for k in params),
+        params=tuple(Parameter(k, psyms[k], values[k]) for k in values),
         text=text, name=name,
         _key=(role, sp.srepr(expr), tuple(quantities), tuple(prices), level, output_price,
-              income, tuple((k, values[k], str(psyms[k].assumptions0)) for k in params)),
+              income, tuple((k, values[k], str(psyms[k].assumptions0)) for k in values)),
     )
     _check_monotone(model)
     return model
+
+
+def _names_and_parameters(role: str, groups: list, level: str, output_price: str | None,
+                          income: str | None, params, assume) -> tuple[dict, dict]:
+    """Check every name (valid, used once) and the parameters; their values and symbols.
+
+    ``groups`` lists the quantity and price names, in the order messages should name them.
+    """
+    params = dict(params or {})
+    assume = dict(assume or {})
+    extra = [("output" if role == "technology" else "utility level", [level])]
+    if output_price is not None:
+        extra.append(("output price", [output_price]))
+    if income is not None:
+        extra.append(("income", [income]))
+    _check_names([*groups, *extra, ("parameter", list(params))])
+    for k in assume:
+        if k not in params:
+            raise ModelError(f"assumption given for '{k}', which is not a parameter")
+    values = {k: _check_value(k, v) for k, v in params.items()}
+    psyms = {k: _param_symbol(k, values[k], assume.get(k)) for k in params}
+    for k, v in values.items():
+        if v is not None and assume.get(k) and not _satisfies(v, assume[k]):
+            raise ModelError(f"parameter '{k}' = {v:g} contradicts its assumption '{assume[k]}'")
+    return values, psyms
 
 
 def _satisfies(v: float, assumption: str) -> bool:

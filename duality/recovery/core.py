@@ -51,7 +51,7 @@ def recover(model_or_dual, *, budget: float | None = 5.0,
     """
     from ..derive import cost, expenditure
     from ..model import Model
-    from .result import Derived
+    from ..result import Derived
 
     notes: list[str] = []
     if price_ratios is None:

@@ -305,10 +305,12 @@ def run_cmd(scenario_file, as_json):
         from .welfare import scenario_table
         scn = _scn.load(scenario_file)
         model = scn.build_model()
-        with click.progressbar(length=max(len(scn.variants), 1), label="variants",
-                               file=sys.stderr) as bar:
-            table = scenario_table(scn)
-            bar.update(max(len(scn.variants), 1))
+        frames = {}
+        with click.progressbar(list(scn.variants), label="variants", file=sys.stderr,
+                               show_pos=True) as names:
+            for name in names:  # one variant at a time, so the bar shows real progress
+                frames[name] = scenario_table(scn, only=[name])
+        table = pd.concat(frames.values()) if frames else scenario_table(scn)
         if as_json:
             rows = [{"variant": v, "measure": m, **{k: _plain(x) for k, x in r.items()}}
                     for (v, m), r in table.to_dict(orient="index").items()]

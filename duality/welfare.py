@@ -138,14 +138,21 @@ def compare(model: Model, baseline: Mapping[str, float],
     return df
 
 
-def scenario_table(scenario) -> pd.DataFrame:
+def scenario_table(scenario, *, only=None) -> pd.DataFrame:
     """Every variant of a :class:`~duality.scenario.Scenario` against its baseline.
 
     Rows are indexed by ``(variant, measure)``; columns as in :func:`compare`.  Errors
-    name the scenario file and the variant's key.
+    name the scenario file and the variant's key.  ``only`` restricts the table to the
+    named variants (in that order).
     """
     model = scenario.build_model()
     base, variants = scenario.points()
+    if only is not None:
+        unknown = [n for n in only if n not in variants]
+        if unknown:
+            raise DualityError(f"{scenario.where}: no variant named {unknown[0]!r}; the "
+                               f"variants are {', '.join(variants) or 'none'}")
+        variants = {n: variants[n] for n in only}
     frames = {}
     for name, point in variants.items():
         try:

@@ -308,3 +308,18 @@ def test_scenario_without_variants_gives_an_empty_table():
     s = dataclasses.replace(sc.load(SCENARIOS / "pottery_workshop.toml"), variants={})
     table = scenario_table(s)
     assert table.empty and list(table.columns) == list(COLUMNS)
+
+
+def test_scenario_table_for_chosen_variants():
+    import pathlib
+    import pytest as _pytest
+    import duality as _dy
+    from duality.welfare import scenario_table as _table
+    s = _dy.load_scenario(pathlib.Path(__file__).parent.parent / "scenarios" /
+                          "pottery_workshop.toml")
+    full = _table(s)
+    one = _table(s, only=["festival_order"])
+    assert set(one.index.get_level_values(0)) == {"festival_order"}
+    assert one.equals(full.loc[["festival_order"]])
+    with _pytest.raises(_dy.DualityError, match="no variant named 'nope'"):
+        _table(s, only=["nope"])

@@ -480,6 +480,15 @@ def _guard(fn) -> None:
         fn()
     except DualityError as exc:
         raise _Fail(str(exc).splitlines()[0]) from None
+    except OSError as exc:  # unreadable or unwritable files
+        where = f" ({exc.filename})" if getattr(exc, "filename", None) else ""
+        raise _Fail(f"{exc.strerror or exc}{where}") from None
+    except UnicodeDecodeError as exc:
+        raise _Fail(f"a file is not text (UTF-8): {exc.reason}") from None
+    except Exception as exc:  # pandas cannot read a data file
+        if type(exc).__module__.startswith("pandas"):
+            raise _Fail(f"cannot read the data file: {str(exc).splitlines()[0]}") from None
+        raise
 
 
 __all__ = ["main", "DEFAULT", "CAUTION"]

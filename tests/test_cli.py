@@ -145,3 +145,17 @@ def test_estimate_reproduces_the_nerlove_cost_equation(tmp_path):
     # Greene, Econometric Analysis, 5th ed. (2003), Example 7.3: ln q 0.72067, s = 0.3917
     assert abs(out["coefficients"]["y"] - 0.72067) < 5e-6
     assert abs(out["residual_std_error"] - 0.3917) < 5e-5 and out["dof"] == 141
+
+
+def test_unreadable_data_and_unwritable_output_are_one_line(tmp_path):
+    bad = tmp_path / "bad.csv"
+    bad.write_text('a,b\n1,2,3,4\n"x\n')
+    for args in (["estimate", "-f", "A*L^a*K^b", "-q", "L,K", "-P", "A=free", "-P", "a=free",
+                  "-P", "b=free", "--data", str(bad)],
+                 ["export", "-f", "x1^0.3*x2^0.5", "-t", "python", "--out",
+                  str(tmp_path / "missing" / "x.py")],
+                 ["evaluate", "-f", "x1^0.3*x2^0.5", "--data", str(tmp_path / "none.csv"),
+                  "--out", str(tmp_path / "o.csv")]):
+        r = CliRunner().invoke(main, args)
+        assert r.exit_code == 2, (args, r.output)
+        assert r.output.startswith("error: ") and len(r.output.strip().splitlines()) == 1

@@ -241,3 +241,12 @@ def test_kinked_preference_evaluates_numerically():
     e = dy.expenditure(dy.preference("min(x1, x2) + x1", ["x1", "x2"]), budget=2)
     assert e.route == "numeric"
     assert e(p1=2.0, p2=3.0, u=4.0) == pytest.approx(8.0, rel=1e-6)
+
+
+def test_a_near_miss_of_a_catalogue_form_falls_through_instead_of_failing():
+    # quasi-linear in shape, but phi'(x) = q has no closed-form root: sympy raises
+    # NotImplementedError inside the matcher; the chain must carry on to the numeric route
+    p = dy.preference("x1 + sqrt(x2) + log(1 + x2)*x2^0.3", ["x1", "x2"])
+    e = dy.expenditure(p, budget=1)
+    assert e.route == "numeric"
+    assert np.isfinite(e(p1=1.0, p2=2.0, u=10.0))

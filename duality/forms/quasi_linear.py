@@ -8,9 +8,20 @@ from __future__ import annotations
 
 import sympy as sp
 
+from ..budget import run_with_budget
 from .base import CoreSolution, Form, positive_condition
 
 _q = sp.Symbol("q_", positive=True)
+
+#: Seconds allowed to solve phi'(x) = q when matching (in a worker process).
+MATCH_BUDGET = 2.0
+
+
+def _marginal_roots(phi, x):
+    """Positive solutions of phi'(x) = q (run in a worker under a time budget)."""
+    xp = sp.Symbol("xp_", positive=True)
+    return [s for s in sp.solve(sp.Eq(sp.diff(phi, x).subs(x, xp), _q), xp)
+            if s.is_real is not False]
 
 
 class QuasiLinear(Form):
@@ -42,9 +53,10 @@ class QuasiLinear(Form):
             d2 = sp.diff(phi, x, 2)
             if d2.is_negative is False and d2.is_number:
                 return None
-            xp = sp.Symbol("xp_", positive=True)
-            sols = [s for s in sp.solve(sp.Eq(sp.diff(phi, x).subs(x, xp), _q), xp)
-                    if s.is_real is not False]
+            try:  # sympy may fail or take long on an unusual phi: then it is not this form
+                sols = run_with_budget(_marginal_roots, phi, x, budget=MATCH_BUDGET)
+            except Exception:  # noqa: BLE001 - BudgetExceeded, NotImplementedError, ...
+                return None
             if len(sols) != 1:
                 return None
             roots[x] = sols[0]

@@ -18,7 +18,7 @@ import sympy as sp
 from .budget import run_with_budget
 from .errors import BudgetExceeded, NoSolutionError
 from .lambdas import numpy_function
-from .model import Model
+from .model import Model, _safe_eval
 
 LEMMA = {"cost": "Shephard's lemma", "expenditure": "Shephard's lemma",
          "profit": "Hotelling's lemma", "indirect_utility": "Roy's identity"}
@@ -182,12 +182,8 @@ def check_monotone_level(model: Model, expr, var, why: str = "") -> None:
     rng = np.random.default_rng(1)
     for _ in range(6):
         vals = rng.uniform(0.5, 3.0, len(syms))
-        with np.errstate(all="ignore"):
-            try:
-                v = complex(fn(*vals))
-            except (ArithmeticError, ValueError, TypeError):
-                continue
-        if np.isfinite(v) and v.real <= 0:
+        v = _safe_eval(fn, vals)
+        if v is not None and v <= 0:
             at = ", ".join(f"{s}={x:.3g}" for s, x in zip(syms, vals))
             raise NoSolutionError(why.format(at=at) if why else
                                   f"the given function does not increase in {var} at {at}; "

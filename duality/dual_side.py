@@ -18,7 +18,7 @@ import numpy as np
 import sympy as sp
 
 from .errors import ModelError
-from .model import Model, Parameter, _names_and_parameters
+from .model import Model, Parameter, _names_and_parameters, _read_formula, _safe_eval
 
 #: side -> (role, level kind, what the formula may contain besides prices and params)
 SIDES = {
@@ -125,17 +125,7 @@ def _build_dual(side: str, formula, prices, quantities, *, level: str,
     else:
         allowed[income] = inc
     table = {**allowed, **psyms}
-    if isinstance(formula, sp.Basic):
-        expr = formula.xreplace({s: table[s.name] for s in formula.free_symbols
-                                 if s.name in table})
-        text = ""
-    elif isinstance(formula, str):
-        from .formula import parse
-        expr = parse(formula, symbols=table)
-        text = formula
-    else:
-        raise ModelError(f"formula must be text or a sympy expression, not "
-                         f"{type(formula).__name__}")
+    expr, text = _read_formula(formula, table)
     what = side.replace("_", " ") + " function"
     for s in sorted(expr.free_symbols, key=str):
         if s not in table.values():
@@ -174,13 +164,7 @@ def _check_finite(model: Model, what: str) -> None:
     fn = numpy_function(syms, e)
     rng = np.random.default_rng(0)
     for _ in range(8):
-        vals = rng.uniform(0.5, 3.0, len(syms))
-        with np.errstate(all="ignore"):
-            try:
-                v = complex(fn(*vals))
-            except (ArithmeticError, ValueError, TypeError):
-                continue
-        if np.isfinite(v) and abs(v.imag) < 1e-12:
+        if _safe_eval(fn, rng.uniform(0.5, 3.0, len(syms))) is not None:
             return
     raise ModelError(f"the {what} has no real, finite value at any point tried (all "
                      "arguments between 0.5 and 3)")

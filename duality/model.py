@@ -282,17 +282,7 @@ def _build(role: str, formula: str | sp.Expr, quantities: list[str], prices: lis
                                           level, output_price, income, params, assume)
     qsyms = {q: sp.Symbol(q, positive=True) for q in quantities}
     table = {**qsyms, **psyms}
-
-    if isinstance(formula, sp.Basic):
-        expr = formula.xreplace({s: table[s.name] for s in formula.free_symbols
-                                 if s.name in table})
-        text = ""
-    elif isinstance(formula, str):
-        from .formula import parse  # local: formula imports nothing from here
-        expr = parse(formula, symbols=table)
-        text = formula
-    else:
-        raise ModelError(f"formula must be text or a sympy expression, not {type(formula).__name__}")
+    expr, text = _read_formula(formula, table)
 
     others = {level, *(x for x in (output_price, income) if x)} | set(prices)
     for s in sorted(expr.free_symbols, key=str):
@@ -345,6 +335,17 @@ def _names_and_parameters(role: str, groups: list, level: str, output_price: str
         if v is not None and assume.get(k) and not _satisfies(v, assume[k]):
             raise ModelError(f"parameter '{k}' = {v:g} contradicts its assumption '{assume[k]}'")
     return values, psyms
+
+
+def _read_formula(formula, table: Mapping[str, sp.Symbol]) -> tuple[sp.Expr, str]:
+    """The formula as sympy in the declared symbols, and its text ("" for sympy input)."""
+    if isinstance(formula, sp.Basic):
+        return formula.xreplace({s: table[s.name] for s in formula.free_symbols
+                                 if s.name in table}), ""
+    if isinstance(formula, str):
+        from .formula import parse  # local: formula imports nothing from here
+        return parse(formula, symbols=table), formula
+    raise ModelError(f"formula must be text or a sympy expression, not {type(formula).__name__}")
 
 
 def _satisfies(v: float, assumption: str) -> bool:

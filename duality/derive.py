@@ -273,14 +273,30 @@ def _numeric_allowed(model: Model, notes: list) -> None:
 
 def _symbolic(model: Model, budget, notes: list, candidates_fn, verify_fn):
     """Run the symbolic methods in order within one budget; first verified answer wins."""
-    deadline = None if budget is None else time.monotonic() + float(budget)
-    for method in SYMBOLIC_METHODS:
+    found = first_verified(SYMBOLIC_METHODS, budget, notes,
+                           lambda method, remaining: run_with_budget(
+                               candidates_fn, method, model, budget=remaining),
+                           lambda cand: verify_fn(model, *cand))
+    return None if found is None else (found[0], *found[1])
+
+
+def first_verified(methods, budget, notes: list, run, verify, *, deadline=None):
+    """The first candidate of the first method that passes ``verify``, or None.
+
+    ``run(method, remaining_seconds)`` returns a list of candidates or a string saying why
+    the method does not apply (it runs in a worker under the budget); ``verify(candidate)``
+    returns ``(ok, why)``.  Every method that fails, times out or finds nothing leaves a
+    note saying so.  Returns ``(method, candidate)``.
+    """
+    if deadline is None:
+        deadline = None if budget is None else time.monotonic() + float(budget)
+    for method in methods:
         remaining = None if deadline is None else deadline - time.monotonic()
         if remaining is not None and remaining <= 0.05:
             notes.append(f"symbolic route stopped: budget of {budget:g} s used up")
             return None
         try:
-            cands = run_with_budget(candidates_fn, method, model, budget=remaining)
+            cands = run(method, remaining)
         except BudgetExceeded:
             notes.append(f"{method} route did not finish within the budget "
                          f"({budget:g} s in all)")
@@ -295,19 +311,18 @@ def _symbolic(model: Model, budget, notes: list, candidates_fn, verify_fn):
             notes.append(f"{method} route not applicable: {cands}")
             continue
         rejected = []
-        for value, demands in cands:
-            ok, why = verify_fn(model, value, demands)
+        for cand in cands:
+            ok, why = verify(cand)
             if ok:
                 if rejected:
                     notes.append(f"{method} route: {len(rejected)} of {len(cands)} solution "
-                                 "branches rejected by the numeric check (e.g. "
-                                 f"{rejected[0]})")
-                return method, value, demands
+                                 f"branches rejected by the numeric check (e.g. {rejected[0]})")
+                return method, cand
             rejected.append(why)
         if rejected:
             notes.append(f"{method} route: every candidate rejected by the numeric check "
                          f"(e.g. {rejected[0]})")
-        elif not cands:
+        else:
             notes.append(f"{method} route found no solution")
     return None
 

@@ -156,50 +156,22 @@ def _verify(ctx: _Context, lev, ws) -> tuple[bool, str]:
 
 
 def _symbolic(ctx: _Context, budget, notes: list):
+    from ..derive import first_verified
     deadline = None if budget is None else time.monotonic() + float(budget)
-    c_rat = ctx.c_exact
-    for method in SYMBOLIC_METHODS:
-        remaining = None if deadline is None else deadline - time.monotonic()
+    found = first_verified(
+        SYMBOLIC_METHODS, budget, notes,
+        lambda method, remaining: run_with_budget(
+            _candidates, method, ctx.c_exact, tuple(ctx.prices), ctx.level, tuple(ctx.xs),
+            ctx.positive_level, budget=remaining),
+        lambda cand: _verify(ctx, *cand), deadline=deadline)
+    if found is None:
+        return None
+    method, (lev, _) = found
+    remaining = None if deadline is None else deadline - time.monotonic()
+    try:
         if remaining is not None and remaining <= 0.05:
-            notes.append(f"symbolic route stopped: budget of {budget:g} s used up")
-            return None
-        try:
-            cands = run_with_budget(_candidates, method, c_rat, tuple(ctx.prices), ctx.level,
-                                    tuple(ctx.xs), ctx.positive_level, budget=remaining)
-        except BudgetExceeded:
-            notes.append(f"{method} route did not finish within the budget "
-                         f"({budget:g} s in all)")
-            return None
-        except NotImplementedError as exc:
-            notes.append(f"{method} route: sympy cannot solve this ({exc})")
-            continue
-        except Exception as exc:  # noqa: BLE001 - a failing route is a note
-            notes.append(f"{method} route failed: {type(exc).__name__}: {exc}")
-            continue
-        if isinstance(cands, str):
-            notes.append(f"{method} route not applicable: {cands}")
-            continue
-        rejected = []
-        for lev, ws in cands:
-            ok, why = _verify(ctx, lev, ws)
-            if ok:
-                if rejected:
-                    notes.append(f"{method} route: {len(rejected)} of {len(cands)} solution "
-                                 f"branches rejected by the numeric check (e.g. {rejected[0]})")
-                remaining = None if deadline is None else deadline - time.monotonic()
-                try:
-                    if remaining is not None and remaining <= 0.05:
-                        raise BudgetExceeded("no time left")
-                    lev = run_with_budget(_simplify_worker, lev, tuple(ctx.xs),
-                                          budget=remaining)
-                except Exception:  # noqa: BLE001 - keep the verified unsimplified form
-                    notes.append("simplification of the closed form did not finish within "
-                                 "the budget")
-                return method, lev
-            rejected.append(why)
-        if rejected:
-            notes.append(f"{method} route: every candidate rejected by the numeric check "
-                         f"(e.g. {rejected[0]})")
-        else:
-            notes.append(f"{method} route found no solution")
-    return None
+            raise BudgetExceeded("no time left")
+        lev = run_with_budget(_simplify_worker, lev, tuple(ctx.xs), budget=remaining)
+    except Exception:  # noqa: BLE001 - keep the verified unsimplified form
+        notes.append("simplification of the closed form did not finish within the budget")
+    return method, lev

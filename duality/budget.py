@@ -8,12 +8,20 @@ started from a fork server otherwise (forking a multi-threaded process is unsafe
 The function's result travels back pickled, so it must be picklable; an exception raised
 in the worker is re-raised in the caller with its type and message.  With the fork server
 the function and its arguments are pickled too, so pass a module-level function.
+
+A worker started by the fork server or by spawn would normally import the caller's
+``__main__`` module first.  Under a script runner (the Streamlit app runs its page script as
+``__main__`` in a thread) that would run the whole script again in the worker, so while a
+worker starts, ``__main__`` is hidden whenever the function does not come from it.
 """
 from __future__ import annotations
 
 import multiprocessing as mp
+import contextlib
 import pickle
+import sys
 import threading
+import types
 import time
 import traceback
 from typing import Any, Callable, TypeVar
@@ -26,6 +34,7 @@ T = TypeVar("T")
 FORKSERVER_PRELOAD = ("sympy", "numpy")
 _preload_lock = threading.Lock()
 _preload_done = False
+_main_lock = threading.Lock()
 
 
 class WorkerError(RuntimeError):
@@ -100,7 +109,8 @@ def run_with_budget(fn: Callable[..., T], *args: Any, budget: float | None,
         _preload(ctx, fn)
     receiver, sender = ctx.Pipe(duplex=False)
     proc = ctx.Process(target=_worker, args=(sender, fn, args, kwargs), daemon=True)
-    proc.start()
+    with _main_hidden(method, fn):
+        proc.start()
     sender.close()
     try:
         ready = receiver.poll(max(0.0, deadline - time.monotonic()))
@@ -143,6 +153,28 @@ def _worker(sender, fn: Callable, args: tuple, kwargs: dict) -> None:
         data = pickle.dumps(("error", err, message[2]))
     sender.send_bytes(data)
     sender.close()
+
+
+@contextlib.contextmanager
+def _main_hidden(method: str, fn: Callable):
+    """Hide ``__main__`` from a starting spawn or fork-server worker that does not need it.
+
+    Such workers re-import the module found as ``sys.modules["__main__"]`` (by its file
+    path) before they run anything.  When ``fn`` lives in a proper module, an empty
+    stand-in takes that place while the worker (and, the first time, the fork server)
+    starts, so a page script run as ``__main__`` is never executed again in the worker.
+    """
+    if method == "fork" or getattr(fn, "__module__", None) == "__main__":
+        yield
+        return
+    with _main_lock:
+        real = sys.modules.get("__main__")
+        sys.modules["__main__"] = types.ModuleType("__main__")
+        try:
+            yield
+        finally:
+            if real is not None:
+                sys.modules["__main__"] = real
 
 
 def _preload(ctx, fn: Callable) -> None:

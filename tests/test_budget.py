@@ -90,3 +90,46 @@ def test_budget_exceeded_from_non_main_thread():
     th.start()
     th.join(60)
     assert isinstance(box.get("error"), BudgetExceeded)
+
+
+_PAGE = """
+import math, os
+from duality.budget import run_with_budget, start_method
+with open(os.environ["PAGE_MARK"], "a") as fh:
+    fh.write("page ran\\n")
+print(start_method(), run_with_budget(math.sqrt, 16.0, budget=60))
+"""
+
+_RUNNER = """
+import sys, threading, types
+path = sys.argv[1]
+def run_page():
+    # as a script runner does: the page becomes __main__ while it runs, in a thread
+    module = types.ModuleType("__main__")
+    module.__file__ = path
+    sys.modules["__main__"] = module
+    exec(compile(open(path).read(), path, "exec"), module.__dict__)
+t = threading.Thread(target=run_page)
+t.start()
+t.join()
+"""
+
+
+def test_a_page_script_run_as_main_in_a_thread_is_not_run_again_by_the_worker(tmp_path):
+    # Regression: a fork-server worker imports __main__ by its file path before it runs;
+    # for a page script that would run the page a second time inside the worker.
+    import os
+    import subprocess
+    import sys
+    from pathlib import Path
+    page, runner, mark = tmp_path / "page.py", tmp_path / "runner.py", tmp_path / "mark.txt"
+    page.write_text(_PAGE)
+    runner.write_text(_RUNNER)
+    root = str(Path(__file__).resolve().parents[1])
+    env = {**os.environ, "PAGE_MARK": str(mark),
+           "PYTHONPATH": os.pathsep.join(filter(None, [root, os.environ.get("PYTHONPATH")]))}
+    out = subprocess.run([sys.executable, str(runner), str(page)], capture_output=True,
+                         text=True, timeout=120, env=env)
+    assert out.returncode == 0, out.stderr
+    assert out.stdout.split() == ["forkserver", "4.0"]
+    assert mark.read_text().splitlines() == ["page ran"]

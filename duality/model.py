@@ -371,12 +371,13 @@ def _check_monotone(model: Model) -> None:
     n = len(model.quantities)
     rng = np.random.default_rng(0)
     points = [np.full(n, v) for v in (1.0, 2.0, 5.0, 10.0)] + list(rng.uniform(1, 10, (4, n)))
-    any_real = False
+    any_real, values = False, set()
     for x in points:
         base = _safe_eval(fn, x)
         if base is None:
             continue
         any_real = True
+        values.add(base)
         for i in range(n):
             h = 1e-6 * x[i]
             up = x.copy()
@@ -391,6 +392,11 @@ def _check_monotone(model: Model) -> None:
     if not any_real:
         raise ModelError("the formula has no real, finite value at any quantity point tried "
                          "(all quantities 1, 2, 5, 10 and random points in [1, 10])")
+    if len(values) == 1:
+        what = "production function" if model.is_technology else "utility function"
+        raise ModelError(f"the {what} takes the same value ({values.pop():g}) at every "
+                         "quantity point tried (all quantities 1, 2, 5, 10 and random points "
+                         "in [1, 10]); no quantity changes it (check its parameters)")
 
 
 def _safe_eval(fn, x) -> float | None:

@@ -97,3 +97,18 @@ def test_free_parameters_are_allowed_and_listed():
     t = dy.technology("A*x1^a*x2^b", ["x1", "x2"], params={"A": None, "a": None, "b": 0.5})
     assert {str(s) for s in t.free_params} == {"A", "a"}
     assert "a free" in t.describe()
+
+
+def test_a_function_that_no_quantity_changes_is_refused():
+    # A scale parameter set to zero leaves nothing to produce (common practice, no source)
+    with pytest.raises(ModelError, match="same value .0. at every quantity point"):
+        dy.technology("A*x1^0.3*x2^0.5", ["x1", "x2"], params={"A": 0.0})
+
+
+def test_sign_of_a_bare_parameter_set_to_a_value():
+    # regression: a parameter that is the whole constant came back as a Python float
+    from duality.forms.base import sign_of
+    import sympy as sp
+    A = sp.Symbol("A")
+    assert sign_of(A, {A: 0.0}) == 0
+    assert sign_of(A, {A: 2.0}) == 1

@@ -139,7 +139,7 @@ def sign_of(expr: sp.Expr, values: Mapping[sp.Symbol, float]) -> int:
         return 1
     if expr.is_negative:
         return -1
-    v = expr.xreplace(dict(values))
+    v = sp.sympify(expr.xreplace(dict(values)))  # a bare symbol comes back as a float
     if v.is_number:
         c = complex(v)
         if abs(c.imag) < 1e-12 and c.real != 0:

@@ -11,12 +11,14 @@ of a built-in default technology.  Commands:
 * ``duality export``    — code, LaTeX, JSON or an estimation bundle of every function
 * ``duality estimate``  — fit the log-linear equation of a dual by least squares
 * ``duality scenarios`` — list the scenario files of a folder
+* ``duality app``       — open the browser app on a scenario (127.0.0.1)
 
 Every bad input ends with a one-line message and a non-zero exit, never a traceback.
 """
 from __future__ import annotations
 
 import json
+import subprocess
 import sys
 import warnings
 from pathlib import Path
@@ -472,6 +474,60 @@ def scenarios_cmd(folder):
             scn = _scn.load(p)
             click.echo(f"{p.name}: {scn.title}  [variants: {', '.join(scn.variants) or '-'}]")
     _guard(run)
+
+
+#: the app's own look, passed to Streamlit on the command line
+APP_THEME = {"primaryColor": "#17877b", "backgroundColor": "#fbfaf7",
+             "secondaryBackgroundColor": "#eef1ee", "textColor": "#23313f"}
+
+
+def app_command(scenario: str | None, port: int, save_dir: str | None) -> list[str]:
+    """The command line that starts the browser app (Streamlit) on 127.0.0.1."""
+    script = Path(__file__).resolve().parents[1] / "app" / "main.py"
+    if not script.is_file():
+        raise _Fail(f"the app is not next to this installation ({script} is missing); "
+                    "install from a source checkout with: pip install -e '.[app]'")
+    try:
+        import streamlit  # noqa: F401
+        import plotly  # noqa: F401
+    except ImportError as exc:
+        raise _Fail(f"the app needs {exc.name}; install it with: pip install -e '.[app]'") \
+            from None
+    cmd = [sys.executable, "-m", "streamlit", "run", str(script),
+           "--server.address", "127.0.0.1", "--server.port", str(port),
+           "--server.headless", "true", "--browser.gatherUsageStats", "false"]
+    cmd += [f"--theme.{k}={v}" for k, v in APP_THEME.items()]
+    extra = []
+    if scenario:
+        path = Path(scenario)
+        if not path.is_file():
+            raise _Fail(f"no scenario file {scenario}")
+        extra += ["--scenario", str(path.resolve())]
+    if save_dir:
+        if not Path(save_dir).is_dir():
+            raise _Fail(f"no folder {save_dir} to save scenarios in")
+        extra += ["--save-dir", str(Path(save_dir).resolve())]
+    return cmd + (["--", *extra] if extra else [])
+
+
+@main.command("app")
+@click.argument("scenario", required=False)
+@click.option("--port", type=int, default=8501, show_default=True,
+              help="Port on 127.0.0.1 to serve the app on.")
+@click.option("--save-dir", default=None,
+              help="Folder where edited scenarios are saved (default: scenarios/).")
+def app_cmd(scenario, port, save_dir):
+    """Open the browser app on a scenario (default: the pottery workshop demo).
+
+    Serves on http://127.0.0.1:PORT and prints the address; stop with Ctrl+C."""
+    cmd = app_command(scenario, port, save_dir)
+    click.echo(f"duality app on http://127.0.0.1:{port}  (Ctrl+C to stop)")
+    click.echo(CAUTION)
+    try:
+        code = subprocess.call(cmd)
+    except KeyboardInterrupt:
+        code = 0
+    sys.exit(code)
 
 
 def _guard(fn) -> None:

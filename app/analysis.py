@@ -1,0 +1,346 @@
+"""What every view of the app shows, computed by plain functions (no Streamlit here).
+
+Each function takes a :class:`~duality.model.Model` (frozen and hashable) or a
+:class:`~duality.scenario.Scenario` and returns plain data: cards of LaTeX with their
+provenance, DataFrames, check records, export texts.  Results that cost symbolic work are
+cached by model (``functools.lru_cache``), so a rerun of the page with the same model is
+free and a parameter edit only pays for evaluation.  The symbolic solving itself runs in
+budgeted worker processes inside the library (:mod:`duality.budget`).
+
+Errors from the library arrive as :class:`~duality.errors.DualityError` with a readable
+message; functions here turn them into "not available" entries instead of raising, so a
+view can show every part that does work.
+"""
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass, field
+from functools import lru_cache
+
+import numpy as np
+import pandas as pd
+import sympy as sp
+
+import duality as dy
+from duality.errors import DualityError
+from duality.export import SUFFIXES, TARGETS, export
+from duality.model import Model
+from duality.result import Derived
+
+#: seconds of symbolic work allowed per dual before the numeric route takes over
+BUDGET = 8.0
+ROUTE_TEXT = {
+    "catalogue": "closed form from the catalogue",
+    "symbolic": "closed form derived by the engine",
+    "numeric": "numeric (no closed form found)",
+    "given": "given as typed",
+}
+
+
+@dataclass(frozen=True)
+class Card:
+    """One function for display: LaTeX, route and source, value at the baseline."""
+
+    title: str
+    latex: str
+    route: str
+    method: str = ""
+    source: str | None = None
+    conditions: tuple[str, ...] = ()
+    notes: tuple[str, ...] = ()
+    value: float | None = None
+    demands: tuple["Card", ...] = ()
+    numeric: bool = False
+
+
+@dataclass(frozen=True)
+class Unavailable:
+    """A dual the model does not have, with the reason."""
+
+    title: str
+    reason: str
+
+
+@dataclass
+class Duals:
+    """Every dual of a model: the derived objects and their display cards."""
+
+    derived: dict[str, Derived] = field(default_factory=dict)
+    cards: list = field(default_factory=list)
+
+
+def _kinds(model: Model) -> list[tuple[str, str, object]]:
+    if model.is_technology:
+        return [("cost", "Cost function", dy.cost), ("profit", "Profit function", dy.profit)]
+    return [("indirect_utility", "Indirect utility function", dy.indirect_utility),
+            ("expenditure", "Expenditure function", dy.expenditure)]
+
+
+@lru_cache(maxsize=64)
+def derive_all(model: Model, budget: float | None = BUDGET) -> dict[str, Derived | str]:
+    """Each dual of ``model`` (cost and profit, or indirect utility and expenditure).
+
+    A dual that does not exist maps to the reason, as text.
+    """
+    out: dict[str, Derived | str] = {}
+    for key, _title, fn in _kinds(model):
+        try:
+            out[key] = fn(model, budget=budget)
+        except DualityError as exc:
+            out[key] = str(exc)
+    return out
+
+
+def point_for(d: Derived, point: dict) -> dict[str, float]:
+    """The part of ``point`` that ``d`` takes as arguments."""
+    names = {str(a) for a in d.args}
+    return {k: float(v) for k, v in point.items() if k in names}
+
+
+def value_at(d: Derived, point: dict) -> float | None:
+    """``d`` at the point, or None where it cannot be evaluated there."""
+    try:
+        v = float(d(**point_for(d, point)))
+    except (DualityError, ValueError, TypeError, ZeroDivisionError):
+        return None
+    return v if math.isfinite(v) else None
+
+
+def baseline_point(model: Model, duals: dict, base: dict) -> dict[str, float]:
+    """The scenario's baseline point, completed with the utility level it reaches.
+
+    For a preference the expenditure function needs a utility level: the one the
+    baseline income buys, v(p, m), unless the scenario gives a level instead.
+    """
+    pt = {k: float(v) for k, v in base.items()}
+    if not model.is_technology:
+        u, m = str(model.level), str(model.income)
+        v, e = duals.get("indirect_utility"), duals.get("expenditure")
+        if u not in pt and isinstance(v, Derived) and m in pt:
+            val = value_at(v, pt)
+            if val is not None:
+                pt[u] = val
+        if m not in pt and isinstance(e, Derived) and u in pt:
+            val = value_at(e, pt)
+            if val is not None:
+                pt[m] = val
+    return pt
+
+
+def _card(title: str, d: Derived, point: dict, with_demands: bool) -> Card:
+    demands: tuple[Card, ...] = ()
+    if with_demands and d.demand_factory is not None:
+        try:
+            dem = d.demands
+        except DualityError:
+            dem = {}
+        demands = tuple(_card(name, x, point, False) for name, x in dem.items())
+    return Card(title=title, latex=latex_of(d), route=d.route, method=d.method or "",
+                source=d.source, conditions=tuple(sp.latex(c) for c in d.conditions),
+                notes=tuple(d.notes), value=value_at(d, point), demands=demands,
+                numeric=d.expr is None)
+
+
+def cards(model: Model, base: dict) -> tuple[list, dict[str, float]]:
+    """Display cards for every dual (with its demands) at the baseline point.
+
+    Returns the cards (:class:`Card` or :class:`Unavailable`) and the completed point.
+    """
+    duals = derive_all(model)
+    pt = baseline_point(model, duals, base)
+    out = []
+    for key, title, _fn in _kinds(model):
+        d = duals[key]
+        out.append(Unavailable(title, d) if isinstance(d, str) else _card(title, d, pt, True))
+    return out, pt
+
+
+_GREEK = {"alpha", "beta", "gamma", "delta", "epsilon", "zeta", "eta", "theta", "iota",
+          "kappa", "lambda", "mu", "nu", "xi", "pi", "rho", "sigma", "tau", "upsilon", "phi",
+          "chi", "psi", "omega"}
+
+
+def _word(text: str) -> str:
+    if len(text) > 1 and text.lower() not in _GREEK and not text[1:].isdigit():
+        return r"\mathrm{" + text.replace("_", r"\_") + "}"
+    return sp.latex(sp.Symbol(text))
+
+
+def _symbol_tex(sym: sp.Symbol) -> str:
+    base, _, sub = sym.name.partition("_")
+    if not sub:
+        return _word(base)
+    return _word(base) + "_{" + _word(sub) + "}"
+
+
+def tex(expr) -> str:
+    """LaTeX with an explicit product dot and upright multi-letter names (names here are
+    often words: A·clay^0.3, w_clay)."""
+    names = {s: _symbol_tex(s) for s in getattr(expr, "free_symbols", ())}
+    return sp.latex(expr, mul_symbol="dot", symbol_names=names)
+
+
+def _args_tex(args) -> str:
+    return ", ".join(tex(a) for a in args)
+
+
+def latex_of(d: Derived) -> str:
+    """``head(args) = closed form`` of a derived function, or a note that it is numeric."""
+    if d.expr is None:
+        return d.latex()
+    head = d.latex().split("(", 1)[0]
+    if d.name and head == sp.latex(sp.Symbol(d.name)):
+        head = tex(sp.Symbol(d.name))
+    return f"{head}({_args_tex(d.args)}) = {tex(d.expr)}"
+
+
+def model_latex(model: Model) -> str:
+    """The model as an equation: ``y = f(x)``, ``u = U(x)`` or the given dual."""
+    if model.is_primal:
+        lhs = tex(model.level)
+        args = _args_tex(model.quantities)
+        head = "f" if model.is_technology else "U"
+        return f"{lhs} = {head}({args}) = {tex(model.expr)}"
+    head = {"cost": "c", "profit": r"\pi", "expenditure": "e",
+            "indirect_utility": "v"}[model.side]
+    return f"{head}({_args_tex(model.dual_args)}) = {tex(model.expr)}"
+
+
+# -- elasticities -------------------------------------------------------------------------
+def elasticity_tables(model: Model, point: dict) -> dict[str, pd.DataFrame] | str:
+    """Elasticity matrices at ``point`` as labelled DataFrames, or the reason there are
+    none.  Keys: ``shares``, ``price``, (``compensated``), ``level``, ``allen_uzawa``,
+    ``morishima``; plus ``meta`` (route, returns to scale, notes)."""
+    try:
+        tab = _elasticities(model, tuple(sorted(point.items())))
+    except DualityError as exc:
+        return str(exc)
+    names = list(tab.names)
+    lvl = "output elasticity" if tab.role == "technology" else "income elasticity"
+    out = {"shares": pd.DataFrame({"share": tab.shares, lvl: tab.level}, index=names),
+           "price": pd.DataFrame(tab.price, index=names, columns=names),
+           "allen_uzawa": pd.DataFrame(tab.allen_uzawa, index=names, columns=names),
+           "morishima": pd.DataFrame(tab.morishima, index=names, columns=names)}
+    if tab.compensated is not None:
+        out["compensated"] = pd.DataFrame(tab.compensated, index=names, columns=names)
+    out["meta"] = pd.DataFrame({"value": [tab.route, "" if tab.returns_to_scale is None
+                                          else f"{tab.returns_to_scale:.6g}",
+                                          "; ".join(tab.notes)]},
+                               index=["route", "returns to scale", "notes"])
+    return out
+
+
+@lru_cache(maxsize=256)
+def _elasticities(model: Model, items: tuple):
+    point = dict(items)
+    names = {str(s) for s in model.prices} | {str(model.level)}
+    if not model.is_technology:
+        names = {str(s) for s in model.prices} | {str(model.income)}
+    return dy.elasticities(model, budget=BUDGET, **{k: v for k, v in point.items()
+                                                   if k in names})
+
+
+ELASTICITY_TITLES = {
+    "price": "own- and cross-price elasticities",
+    "compensated": "compensated (Hicksian) price elasticities",
+    "allen_uzawa": "Allen–Uzawa elasticities of substitution",
+    "morishima": "Morishima elasticities of substitution",
+}
+
+
+# -- checks -------------------------------------------------------------------------------
+@lru_cache(maxsize=32)
+def checks(model: Model) -> tuple:
+    """The model's check records (cached by model)."""
+    return tuple(dy.check(model, budget=BUDGET))
+
+
+def checks_frame(records) -> pd.DataFrame:
+    rows = []
+    for r in records:
+        rows.append({"check": r.name, "status": r.status, "evidence": r.evidence,
+                     "largest error": r.max_error, "points": r.points or None,
+                     "counterexample": "" if not r.counterexample else
+                     ", ".join(f"{k}={v:.4g}" for k, v in r.counterexample.items())})
+    return pd.DataFrame(rows)
+
+
+# -- price scenarios ----------------------------------------------------------------------
+def welfare(scenario) -> pd.DataFrame | str:
+    """The scenario's comparison table (variants against the baseline)."""
+    if not scenario.variants:
+        return "the scenario has no price variants; add one to compare"
+    try:
+        return dy.scenario_table(scenario)
+    except DualityError as exc:
+        return str(exc)
+
+
+#: measures drawn as welfare bars, by role
+WELFARE_MEASURES = {
+    "technology": ["total cost", "profit"],
+    "preference": ["compensating variation", "equivalent variation",
+                   "consumer surplus change"],
+}
+
+
+def welfare_bars_data(table: pd.DataFrame, role: str) -> pd.DataFrame:
+    """Variant × measure changes for the bar chart (long format)."""
+    rows = []
+    for (variant, measure), row in table.iterrows():
+        if measure in WELFARE_MEASURES[role] and pd.notna(row["change"]):
+            rows.append({"variant": variant, "measure": measure,
+                         "change": float(row["change"])})
+    return pd.DataFrame(rows, columns=["variant", "measure", "change"])
+
+
+# -- regularity ---------------------------------------------------------------------------
+def regularity(model: Model, data: pd.DataFrame, columns: dict | None = None):
+    """Regularity report over ``data`` (library report object)."""
+    return dy.regularity(model, data, columns=columns or None, budget=BUDGET,
+                         restrictions="warn")
+
+
+# -- exports ------------------------------------------------------------------------------
+def export_name(title: str) -> str:
+    """A name usable by every export target, from a scenario title."""
+    words = re.findall(r"[A-Za-z0-9]+", title.lower())[:4]
+    name = "_".join(words) or "model"
+    return name if name[0].isalpha() else "m_" + name
+
+
+@lru_cache(maxsize=64)
+def exports(model: Model, name: str) -> dict[str, tuple[str, str | None, str]]:
+    """Every export target: ``{target: (file name, text, "")}``, or
+    ``(file name, None, reason)`` for a target that cannot express this model."""
+    out = {}
+    for target in TARGETS:
+        fname = f"{name}{SUFFIXES[target]}"
+        if target == "bundle":
+            fname = f"{name}_bundle.json"
+        try:
+            out[target] = (fname, export(model, target, name=name), "")
+        except DualityError as exc:
+            out[target] = (fname, None, str(exc))
+    return out
+
+
+# -- conjugate ---------------------------------------------------------------------------
+@lru_cache(maxsize=64)
+def closed_conjugate(formula: str, var: str) -> str | None:
+    """``f^*(s) = …`` in LaTeX when the conjugate has a closed form, else None."""
+    c = dy.conjugate(formula, var, "s", budget=3.0)
+    if c.expr is None:
+        return None
+    dom = ""
+    if getattr(c, "domain", None) not in (None, sp.S.Reals, True):
+        dom = r" \quad \text{on } " + sp.latex(c.domain)
+    return r"f^*(s) = " + sp.latex(c.expr) + dom + rf" \quad \text{{({c.route})}}"
+
+
+# -- numbers ------------------------------------------------------------------------------
+def fmt(v) -> str:
+    if v is None or (isinstance(v, float) and not np.isfinite(v)):
+        return "—"
+    return f"{v:.6g}"

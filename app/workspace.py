@@ -1,0 +1,209 @@
+"""The scenario being worked on: where it came from, its edits, and saving it safely.
+
+The app holds a scenario as the plain dictionary of :func:`duality.scenario.to_dict`
+(what the TOML file holds).  Every edit produces a new dictionary, which is validated by
+:func:`duality.scenario.from_dict`; a problem comes back as a message naming the key, and
+the last valid scenario stays in use.  No Streamlit here: the page script calls these
+functions, and tests call them directly.
+"""
+from __future__ import annotations
+
+import copy
+import os
+import re
+from dataclasses import dataclass
+from pathlib import Path
+
+from duality import scenario as sc
+from duality.errors import DualityError
+from duality.formula import parse
+
+ROOT = Path(__file__).resolve().parents[1]
+#: the demo scenarios shipped with the project
+SCENARIO_DIR = ROOT / "scenarios"
+#: the scenario the app opens with
+DEFAULT_SCENARIO = "pottery_workshop.toml"
+
+
+@dataclass(frozen=True)
+class Entry:
+    """A scenario file found in a folder (``error`` set when it does not load)."""
+
+    name: str
+    path: Path
+    title: str
+    error: str = ""
+
+
+def list_scenarios(folder: Path = SCENARIO_DIR) -> list[Entry]:
+    """Every ``*.toml`` file in ``folder``, sorted by name, with its title or its error."""
+    out = []
+    for path in sorted(Path(folder).glob("*.toml")):
+        try:
+            out.append(Entry(path.name, path, sc.load(path).title))
+        except DualityError as exc:
+            out.append(Entry(path.name, path, path.stem, str(exc)))
+    return out
+
+
+def read_file(path: Path) -> tuple[dict, Path]:
+    """The scenario at ``path`` as a dictionary (validated), and its path."""
+    return sc.to_dict(sc.load(path)), Path(path)
+
+
+def read_upload(data: bytes, name: str) -> dict:
+    """An uploaded scenario file as a dictionary (validated)."""
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise DualityError(f"{name}: not a UTF-8 text file ({exc.reason} at byte "
+                           f"{exc.start})") from None
+    return sc.to_dict(sc.loads(text, path=name))
+
+
+def build(raw: dict, path: Path | None = None) -> sc.Scenario:
+    """Validate ``raw`` into a scenario (DualityError naming the key otherwise)."""
+    return sc.from_dict(raw, path=path)
+
+
+_ASSIGN = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_]*)\s*=\s*(.+?)\s*$")
+
+
+def parse_assignments(text: str, what: str = "parameters") -> dict[str, float]:
+    """``"A=2, a=0.3"`` (commas or new lines) -> ``{"A": 2.0, "a": 0.3}``."""
+    out: dict[str, float] = {}
+    for k, part in enumerate(p for p in re.split(r"[,\n;]", text) if p.strip()):
+        m = _ASSIGN.match(part)
+        if not m:
+            raise DualityError(f"{what}: item {k + 1} ({part.strip()!r}) is not of the "
+                               "form name = number")
+        name, value = m.groups()
+        if name in out:
+            raise DualityError(f"{what}: {name} is given twice")
+        try:
+            out[name] = float(value)
+        except ValueError:
+            raise DualityError(f"{what}: {name} = {value!r} is not a number") from None
+    return out
+
+
+def _names(text: str, what: str) -> list[str]:
+    names = [n.strip() for n in re.split(r"[,\s]+", text) if n.strip()]
+    for n in names:
+        if not re.fullmatch(r"[A-Za-z_][A-Za-z0-9_]*", n):
+            raise DualityError(f"{what}: {n!r} is not a valid name (letters, digits and "
+                               "underscores, starting with a letter)")
+    if not names:
+        raise DualityError(f"{what}: give at least one name")
+    return names
+
+
+def _not_in_formula(names: list[str]) -> str:
+    verb = "does" if len(names) == 1 else "do"
+    return f"{', '.join(names)} {verb} not appear in the formula"
+
+
+def from_formula(formula: str, role: str, quantities: str, parameters: str = "",
+                 prices: str = "") -> dict:
+    """A scenario dictionary for a typed primal formula, at unit prices.
+
+    Baseline: every price 1, output 1 (technology) or income 100 (preference); every
+    parameter of the formula needs a value in ``parameters``.
+    """
+    if role not in ("technology", "preference"):
+        raise DualityError(f"role must be technology or preference, not {role!r}")
+    expr = parse(formula)  # FormulaError names the position of a problem
+    qs = _names(quantities, "quantities")
+    missing_q = [q for q in qs if q not in {str(s) for s in expr.free_symbols}]
+    if missing_q:
+        raise DualityError(f"quantities: {_not_in_formula(missing_q)}")
+    values = parse_assignments(parameters)
+    params = sorted({str(s) for s in expr.free_symbols} - set(qs))
+    absent = [p for p in params if p not in values]
+    if absent:
+        raise DualityError("parameters: give a value for " + ", ".join(absent)
+                           + " (e.g. " + ", ".join(f"{p}=0.5" for p in absent) + ")")
+    extra = sorted(set(values) - set(params))
+    if extra:
+        raise DualityError(f"parameters: {_not_in_formula(extra)}")
+    stem = "w" if role == "technology" else "p"
+    ps = _names(prices, "prices") if prices.strip() else [f"{stem}_{q}" for q in qs]
+    if len(ps) != len(qs):
+        raise DualityError(f"prices: {len(ps)} name(s) for {len(qs)} quantities")
+    model = {"role": role, "side": "primal", "formula": formula, "quantities": qs,
+             "prices": ps, "parameters": values}
+    base: dict = {"prices": {p: 1.0 for p in ps}}
+    if role == "technology":
+        model.update(output="y", output_price="p")
+        base["prices"]["p"] = 2.0
+        base["output"] = 1.0
+    else:
+        base["income"] = 100.0
+    raw = {"title": "Typed model", "description": f"Typed in the app: {formula}",
+           "model": model, "baseline": base}
+    build(raw)
+    return raw
+
+
+# -- edits --------------------------------------------------------------------------------
+def edited(raw: dict, *, parameters: dict | None = None, prices: dict | None = None,
+           output: float | None = None, income: float | None = None) -> dict:
+    """A copy of ``raw`` with new parameter values, baseline prices, output or income."""
+    new = copy.deepcopy(raw)
+    if parameters:
+        new["model"].setdefault("parameters", {}).update(parameters)
+    if prices:
+        new["baseline"].setdefault("prices", {}).update(prices)
+    if output is not None:
+        new["baseline"]["output"] = output
+    if income is not None:
+        new["baseline"]["income"] = income
+    return new
+
+
+# -- saving -------------------------------------------------------------------------------
+@dataclass(frozen=True)
+class SavePlan:
+    """Where a save would go and whether it needs the user's confirmation."""
+
+    path: Path
+    exists: bool
+    needs_confirmation: bool
+    message: str
+
+
+def plan_save(file_name: str, folder: Path, origin: Path | None) -> SavePlan:
+    """Check a file name for saving into ``folder``.
+
+    Only a plain ``*.toml`` file name is accepted (no folders, no ``..``).  Writing over
+    an existing file other than the one the scenario came from needs confirmation;
+    the previous version of any file written over is kept as ``<name>.toml.bak``.
+    """
+    name = file_name.strip()
+    if not name:
+        raise DualityError("file name: give a name ending in .toml")
+    if not name.endswith(".toml"):
+        name += ".toml"
+    if (os.sep in name or (os.altsep and os.altsep in name) or name.startswith(".")
+            or not re.fullmatch(r"[A-Za-z0-9_.\- ]+\.toml", name)):
+        raise DualityError(f"file name: {file_name!r} must be a plain file name (letters, "
+                           "digits, '_', '-', '.', spaces) ending in .toml, with no folder")
+    path = (Path(folder) / name).resolve()
+    exists = path.exists()
+    own = origin is not None and Path(origin).resolve() == path
+    if exists and not own:
+        return SavePlan(path, True, True, f"{name} already exists and holds another "
+                        "scenario; confirm to replace it (its current version is kept as "
+                        f"{name}.bak)")
+    if exists:
+        return SavePlan(path, True, False, f"saves over {name}, the file this scenario "
+                        f"came from; its current version is kept as {name}.bak")
+    return SavePlan(path, False, False, f"saves a new file {name}")
+
+
+def save(raw: dict, plan: SavePlan, confirmed: bool = False) -> Path:
+    """Write the scenario as planned (atomic; previous version kept as ``.bak``)."""
+    if plan.needs_confirmation and not confirmed:
+        raise DualityError(plan.message)
+    scenario = build(raw, path=plan.path)
+    return sc.save(scenario, plan.path, backup=True)

@@ -1,0 +1,193 @@
+"""The plotly figures, built by plain functions and checked against closed forms.
+
+References: Cobb–Douglas cost and demands, Varian, Microeconomic Analysis, 3rd ed. (1992),
+ch. 4 and ch. 7 (from memory); tangency of the isoquant and the isocost line at the cost
+minimum (MRTS = price ratio), same book ch. 4 (from memory); the conjugate pair
+x²/2 <-> s²/2 and |x| <-> indicator of [-1, 1], Boyd and Vandenberghe, Convex Optimization
+(2004), sec. 3.3.1 (from memory).
+"""
+import numpy as np
+import pytest
+
+import duality as dy
+from duality.errors import DualityError
+
+from app import analysis as A
+from app import figures as F
+from pathlib import Path
+
+SCENARIOS = Path(__file__).resolve().parents[2] / "scenarios"
+
+
+def _scenario(name):
+    s = dy.load_scenario(SCENARIOS / name)
+    m = s.build_model()
+    duals = A.derive_all(m)
+    _cards, pt = A.cards(m, s.points()[0])
+    return s, m, duals, pt
+
+
+@pytest.fixture(scope="module")
+def pottery():
+    return _scenario("pottery_workshop.toml")
+
+
+@pytest.fixture(scope="module")
+def saltmere():
+    return _scenario("saltmere_household.toml")
+
+
+def test_isoquant_passes_through_the_cost_minimising_bundle_tangent_to_the_isocost_line(
+        pottery):
+    s, m, duals, pt = pottery
+    fig = F.level_curve(m, duals["cost"], pt, ("clay", "labour"))
+    curve, line, bundle = fig.data
+    # bundle = conditional demands (Shephard's lemma) at the baseline
+    x = {q: float(d(**A.point_for(d, pt))) for q, d in duals["cost"].demands.items()}
+    assert bundle.x[0] == pytest.approx(x["clay"], rel=1e-12)
+    assert bundle.y[0] == pytest.approx(x["labour"], rel=1e-12)
+    # every point of the curve produces the baseline output (kiln at its optimum)
+    A_, out = 1.8, pt["bowls"]
+    xi, xj = np.asarray(curve.x), np.asarray(curve.y)
+    f = A_ * xi ** 0.3 * x["kiln"] ** 0.2 * xj ** 0.4
+    np.testing.assert_allclose(f, out, rtol=1e-9)
+    # the isocost line goes through the bundle with slope -w_clay / w_labour ...
+    lx, ly = np.asarray(line.x), np.asarray(line.y)
+    slope = (ly[-1] - ly[0]) / (lx[-1] - lx[0])
+    assert slope == pytest.approx(-pt["w_clay"] / pt["w_labour"], rel=1e-12)
+    assert np.interp(x["clay"], lx, ly) == pytest.approx(x["labour"], rel=1e-9)
+    # ... and touches the isoquant there: no point of the isoquant costs less (cost
+    # minimum), and the nearest points cost only second-order more (MRTS = price ratio)
+    spend = pt["w_clay"] * x["clay"] + pt["w_labour"] * x["labour"]
+    cost_on_curve = pt["w_clay"] * xi + pt["w_labour"] * xj
+    assert (cost_on_curve >= spend * (1 - 1e-12)).all()
+    k = np.argmin(np.abs(xi - x["clay"]))
+    assert cost_on_curve[k] == pytest.approx(spend, rel=1e-3)
+
+
+def test_indifference_curve_and_budget_line_of_a_household(saltmere):
+    s, m, duals, pt = saltmere
+    fig = F.level_curve(m, duals["expenditure"], pt)
+    curve, line, bundle = fig.data
+    # Cobb–Douglas Marshallian demand x_i = a_i m / p_i (food share 0.5, fuel 0.2)
+    assert bundle.x[0] == pytest.approx(0.5 * 420 / 3.2, rel=1e-9)
+    assert bundle.y[0] == pytest.approx(0.2 * 420 / 1.6, rel=1e-9)
+    bus = 0.3 * 420 / 2.1
+    u = np.asarray(curve.x) ** 0.5 * np.asarray(curve.y) ** 0.2 * bus ** 0.3
+    np.testing.assert_allclose(u, pt["u"], rtol=1e-9)
+    assert "indifference curve" in fig.data[0].name
+    assert line.name == "budget line"
+
+
+def test_level_curve_refuses_a_model_given_on_the_dual_side():
+    s, m, duals, pt = _scenario("ferry_operator_translog.toml")
+    with pytest.raises(DualityError, match="no production or utility function"):
+        F.level_curve(m, duals["cost"], pt)
+
+
+def test_level_curve_names_bad_axis_choices(pottery):
+    s, m, duals, pt = pottery
+    with pytest.raises(DualityError, match="two different quantities"):
+        F.level_curve(m, duals["cost"], pt, ("clay", "clay"))
+
+
+def test_cost_curves_match_the_cobb_douglas_closed_form(pottery):
+    s, m, duals, pt = pottery
+    fig = F.cost_curves(duals["cost"], pt)
+    tc, ac, mc = fig.data
+    y = np.asarray(tc.x)
+    # c(w, y) = K y^(1/r) with r = 0.9 (returns to scale): MC = c / (r y), AC = c / y
+    K = float(duals["cost"](**{**A.point_for(duals["cost"], pt), "bowls": 1.0}))
+    np.testing.assert_allclose(tc.y, K * y ** (1 / 0.9), rtol=1e-12)
+    np.testing.assert_allclose(ac.y, K * y ** (1 / 0.9) / y, rtol=1e-12)
+    np.testing.assert_allclose(mc.y, K * y ** (1 / 0.9) / (0.9 * y), rtol=1e-10)
+
+
+def test_cost_curves_of_a_numeric_cost_function_use_differences():
+    s, m, duals, pt = _scenario("fishing_cooperative_numeric.toml")
+    c = duals["cost"]
+    assert c.route == "numeric"
+    fig = F.cost_curves(c, pt, n=40)
+    tc, ac, mc = fig.data
+    y, t = np.asarray(tc.x), np.asarray(tc.y)
+    assert np.isfinite(t).all()
+    # marginal cost agrees with the slope of the total-cost trace (independent estimate)
+    slope = np.gradient(t, y)
+    np.testing.assert_allclose(np.asarray(mc.y)[2:-2], slope[2:-2], rtol=2e-2)
+
+
+def test_demand_curves_follow_the_marshallian_closed_form(saltmere):
+    s, m, duals, pt = saltmere
+    fig = F.demand_curves(duals["indirect_utility"], pt)
+    curves = [t for t in fig.data if t.mode != "markers"]
+    shares = {"food": 0.5, "fuel": 0.2, "bus": 0.3}
+    for trace, (q, a) in zip(curves, shares.items()):
+        p = np.asarray(trace.x)
+        np.testing.assert_allclose(trace.y, a * 420 / p, rtol=1e-10)
+    assert len(curves) == 3
+
+
+def test_conjugate_envelope_of_a_smooth_convex_function():
+    fig = F.conjugate_envelope("x^2/2", "x", -3, 3, n=601)
+    f, *lines, conj = fig.data
+    s = np.asarray(conj.x)
+    np.testing.assert_allclose(conj.y, s ** 2 / 2, atol=1e-4)   # grid step 0.01
+    xs, fx = np.asarray(f.x), np.asarray(f.y)
+    for line in lines:  # each supporting line stays below f
+        lx = np.asarray(line.x)
+        assert (np.asarray(line.y) <= np.interp(lx, xs, fx) + 1e-9).all()
+
+
+def test_conjugate_envelope_of_a_kink_and_of_a_non_convex_function():
+    fig = F.conjugate_envelope("abs(x)", "x", -2, 2, n=401)
+    conj = fig.data[-1]
+    assert np.asarray(conj.x).min() == pytest.approx(-1)
+    assert np.asarray(conj.x).max() == pytest.approx(1)
+    np.testing.assert_allclose(conj.y, 0, atol=1e-12)
+    # double well: the lines support the convex envelope, never crossing f
+    fig = F.conjugate_envelope("x^4 - 2*x^2", "x", -2, 2, n=801)
+    f, *lines, conj = fig.data
+    xs, fx = np.asarray(f.x), np.asarray(f.y)
+    for line in lines:
+        assert (np.asarray(line.y) <= np.interp(np.asarray(line.x), xs, fx) + 1e-9).all()
+    # f*(0) = -min f = 1 (minimum -1 at x = ±1)
+    assert np.interp(0.0, conj.x, conj.y) == pytest.approx(1.0, abs=1e-9)
+
+
+@pytest.mark.parametrize("formula, where", [("log(x)", "not finite"),
+                                            ("x + a", "give values for a")])
+def test_conjugate_envelope_names_the_problem(formula, where):
+    with pytest.raises(DualityError, match=where):
+        F.conjugate_envelope(formula, "x", -1, 1)
+
+
+def test_elasticity_heatmap_shows_the_matrix(pottery):
+    s, m, duals, pt = pottery
+    tabs = A.elasticity_tables(m, pt)
+    fig = F.elasticity_heatmap(tabs["allen_uzawa"], "Allen–Uzawa")
+    z = np.asarray(fig.data[0].z)
+    # Cobb–Douglas: every Allen–Uzawa cross elasticity is 1 (Varian 1992, ch. 4)
+    off = z[~np.eye(3, dtype=bool)]
+    np.testing.assert_allclose(off, 1.0, rtol=1e-9)
+    assert fig.data[0].zmin == -fig.data[0].zmax
+    assert list(fig.data[0].x) == ["clay", "kiln", "labour"]
+
+
+def test_welfare_bars_equal_the_exact_cobb_douglas_cv_and_ev(saltmere):
+    s, m, duals, pt = saltmere
+    bars = A.welfare_bars_data(A.welfare(s), "preference")
+    fig = F.welfare_bars(bars)
+    by = {t.name: dict(zip(t.x, t.y)) for t in fig.data}
+    # fuel levy: p_fuel 1.6 -> 2.1 with fuel share 0.2; e(p, u) proportional to p_fuel^0.2
+    cv = 420 - 420 * (2.1 / 1.6) ** 0.2
+    ev = 420 * (1.6 / 2.1) ** 0.2 - 420
+    assert by["compensating variation"]["fuel_levy"] == pytest.approx(cv, rel=1e-9)
+    assert by["equivalent variation"]["fuel_levy"] == pytest.approx(ev, rel=1e-9)
+    assert set(by) == {"compensating variation", "equivalent variation",
+                       "consumer surplus change"}
+
+
+def test_welfare_bars_without_measures_is_an_error():
+    import pandas as pd
+    with pytest.raises(DualityError, match="no welfare"):
+        F.welfare_bars(pd.DataFrame(columns=["variant", "measure", "change"]))

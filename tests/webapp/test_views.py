@@ -1,0 +1,209 @@
+"""Every view of the page, driven by Streamlit's AppTest (no browser).
+
+Reference values: Cobb–Douglas cost, demands and Allen–Uzawa elasticities (all cross
+elasticities 1), Varian, Microeconomic Analysis, 3rd ed. (1992), ch. 4 (from memory);
+Cobb–Douglas Marshallian demand a_i m / p_i, same book ch. 7 (from memory); the conjugate
+of x^2 is p^2/4, common practice, no source.
+"""
+import math
+from pathlib import Path
+
+import duality as dy
+
+SCENARIOS = Path(__file__).resolve().parents[2] / "scenarios"
+
+
+def _show(at, view):
+    at.segmented_control(key="view").set_value(view).run()
+    assert not at.exception, [e.value for e in at.exception]
+    return at
+
+
+def _latex(at):
+    return [e.value for e in at.latex]
+
+
+def _markdown(at):
+    return " ".join(e.value for e in at.markdown) + " " + " ".join(e.value for e in at.caption)
+
+
+def _metric(at, label):
+    return [m.value for m in at.metric if m.label == label]
+
+
+def _pottery_cost(A=1.8, w=(0.9, 0.25, 16.0), y=400.0):
+    # c = y^(1/r) * prod (w_i / a_i)^(a_i / r) * r * A^(-1/r), r = 0.9 (Cobb–Douglas cost)
+    a = (0.3, 0.2, 0.4)
+    r = sum(a)
+    return r * (y / A) ** (1 / r) * math.prod((wi / ai) ** (ai / r) for wi, ai in zip(w, a))
+
+
+def test_opens_on_the_default_scenario_with_the_caution(app):
+    assert app.title[0].value.startswith("Brackenford pottery workshop")
+    text = _markdown(app)
+    assert "Caution." in text and "assumed functional form" in text
+    tex = _latex(app)
+    assert any(t.strip("$\n ").startswith(r"\mathrm{bowls} = f(") for t in tex)
+    assert any(r"c(w_{\mathrm{clay}}" in t for t in tex)
+    assert "closed form from the catalogue" in text and "Varian" in text
+    value = float(_metric(app, "value at the baseline")[0])
+    assert value == float(f"{_pottery_cost():.6g}")
+
+
+def test_switching_scenario_shows_its_duals(app):
+    app.selectbox(key="pick").set_value("saltmere_household.toml").run()
+    assert not app.exception
+    assert app.title[0].value.startswith("A household budget in Saltmere")
+    tex = " ".join(_latex(app))
+    assert r"v(p_{\mathrm{food}}" in tex and r"e(p_{\mathrm{food}}" in tex
+    # income widget replaces output
+    assert [n.label for n in app.number_input][-1] == "income"
+
+
+def test_editing_a_parameter_changes_the_dual(app):
+    before = _metric(app, "value at the baseline")[0]
+    app.number_input(key="par:1:A").set_value(2.4).run()
+    after = _metric(app, "value at the baseline")[0]
+    assert before != after
+    assert float(after) == float(f"{_pottery_cost(A=2.4):.6g}")
+
+
+def test_an_invalid_edit_is_named_and_the_last_valid_model_stays(app):
+    before = _metric(app, "value at the baseline")
+    for bad, message in [(-1.0, "decreases in clay"), (0.0, "same value (0)")]:
+        app.number_input(key="par:1:A").set_value(bad).run()
+        assert not app.exception
+        (err,) = [e.value for e in app.error]
+        assert err.startswith("Edit not applied") and message in err
+        assert _metric(app, "value at the baseline") == before
+    app.number_input(key="par:1:A").set_value(1.8).run()
+    assert not app.error
+
+
+def test_elasticities_view_table_and_heat_map(app):
+    _show(app, "Elasticities")
+    app.selectbox(key="el_matrix").set_value("allen_uzawa").run()
+    frames = [d.value for d in app.dataframe]
+    au = next(f for f in frames if list(f.columns) == ["clay", "kiln", "labour"])
+    assert au.loc["clay", "kiln"] == 1.0 or abs(au.loc["clay", "kiln"] - 1.0) < 1e-9
+    assert len(app.get("plotly_chart")) == 1
+
+
+def test_checks_view_lists_every_record_and_none_fails(app):
+    _show(app, "Checks")
+    (frame,) = [d.value for d in app.dataframe]
+    names = set(frame["check"])
+    assert {"Shephard's lemma", "Hotelling's lemma"} <= names
+    assert not (frame["status"] == "failed").any()
+    assert len(app.expander) >= len(frame)
+
+
+def test_figures_view_draws_isoquant_cost_and_demand_curves(app):
+    _show(app, "Figures")
+    assert len(app.get("plotly_chart")) == 3
+    app.selectbox(key="fig_j").set_value("labour").run()
+    assert not app.exception and len(app.get("plotly_chart")) == 3
+
+
+def test_price_scenarios_view_table_and_bars(app):
+    _show(app, "Price scenarios")
+    (frame,) = [d.value for d in app.dataframe]
+    assert set(frame["scenario variant"]) == {"kiln_energy_spike", "clay_pit_discount",
+                                              "festival_order"}
+    row = frame[(frame["scenario variant"] == "kiln_energy_spike")
+                & (frame["measure"] == "total cost")].iloc[0]
+    assert row["variant"] == _pottery_cost(w=(0.9, 0.45, 16.0)) or \
+        abs(row["variant"] / _pottery_cost(w=(0.9, 0.45, 16.0)) - 1) < 1e-12
+    assert len(app.get("plotly_chart")) == 1
+
+
+def test_data_view_checks_regularity_at_every_row():
+    from streamlit.testing.v1 import AppTest
+    import os
+    os.environ["DUALITY_APP_SCENARIO"] = str(SCENARIOS / "saltmere_household.toml")
+    try:
+        at = AppTest.from_file(str(Path(__file__).resolve().parents[2] / "app" / "main.py"),
+                               default_timeout=180)
+        at.run()
+        _show(at, "Data")
+    finally:
+        del os.environ["DUALITY_APP_SCENARIO"]
+    n = len(dy.load_scenario(SCENARIOS / "saltmere_household.toml").read_data())
+    assert _metric(at, "rows") == [str(n)]
+    assert _metric(at, "curvature violations") == ["0"]
+    assert len(at.dataframe[0].value) == n
+
+
+def test_data_view_without_data_says_so(app):
+    _show(app, "Data")
+    assert any("no data file" in i.value for i in app.info)
+
+
+def test_conjugate_view_draws_and_gives_the_closed_form(app):
+    _show(app, "Conjugate")
+    app.text_input(key="cj_f").set_value("x^2").run()
+    assert any(r"f^*(s) = \frac{s^{2}}{4}" in t for t in _latex(app))
+    assert len(app.get("plotly_chart")) == 1
+    app.text_input(key="cj_f").set_value("x^2 + import").run()
+    assert not app.exception and app.error
+
+
+def test_export_view_offers_every_target_and_the_scenario(app):
+    _show(app, "Export & save")
+    labels = [b.label for b in app.get("download_button")]
+    for target in dy.export.TARGETS:
+        assert any(label.startswith(f"{target} — ") for label in labels), target
+    assert any(label.startswith("scenario") for label in labels)
+
+
+def test_save_view_writes_into_the_save_folder_and_asks_before_replacing(app, tmp_path):
+    _show(app, "Export & save")
+    app.text_input(key="save_name:1").set_value("mine.toml").run()
+    app.button(key="save_go").click().run()
+    assert any("saved" in s.value for s in app.success)
+    saved = tmp_path / "mine.toml"
+    assert dy.load_scenario(saved).title.startswith("Brackenford")
+    other = tmp_path / "other.toml"
+    other.write_text("keep me")
+    app.text_input(key="save_name:1").set_value("other.toml").run()
+    assert app.button(key="save_go").disabled
+    assert other.read_text() == "keep me"
+    app.checkbox(key="save_confirm").check().run()
+    app.button(key="save_go").click().run()
+    assert (tmp_path / "other.toml.bak").read_text() == "keep me"
+    assert dy.load_scenario(other).title.startswith("Brackenford")
+
+
+def test_typed_formula_and_a_malicious_one(app):
+    app.radio(key="source").set_value("Type a formula").run()
+    app.text_input(key="t_formula").set_value('__import__("os").system("touch /tmp/x")')
+    _submit(app)
+    assert not app.exception
+    assert any("can be called at position 1" in e.value for e in app.error)
+    app.text_input(key="t_formula").set_value("x1^0.5*(x2")
+    _submit(app)
+    assert any("was never closed at position" in e.value for e in app.error)
+    assert app.title[0].value.startswith("Brackenford")     # the model in use is kept
+    app.text_input(key="t_formula").set_value("x1^0.4*x2^0.4")
+    app.text_input(key="t_params").set_value("")
+    _submit(app)
+    assert app.title[0].value == "Typed model"
+    assert "catalogue" in _markdown(app)
+
+
+def test_numeric_fallback_is_shown_as_numeric(app):
+    app.selectbox(key="pick").set_value("fishing_cooperative_numeric.toml").run()
+    assert not app.exception
+    text = _markdown(app)
+    assert "numeric (no closed form found)" in text
+    assert any(r"\text{(numeric only)}" in t for t in _latex(app))
+    value = _metric(app, "value at the baseline")[0]
+    assert value != "—" and float(value) > 0
+
+
+def _submit(at):
+    """Press the typed-formula form's submit button."""
+    from streamlit.testing.v1.element_tree import Button
+    (button,) = [b for b in at.button if isinstance(b, Button)
+                 and b.label == "Use this model"]
+    button.click().run()

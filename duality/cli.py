@@ -495,7 +495,8 @@ def app_command(scenario: str | None, port: int, save_dir: str | None) -> list[s
             from None
     cmd = [sys.executable, "-m", "streamlit", "run", str(script),
            "--server.address", "127.0.0.1", "--server.port", str(port),
-           "--server.headless", "true", "--browser.gatherUsageStats", "false"]
+           "--server.headless", "true", "--browser.gatherUsageStats", "false",
+           "--client.toolbarMode", "minimal"]
     cmd += [f"--theme.{k}={v}" for k, v in APP_THEME.items()]
     extra = []
     if scenario:

@@ -1,0 +1,229 @@
+"""The app in a real browser: Playwright driving Debian's chromium against a live server.
+
+The server is started once per module (``streamlit run app/main.py`` on a free port of
+127.0.0.1, saving scenarios into a temporary folder).  These tests skip only when
+``/usr/bin/chromium`` is absent, with the reason; ``.ci/run`` installs chromium and sets
+``DUALITY_REQUIRE_BROWSER=1``, under which a missing browser is a failure instead.
+A screenshot of the opened default scenario is kept in ``tests/artefacts/``.
+
+Reference value: Cobb–Douglas cost function, Varian, Microeconomic Analysis, 3rd ed.
+(1992), ch. 4 (from memory).
+"""
+from __future__ import annotations
+
+import math
+import os
+import re
+import shutil
+import socket
+import subprocess
+import sys
+import time
+import urllib.request
+from pathlib import Path
+
+import pytest
+
+import duality as dy
+
+ROOT = Path(__file__).resolve().parents[2]
+CHROMIUM = os.environ.get("DUALITY_CHROMIUM", "/usr/bin/chromium")
+ARTIFACTS = Path(os.environ.get("DUALITY_ARTIFACTS", ROOT / "tests" / "artefacts"))
+#: flags for a headless chromium on a closed network (no background connections)
+CHROMIUM_ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic",
+                 "--no-first-run", "--disable-background-networking",
+                 "--disable-component-update", "--disable-sync"]
+WAIT = 90_000   # ms: the numeric route spends its symbolic budget first
+
+pytestmark = pytest.mark.browser
+
+
+def _browser_available() -> bool:
+    if Path(CHROMIUM).exists():
+        return True
+    if os.environ.get("DUALITY_REQUIRE_BROWSER") == "1":
+        pytest.fail(f"{CHROMIUM} is missing but DUALITY_REQUIRE_BROWSER=1 (CI): install "
+                    "Debian's chromium (apt-get install chromium)")
+    return False
+
+
+def _free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+def start_server(save_dir: Path, port: int | None = None, scenario: Path | None = None):
+    """Start the app as ``duality app`` would; returns (process, url)."""
+    from duality.cli import app_command
+
+    port = port or _free_port()
+    cmd = app_command(str(scenario) if scenario else None, port, str(save_dir))
+    proc = subprocess.Popen(cmd, cwd=ROOT, stdout=subprocess.PIPE, stderr=subprocess.STDOUT,
+                            env={**os.environ, "PYTHONUNBUFFERED": "1"})
+    url = f"http://127.0.0.1:{port}"
+    deadline = time.monotonic() + 60
+    while time.monotonic() < deadline:
+        if proc.poll() is not None:
+            out = proc.stdout.read().decode(errors="replace")
+            raise RuntimeError(f"the app server stopped (exit {proc.returncode}):\n{out}")
+        try:
+            with urllib.request.urlopen(url + "/_stcore/health", timeout=1) as r:
+                if r.status == 200:
+                    return proc, url
+        except OSError:
+            time.sleep(0.2)
+    proc.kill()
+    raise RuntimeError("the app server did not answer within 60 s")
+
+
+def launch(playwright):
+    return playwright.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
+
+
+@pytest.fixture(scope="module")
+def server(tmp_path_factory):
+    if not _browser_available():
+        pytest.skip(f"browser tests need Debian's chromium at {CHROMIUM} "
+                    "(apt-get install chromium)")
+    save_dir = tmp_path_factory.mktemp("saved")
+    proc, url = start_server(save_dir)
+    yield url, save_dir
+    proc.terminate()
+    try:
+        proc.wait(10)
+    except subprocess.TimeoutExpired:
+        proc.kill()
+
+
+@pytest.fixture(scope="module")
+def chromium(server):
+    from playwright.sync_api import sync_playwright
+
+    with sync_playwright() as p:
+        b = launch(p)
+        yield b
+        b.close()
+
+
+@pytest.fixture
+def page(chromium, server):
+    context = chromium.new_context(viewport={"width": 1400, "height": 1000},
+                                  accept_downloads=True)
+    pg = context.new_page()
+    pg.set_default_timeout(WAIT)
+    pg.goto(server[0])
+    pg.get_by_role("heading", name=re.compile("Brackenford pottery workshop")).wait_for()
+    pg.locator('[data-testid="stMetricValue"]').first.wait_for()
+    wait_idle(pg)
+    yield pg
+    context.close()
+
+
+def wait_idle(page) -> None:
+    """Wait until the page script has finished its run (no 'running' indicator)."""
+    page.wait_for_function(
+        "() => !document.querySelector('[data-testid=\"stStatusWidget\"]')", timeout=WAIT)
+
+
+def metric_values(page) -> list[str]:
+    return page.locator('[data-testid="stMetricValue"]').all_inner_texts()
+
+
+def choose_view(page, name: str) -> None:
+    page.get_by_role("radio", name=name, exact=True).click()
+    wait_idle(page)
+
+
+def choose_scenario(page, title: str) -> None:
+    page.locator('[data-testid="stSidebar"] [data-testid="stSelectbox"]').first.click()
+    page.get_by_role("option", name=re.compile(re.escape(title))).click()
+    page.get_by_role("heading", name=re.compile(re.escape(title))).wait_for()
+    wait_idle(page)
+
+
+def _pottery_cost(A: float) -> float:
+    a, w, y = (0.3, 0.2, 0.4), (0.9, 0.25, 16.0), 400.0
+    r = sum(a)
+    return r * (y / A) ** (1 / r) * math.prod((wi / ai) ** (ai / r) for wi, ai in zip(w, a))
+
+
+def test_opens_on_the_default_scenario(page):
+    page.get_by_text("Caution.", exact=False).first.wait_for()
+    page.locator(".katex").nth(4).wait_for()              # model, duals and demands
+    page.get_by_text("closed form from the catalogue").first.wait_for()
+    values = metric_values(page)
+    assert float(values[0].replace(",", "")) == pytest.approx(_pottery_cost(1.8), rel=1e-5)
+    ARTIFACTS.mkdir(parents=True, exist_ok=True)
+    shot = ARTIFACTS / "app-default-scenario.png"
+    page.screenshot(path=str(shot), full_page=True)
+    assert shot.stat().st_size > 10_000
+
+
+def test_switch_scenario(page):
+    from playwright.sync_api import expect
+
+    choose_scenario(page, "A household budget in Saltmere")
+    expect(page.get_by_role("heading", name="Indirect utility function")).to_be_visible()
+    expect(page.get_by_role("spinbutton", name="income")).to_be_visible()
+
+
+def test_edit_a_parameter_and_see_the_dual_change(page):
+    before = metric_values(page)[0]
+    box = page.get_by_role("spinbutton", name="A", exact=True)
+    box.fill("2.4")
+    box.press("Enter")
+    page.wait_for_function(
+        "(old) => { const m = document.querySelector('[data-testid=\"stMetricValue\"]');"
+        " return m && m.innerText !== old; }", arg=before)
+    wait_idle(page)
+    after = float(metric_values(page)[0].replace(",", ""))
+    assert after == pytest.approx(_pottery_cost(2.4), rel=1e-5)
+
+
+def test_numeric_fallback(page):
+    choose_scenario(page, "fishing cooperative")
+    page.get_by_text("numeric (no closed form found)").first.wait_for()
+    page.get_by_text("numeric only").first.wait_for()
+    assert float(metric_values(page)[0].replace(",", "")) > 0
+
+
+def test_download_an_export(page):
+    choose_view(page, "Export & save")
+    button = page.get_by_role("button", name=re.compile(r"^python — .*\.py$"))
+    with page.expect_download() as info:
+        button.click()
+    path = info.value.path()
+    text = Path(path).read_text()
+    assert "def " in text and "import numpy" in text
+    namespace: dict = {}
+    exec(compile(text, "export.py", "exec"), namespace)  # the project's own export
+    funcs = [v for k, v in namespace.items() if k.startswith("cost") and callable(v)]
+    assert funcs, "the export defines the cost function"
+
+
+def test_save_a_scenario(page, server):
+    _url, save_dir = server
+    choose_view(page, "Export & save")
+    name = page.get_by_role("textbox", name="file name")
+    name.fill("browser_saved.toml")
+    name.press("Enter")
+    wait_idle(page)
+    page.get_by_role("button", name="Save scenario").click()
+    page.get_by_text("saved ", exact=False).first.wait_for()
+    saved = save_dir / "browser_saved.toml"
+    assert dy.load_scenario(saved).title.startswith("Brackenford")
+
+
+@pytest.mark.parametrize("formula, message", [
+    ('__import__("os").system("touch /tmp/owned")', "can be called at position 1"),
+    ("x1^0.5*(x2", "was never closed"),
+])
+def test_a_malicious_or_broken_formula_gets_a_clear_message(page, formula, message):
+    page.get_by_text("Type a formula").click()
+    box = page.get_by_role("textbox", name="Formula")
+    box.fill(formula)
+    page.get_by_role("button", name="Use this model").click()
+    page.get_by_text(message, exact=False).first.wait_for()
+    page.get_by_role("heading", name=re.compile("Brackenford")).wait_for()
+    assert not Path("/tmp/owned").exists()

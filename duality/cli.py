@@ -483,7 +483,7 @@ APP_THEME = {"primaryColor": "#17877b", "backgroundColor": "#fbfaf7",
 
 def app_command(scenario: str | None, port: int, save_dir: str | None) -> list[str]:
     """The command line that starts the browser app (Streamlit) on 127.0.0.1."""
-    script = Path(__file__).resolve().parents[1] / "app" / "main.py"
+    script = Path(__file__).resolve().parents[1] / "app" / "serve.py"
     if not script.is_file():
         raise _Fail(f"the app is not next to this installation ({script} is missing); "
                     "install from a source checkout with: pip install -e '.[app]'")
@@ -493,7 +493,7 @@ def app_command(scenario: str | None, port: int, save_dir: str | None) -> list[s
     except ImportError as exc:
         raise _Fail(f"the app needs {exc.name}; install it with: pip install -e '.[app]'") \
             from None
-    cmd = [sys.executable, "-m", "streamlit", "run", str(script),
+    cmd = [sys.executable, str(script),
            "--server.address", "127.0.0.1", "--server.port", str(port),
            "--server.headless", "true", "--browser.gatherUsageStats", "false",
            "--client.toolbarMode", "minimal"]

@@ -210,7 +210,7 @@ def test_save_a_scenario(page, server):
     name.press("Enter")
     wait_idle(page)
     page.get_by_role("button", name="Save scenario").click()
-    page.get_by_text("saved ", exact=False).first.wait_for()
+    page.get_by_text(re.compile(r"^saved .*browser_saved\.toml$")).wait_for()
     saved = save_dir / "browser_saved.toml"
     assert dy.load_scenario(saved).title.startswith("Brackenford")
 

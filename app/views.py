@@ -364,6 +364,10 @@ def view_data(model) -> None:
         except (ValueError, UnicodeDecodeError) as exc:
             st.error(f"{up.name}: cannot be read as CSV ({exc})")
             return
+    elif scen.data is not None and ss.origin is None:
+        st.info(f"This scenario names the data file {scen.data.file}, which is not "
+                "available for an uploaded scenario; upload the file here.")
+        return
     elif scen.data is not None:
         try:
             data = scen.read_data()

@@ -52,13 +52,20 @@ def read_file(path: Path) -> tuple[dict, Path]:
 
 
 def read_upload(data: bytes, name: str) -> dict:
-    """An uploaded scenario file as a dictionary (validated)."""
+    """An uploaded scenario file as a dictionary (validated).
+
+    An upload has no folder, so a data file it names cannot be found: the ``[data]``
+    table is kept (and saved back) but the data file must be attached separately.
+    """
     try:
         text = data.decode("utf-8")
     except UnicodeDecodeError as exc:
         raise DualityError(f"{name}: not a UTF-8 text file ({exc.reason} at byte "
                            f"{exc.start})") from None
-    return sc.to_dict(sc.loads(text, path=name))
+    try:
+        return sc.to_dict(sc.loads(text))
+    except DualityError as exc:
+        raise DualityError(str(exc).replace("<scenario text>", name, 1)) from None
 
 
 def build(raw: dict, path: Path | None = None) -> sc.Scenario:

@@ -207,3 +207,55 @@ def _submit(at):
     (button,) = [b for b in at.button if isinstance(b, Button)
                  and b.label == "Use this model"]
     button.click().run()
+
+
+def test_upload_a_scenario_and_a_broken_one(app):
+    app.radio(key="source").set_value("Upload a scenario").run()
+    text = (SCENARIOS / "saltmere_household.toml").read_bytes()
+    app.file_uploader(key="upload").set_value(("mine.toml", text, "application/toml")).run()
+    assert not app.exception
+    assert app.title[0].value.startswith("A household budget in Saltmere")
+    _show(app, "Data")   # the upload names a data file that has no folder to be found in
+    assert any("not available for an uploaded scenario" in i.value for i in app.info)
+    app.file_uploader(key="upload").set_value(("broken.toml", b"title = [", "text/plain"))
+    app.run()
+    assert not app.exception
+    assert any(e.value.startswith("broken.toml") for e in app.error)
+    assert app.title[0].value.startswith("A household budget in Saltmere")
+
+
+def test_uploaded_data_file_is_checked_row_by_row(app):
+    # Cobb–Douglas cost is regular everywhere (concave, increasing): no violations
+    _show(app, "Data")
+    csv = "w_clay,w_kiln,w_labour,bowls\n0.9,0.25,16,400\n1.1,0.3,15,380\n0.8,0.2,17,420\n"
+    app.file_uploader(key="data_upload").set_value(("weeks.csv", csv.encode(), "text/csv"))
+    app.run()
+    assert not app.exception, [e.value for e in app.exception]
+    assert _metric(app, "rows") == ["3"]
+    assert _metric(app, "monotonicity violations") == ["0"]
+    assert _metric(app, "curvature violations") == ["0"]
+    bad = "w_clay,w_kiln\n0.9,0.25\n"
+    app.file_uploader(key="data_upload").set_value(("short.csv", bad.encode(), "text/csv"))
+    app.run()
+    assert not app.exception
+    assert app.error and "w_labour" in app.error[0].value
+
+
+def test_a_numeric_dual_is_evaluated_at_every_data_row_with_progress(app, tmp_path):
+    app.selectbox(key="pick").set_value("fishing_cooperative_numeric.toml").run()
+    _show(app, "Data")
+    rows = "w_nets,w_boats,w_fuel,catch\n2,5,1.2,6\n2.2,5,1.3,6.5\n1.8,4.5,1.1,5.5\n"
+    app.file_uploader(key="data_upload").set_value(("catch.csv", rows.encode(), "text/csv"))
+    app.run()
+    assert not app.exception, [e.value for e in app.exception]
+    frame = app.dataframe[0].value
+    costs = frame["cost function"].to_numpy()
+    # the same numeric cost function, called directly, gives the same numbers
+    c = dy.cost(dy.load_scenario(SCENARIOS / "fishing_cooperative_numeric.toml")
+                .build_model())
+    expect = c(w_nets=frame["w_nets"].to_numpy(float), w_boats=frame["w_boats"].to_numpy(float),
+               w_fuel=frame["w_fuel"].to_numpy(float), catch=frame["catch"].to_numpy(float))
+    assert (costs > 0).all()
+    import numpy as np
+    np.testing.assert_allclose(costs, expect, rtol=1e-10)
+    assert "numeric dual is evaluated at every row" in _markdown(app)

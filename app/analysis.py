@@ -23,13 +23,15 @@ import pandas as pd
 import sympy as sp
 
 import duality as dy
+from duality.derive import DEFAULT_BUDGET
 from duality.errors import DualityError
 from duality.export import SUFFIXES, TARGETS, export
 from duality.model import Model
 from duality.result import Derived
 
-#: seconds of symbolic work allowed per dual before the numeric route takes over
-BUDGET = 8.0
+#: seconds of symbolic work allowed per dual before the numeric route takes over; the
+#: library's default, so the app, the exports and the checks share one cached derivation
+BUDGET = DEFAULT_BUDGET
 ROUTE_TEXT = {
     "catalogue": "closed form from the catalogue",
     "symbolic": "closed form derived by the engine",

@@ -46,9 +46,10 @@ def _finish(fig: go.Figure, title: str) -> go.Figure:
 def _primal_fn(model: Model):
     """The production or utility function as a vectorised numpy function of quantities."""
     if not model.is_primal:
-        raise DualityError(f"the model was given as a {model.side.replace('_', ' ')} "
-                           "function, so there is no production or utility function to "
-                           "draw its level curve from")
+        side = model.side.replace("_", " ")
+        article = "an" if side[0] in "aeiou" else "a"
+        raise DualityError(f"the model was given as {article} {side} function, so there is "
+                           "no production or utility function to draw its level curve from")
     expr = model.expr.xreplace(model.values)
     if expr.free_symbols - set(model.quantities):
         missing = ", ".join(sorted(map(str, expr.free_symbols - set(model.quantities))))

@@ -40,6 +40,8 @@ _LAYOUT = dict(template="plotly_white", font=dict(family="Source Sans Pro, sans-
 
 def _finish(fig: go.Figure, title: str) -> go.Figure:
     fig.update_layout(title=dict(text=title, x=0.0, xanchor="left"), **_LAYOUT)
+    if fig.layout.annotations:  # subplot titles: leave room under the figure's title
+        fig.update_layout(margin=dict(t=90))
     return fig
 
 

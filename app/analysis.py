@@ -253,9 +253,10 @@ ELASTICITY_TITLES = {
 
 # -- checks -------------------------------------------------------------------------------
 @lru_cache(maxsize=32)
-def checks(model: Model) -> tuple:
-    """The model's check records (cached by model)."""
-    return tuple(dy.check(model, budget=BUDGET))
+def checks(model: Model, symbolic: bool = True) -> tuple:
+    """The model's check records (cached by model); ``symbolic=False`` skips the proof
+    attempts and only samples points (quicker)."""
+    return tuple(dy.check(model, budget=BUDGET, symbolic=symbolic))
 
 
 def checks_frame(records) -> pd.DataFrame:

@@ -282,8 +282,11 @@ def view_elasticities(model) -> None:
 
 
 def view_checks(model) -> None:
-    with st.spinner("Running the checks (symbolic proofs, then sampled points)…"):
-        recs = A.checks(model)
+    proofs = st.toggle("Try symbolic proofs first (slower; otherwise sampled points only)",
+                       value=True, key="ck_proofs")
+    what = "symbolic proofs, then sampled points" if proofs else "sampled points"
+    with st.spinner(f"Running the checks ({what})…"):
+        recs = A.checks(model, proofs)
     counts = pd.Series([r.status for r in recs]).value_counts()
     st.markdown(" · ".join(f"**{n}** {s}" for s, n in counts.items()))
     for r in recs:

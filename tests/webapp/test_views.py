@@ -96,6 +96,11 @@ def test_checks_view_lists_every_record_and_none_fails(app):
     assert {"Shephard's lemma", "Hotelling's lemma"} <= names
     assert not (frame["status"] == "failed").any()
     assert len(app.expander) >= len(frame)
+    assert (frame["status"] == "proved").any()
+    app.toggle(key="ck_proofs").set_value(False).run()     # the quick numeric pass
+    (quick,) = [d.value for d in app.dataframe]
+    assert set(quick["status"]) <= {"held", "not applicable"}
+    assert list(quick["check"]) == list(frame["check"])
 
 
 def test_figures_view_draws_isoquant_cost_and_demand_curves(app):

@@ -165,3 +165,83 @@ def test_parameters_may_vary_by_point(rng):
     k = a + 0.5
     ref = k * 2.0 ** (1 / k) * (W[:, 0] / a) ** (a / k) * (W[:, 1] / 0.5) ** (0.5 / k)
     assert np.max(np.abs(res.value / ref - 1)) < 1e-10
+
+
+# -- the block engine against the array path ------------------------------------------------
+# Both paths solve the same first-order conditions; the array path is forced by hiding the
+# buffered kernels, so every comparison below is between two routes of this package.
+def _array_path(monkeypatch):
+    monkeypatch.setattr(batch.Compiled, "kernels", property(lambda self: None))
+
+
+def _agree(fast, slow):
+    assert np.array_equal(fast.converged, slow.converged)
+    ok = fast.converged
+    assert np.all(fast.residual[ok] <= batch.TOL)
+    assert np.all(fast.iterations <= batch.MAXITER)
+    assert np.max(np.abs(fast.value[ok] / slow.value[ok] - 1), initial=0.0) < 1e-10
+    assert np.max(np.abs(fast.quantities[ok] / slow.quantities[ok] - 1), initial=0.0) < 1e-9
+    assert np.max(np.abs(fast.multiplier[ok] / slow.multiplier[ok] - 1), initial=0.0) < 1e-9
+    assert np.isnan(fast.value[~ok]).all() and np.isnan(fast.quantities[~ok]).all()
+
+
+@pytest.mark.parametrize("formula, n, params", [
+    ("(x1^0.5 + 2*x2^0.5 + 3*x3^0.5)^2", 3, {}),
+    ("x1^0.3*x2^0.5 + log(1 + x1) + 0.5*sqrt(x1*x2)", 2, {}),
+    ("x1^0.5 + log(1 + x1)", 1, {}),                                  # no tangent space
+    ("(x1^-0.5 + x2^-0.5 + 2*x3^-0.5 + x4^-0.5)^(-1.5)", 4, {}),     # 3x3 reduced system
+    ("x1^2 + x2^2", 2, {}),                                           # corners: all fail
+    ("x1^a*x2^0.5*x3^0.2", 3, {"a": None}),
+])
+def test_block_engine_agrees_with_the_array_path(formula, n, params, rng, monkeypatch):
+    t = dy.technology(formula, [f"x{i + 1}" for i in range(n)], params=params or None,
+                      assume={k: "positive" for k in params} or None)
+    N = 300
+    W = rng.uniform(0.05, 20.0, (N, n))
+    Y = rng.uniform(0.1, 10.0, N)
+    P = [rng.uniform(0.2, 0.6, N) for _ in params]
+    W[0, 0], W[1, -1], Y[2], Y[3] = 0.0, -1.0, 0.0, np.nan      # points the engine leaves
+    fast = batch.solve_spending(t, W, Y, P)
+    _array_path(monkeypatch)
+    slow = batch.solve_spending(t, W, Y, P)
+    _agree(fast, slow)
+    assert not fast.converged[[0, 1, 3]].any()   # (y = 0 may be met with x near 0)
+
+
+def test_block_engine_hands_unfinished_points_to_the_array_path(rng, monkeypatch):
+    # nearly Leontief at some price ratios: full Newton steps get rejected there
+    t = dy.technology("x1*x2/(x1 + x2) + 0.01*x1", ["x1", "x2"])
+    comp = batch.compiled(t)
+    N = 400
+    W = np.exp(rng.uniform(-6.0, 6.0, (N, 2)))
+    Y = np.exp(rng.uniform(-4.0, 4.0, N))
+    flags = batch.block._spend_blocks(comp, W, Y, [], batch.TOL, batch.MAXITER)
+    assert flags[7].any()                       # some points did need the damped path
+    fast = batch.solve_spending(t, W, Y, [])
+    _array_path(monkeypatch)
+    _agree(fast, batch.solve_spending(t, W, Y, []))
+
+
+def test_blocks_of_any_length_give_the_same_answers(rng, monkeypatch):
+    t = dy.technology("(x1^-2 + 2*x2^-2 + 3*x3^-2)^(-1/2)", ["x1", "x2", "x3"])
+    W = rng.uniform(0.2, 5.0, (103, 3))
+    Y = rng.uniform(0.2, 5.0, 103)
+    whole = batch.solve_spending(t, W, Y, [])
+    monkeypatch.setattr(batch.block, "BLOCK", 10)                           # 10 blocks + 3 points
+    pieces = batch.solve_spending(t, W, Y, [])
+    assert np.array_equal(whole.value, pieces.value)
+    assert np.array_equal(whole.iterations, pieces.iterations)
+
+
+def test_second_order_shortcut_agrees_with_the_full_check(rng):
+    # a quasi-concave and a not quasi-concave technology: the final iterate's reduced
+    # matrix must give the same verdict as second_order on the solutions
+    for formula in ("(x1^0.5 + 2*x2^0.5 + 3*x3^0.5)^2", "x1*x2*x3 + x1^2 + x2^2 + x3^2"):
+        t = dy.technology(formula, ["x1", "x2", "x3"])
+        comp = batch.compiled(t)
+        W = rng.uniform(0.2, 5.0, (200, 3))
+        Y = rng.uniform(0.5, 5.0, 200)
+        X, lam, value, iters, norm, conv, start_fail, unfinished = batch.block._spend_blocks(
+            comp, W, Y, [], batch.TOL, batch.MAXITER)
+        done = (norm <= batch.TOL) & ~start_fail & ~unfinished
+        assert np.array_equal(conv[done], batch.second_order(comp, X[done], []))

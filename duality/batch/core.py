@@ -1,30 +1,7 @@
-"""Batched numeric duals: Newton on the first-order conditions for all points at once.
+"""Batched numeric duals, the shared parts: compiled derivatives, the start on the level
+set, batched Newton (the array path), the second-order check and small batched solves.
 
-For a model with no closed-form dual, the cost (expenditure), indirect utility and profit
-functions are evaluated at N price points together:
-
-* unknowns are log-quantities z = log x (and the log multiplier), so every quantity stays
-  positive and the conditions are well scaled;
-* gradients and Hessians come from sympy, lambdified once per model (with common
-  subexpressions shared) and evaluated on whole arrays;
-* every Newton step solves N small linear systems in one batched call; step halving is
-  applied only at the points whose residual did not fall;
-* a homothetic technology is solved once at a reference level and then scaled along the
-  ray to each requested level (the tangency direction does not depend on the level);
-* each point reports its iterations and final residual; a point that does not converge,
-  or converges to a point that is not a minimum (second-order condition), is reported as
-  such and its value is NaN — never returned as a number.
-
-Notes
------
-Spending problem, min w·x s.t. f(x) = y, in z = log x and μ = log λ:
-    log w_i − μ − log f_i(x) = 0 (i = 1..n),   log f(x) − log y = 0.
-Utility problem, max f(x) s.t. p·x = m:
-    log f_i(x) − μ − log p_i = 0,   log(p·x) − log m = 0.
-Profit, max p f(x) − w·x: the output y solves λ(w, y) = p, where λ is the spending
-problem's multiplier (marginal cost); found by a safeguarded secant in log y, with
-λ increasing in y required (decreasing returns locally).
-"""
+See :mod:`duality.batch` for the method."""
 from __future__ import annotations
 
 from dataclasses import dataclass, field
@@ -33,12 +10,16 @@ from functools import lru_cache
 import numpy as np
 import sympy as sp
 
-from .lambdas import numpy_function
-from .model import Model
+from ..lambdas import BufferedFunction, numpy_function
+from ..model import Model
+
 
 #: Residual (max-norm, in logs) under which a point counts as converged.
 TOL = 1e-12
 MAXITER = 60
+#: Bound on one Newton step in log t along the start ray (a factor e^10 in scale): wide
+#: enough that a homogeneous f reaches its level set in one step from almost anywhere.
+RAY_STEP = 10.0
 
 
 @dataclass(frozen=True)
@@ -94,6 +75,27 @@ class Compiled:
         self._f = numpy_function(args, f, cse=True)
         self._fg = numpy_function(args, [f] + grad, cse=True)
         self._fgh = numpy_function(args, [f] + grad + hess, cse=True)  # shared subexpressions
+        self._exprs = (xs, args, f, grad, hess)
+        self._kernels = None
+
+    @property
+    def kernels(self):
+        """Log-space derivatives compiled to write into caller-owned buffers (see
+        :class:`~duality.lambdas.BufferedFunction`): ``(f c, f c K)`` with c_i = x_i f_i
+        and K_ij = x_i x_j f_ij (rows for i <= j), or None when they cannot be built.
+
+        These are what Newton in z = log x needs, and the products often simplify
+        (x·x^(-1/2) = √x), so they are derived symbolically rather than formed from f_i."""
+        if self._kernels is None:
+            xs, args, f, grad, hess = self._exprs
+            try:
+                c = [_smaller(xs[i] * grad[i]) for i in range(self.n)]
+                K = [_smaller(xs[i] * xs[j] * h) for (i, j), h in zip(self._pairs, hess)]
+                self._kernels = (BufferedFunction(args, [f] + c),
+                                 BufferedFunction(args, [f] + c + K))
+            except Exception:  # noqa: BLE001 — the array path below still works
+                self._kernels = False
+        return self._kernels or None
 
     def _args(self, X, P):
         return [X[:, i] for i in range(self.n)] + list(P)
@@ -142,6 +144,15 @@ class Compiled:
         for (i, j), h in zip(self._pairs, out[1 + n:]):
             H[:, i, j] = H[:, j, i] = _real(np.broadcast_to(h, (N,)))
         return f, G, H
+
+
+def _smaller(e):
+    """``e`` with products distributed over sums when that does not make it longer."""
+    try:
+        d = sp.expand_mul(e)
+    except Exception:  # noqa: BLE001 — keep the product as it is
+        return e
+    return d if sp.count_ops(d) <= sp.count_ops(e) else e
 
 
 def _real(a):
@@ -197,7 +208,8 @@ def start_on_level(comp: Compiled, W, Y, P):
     for every point at once; points where that fails are bracketed and bisected.
     Returns the start points and a mask of the points where the level was reached.
     """
-    base = (1.0 / W) / (1.0 / W).sum(axis=1, keepdims=True)
+    with np.errstate(all="ignore"):
+        base = (1.0 / W) / (1.0 / W).sum(axis=1, keepdims=True)
     N = W.shape[0]
     s = np.zeros(N)
     pos = Y > 0
@@ -207,7 +219,7 @@ def start_on_level(comp: Compiled, W, Y, P):
         with np.errstate(all="ignore"):
             r = np.where(pos, np.log(f) - np.log(np.where(pos, Y, 1.0)), f - Y)
             d = np.where(pos, np.einsum("ij,ij->i", G, X) / f, np.einsum("ij,ij->i", G, X))
-            step = np.clip(r / d, -3.0, 3.0)
+            step = np.clip(r / d, -RAY_STEP, RAY_STEP)
         if np.all(np.abs(r) < 1e-6):  # a start point only: Newton on the KKT finishes
             break
         s = np.where(np.isfinite(step), s - step, s)
@@ -223,7 +235,8 @@ def start_on_level(comp: Compiled, W, Y, P):
 
 
 def _bisect_on_level(comp: Compiled, W, Y, P, iters: int = 80):
-    base = (1.0 / W) / (1.0 / W).sum(axis=1, keepdims=True)
+    with np.errstate(all="ignore"):
+        base = (1.0 / W) / (1.0 / W).sum(axis=1, keepdims=True)
     N = W.shape[0]
     lo, hi = np.full(N, -2.0), np.full(N, 2.0)
 
@@ -295,14 +308,17 @@ def _take(args, idx, N):
     return [a[idx] if isinstance(a, np.ndarray) else [p[idx] for p in a] for a in args]
 
 
-def _newton(system, residual, v, args, tol, maxiter):
-    """Damped Newton for all points; halving only where the residual did not fall."""
+def _newton(system, residual, v, args, tol, maxiter, iters0=None):
+    """Damped Newton for all points; halving only where the residual did not fall.
+
+    ``iters0`` (optional) holds iterations a point has already used elsewhere; no point
+    goes beyond ``maxiter`` in total."""
     N = v.shape[0]
-    iters = np.zeros(N, dtype=int)
+    iters = np.zeros(N, dtype=int) if iters0 is None else np.array(iters0, dtype=int)
     active = np.ones(N, dtype=bool)
     norm = residual(*args, v)
     for _ in range(maxiter):
-        active &= (norm > tol) & np.isfinite(norm)
+        active &= (norm > tol) & np.isfinite(norm) & (iters < maxiter)
         idx = np.flatnonzero(active)
         if idx.size == 0:
             break
@@ -335,35 +351,20 @@ def _newton(system, residual, v, args, tol, maxiter):
     return v, iters, norm
 
 
-def solve_spending(model: Model, W, Y, P, *, tol: float = TOL,
-                   maxiter: int = MAXITER) -> BatchResult:
-    """min w·x s.t. f(x) = y at N points (rows of ``W``; ``Y`` and parameter arrays ``P``
-    in the order of :attr:`Compiled.params`, each of length N)."""
-    comp = compiled(model)
-    W = np.asarray(W, float)
-    Y = np.asarray(Y, float)
-    N = W.shape[0]
-    P = [np.broadcast_to(np.asarray(p, float), (N,)) for p in P]
-    notes = []
-    if (N > 1 and np.all(Y > 0) and all(np.ptp(p) == 0 for p in P if p.size)
-            and is_homothetic(model)):
-        repeats = len(np.unique(W[:, 0])) <= N // 2  # cheap screen on one column
-        uniq, inverse = (np.unique(W, axis=0, return_inverse=True) if repeats
-                         else (W, None))
-        if repeats and len(uniq) <= N // 2:  # solve each price row once, then scale
-            res = _homothetic(comp, uniq, np.asarray(inverse).reshape(-1), W, Y, P, tol,
-                              maxiter)
-            if res is not None:
-                return res
-            notes.append("homothetic shortcut failed; solved at each level")
-    X0, ok = start_on_level(comp, W, Y, P)
-    z = np.log(X0)
-    f0, G0 = comp.fg(X0, P)
-    with np.errstate(all="ignore"):
-        lam0 = np.einsum("ij,ij->i", W, X0) / np.einsum("ij,ij->i", G0, X0)
-        mu0 = np.log(np.where(lam0 > 0, lam0, 1.0))
-    v = np.concatenate([z, mu0[:, None]], axis=1)
-    v[~ok] = np.nan
+
+def _spending_generic(comp, W, Y, P, tol, maxiter, v=None, iters0=None):
+    """The array path: start on the level set (ray Newton, then bisection), damped Newton.
+
+    With ``v`` (log-quantities and log multiplier) and ``iters0``, Newton continues from
+    there instead.  Returns v, iterations and the final residual."""
+    if v is None:
+        X0, ok = start_on_level(comp, W, Y, P)
+        f0, G0 = comp.fg(X0, P)
+        with np.errstate(all="ignore"):
+            lam0 = np.einsum("ij,ij->i", W, X0) / np.einsum("ij,ij->i", G0, X0)
+            mu0 = np.log(np.where(lam0 > 0, lam0, 1.0))
+            v = np.concatenate([np.log(X0), mu0[:, None]], axis=1)
+        v[~ok] = np.nan
 
     def system(W_, Y_, P_, v_):
         return _spending_system(comp, W_, Y_, P_, v_[:, :comp.n], v_[:, comp.n])
@@ -371,8 +372,8 @@ def solve_spending(model: Model, W, Y, P, *, tol: float = TOL,
     def residual(W_, Y_, P_, v_):
         return _residual_only(comp, W_, Y_, P_, v_[:, :comp.n], v_[:, comp.n])
 
-    v, iters, norm = _newton(system, residual, v, (W, Y, P), tol, maxiter)
-    return _spending_result(comp, W, P, v, iters, norm, tol, tuple(notes))
+    return _newton(system, residual, v, (W, Y, P), tol, maxiter, iters0)
+
 
 
 def _spending_result(comp, W, P, v, iters, norm, tol, notes) -> BatchResult:
@@ -490,169 +491,3 @@ def solve_small(A, b):
                 acc -= a[k][j] * x[j]
             x[k] = acc / a[k][k]
     return np.stack(x, axis=1)
-
-
-def _homothetic(comp, Wu, inverse, W, Y, P, tol, maxiter) -> BatchResult | None:
-    """Solve once per distinct price row at a reference level, then move along each ray
-    to the requested level (for homothetic f the tangency direction does not depend on
-    the level)."""
-    P1 = [p[:1] for p in P]
-    yref = float(comp.f(np.ones((1, comp.n)), P1)[0])
-    if not (np.isfinite(yref) and yref > 0):
-        return None
-    N = W.shape[0]
-    K = Wu.shape[0]
-    unit = solve_spending_plain(comp, Wu, np.full(K, yref), [p[:K] for p in P], tol, maxiter)
-    if not np.all(unit[2] <= tol):
-        return None
-    Xh = np.exp(unit[0][:, :comp.n])[inverse]
-    # scale: log f(e^s x̂) = log y, Newton in s from s = 0 (f(x̂) = yref)
-    s = np.zeros(N)
-    norm = np.full(N, np.inf)
-    for _ in range(100):
-        X = np.exp(s)[:, None] * Xh
-        f, G = comp.fg(X, P)
-        with np.errstate(all="ignore"):
-            r = np.log(f) - np.log(Y)
-            d = np.einsum("ij,ij->i", G, X) / f
-        norm = np.abs(r)
-        if np.all(norm <= tol) or not np.all(np.isfinite(r)) or np.any(d <= 0):
-            break
-        s = s - r / d
-    if not np.all(np.isfinite(norm)):
-        return None
-    X = np.exp(s)[:, None] * Xh
-    f, G = comp.fg(X, P)
-    with np.errstate(all="ignore"):
-        mu = np.log(np.einsum("ij,ij->i", W, X) / np.einsum("ij,ij->i", G, X))
-    v = np.concatenate([np.log(X), mu[:, None]], axis=1)
-    full = _residual_only(comp, W, Y, P, v[:, :comp.n], v[:, comp.n])
-    iters = unit[1][inverse]
-    return _spending_result(comp, W, P, v, iters, full, max(tol, 1e-11),
-                            ("homothetic: solved at a reference level, then scaled",))
-
-
-def solve_spending_plain(comp, W, Y, P, tol, maxiter):
-    X0, ok = start_on_level(comp, W, Y, P)
-    f0, G0 = comp.fg(X0, P)
-    with np.errstate(all="ignore"):
-        lam0 = np.einsum("ij,ij->i", W, X0) / np.einsum("ij,ij->i", G0, X0)
-        mu0 = np.log(np.where(lam0 > 0, lam0, 1.0))
-    v = np.concatenate([np.log(X0), mu0[:, None]], axis=1)
-    v[~ok] = np.nan
-
-    def system(W_, Y_, P_, v_):
-        return _spending_system(comp, W_, Y_, P_, v_[:, :comp.n], v_[:, comp.n])
-
-    def residual(W_, Y_, P_, v_):
-        return _residual_only(comp, W_, Y_, P_, v_[:, :comp.n], v_[:, comp.n])
-
-    return _newton(system, residual, v, (W, Y, P), tol, maxiter)
-
-
-# -- utility --------------------------------------------------------------------------------
-def solve_utility(model: Model, Pr, M, P, *, tol: float = TOL,
-                  maxiter: int = MAXITER) -> BatchResult:
-    """max f(x) s.t. p·x = m at N points."""
-    comp = compiled(model)
-    Pr = np.asarray(Pr, float)
-    M = np.asarray(M, float)
-    P = [np.broadcast_to(np.asarray(p, float), (len(M),)) for p in P]
-    n = comp.n
-    X0 = M[:, None] / (n * Pr)
-    _, G0 = comp.fg(X0, P)
-    with np.errstate(all="ignore"):
-        mu0 = np.log(np.einsum("ij,ij->i", G0, X0) / M)
-    v = np.concatenate([np.log(X0), np.where(np.isfinite(mu0), mu0, 0.0)[:, None]], axis=1)
-
-    def parts(Pr_, M_, P_, v_, hess=True):
-        X = np.exp(v_[:, :n])
-        mu = v_[:, n]
-        if hess:
-            f, G, H = comp.fgh(X, P_)
-        else:
-            f, G = comp.fg(X, P_)
-            H = None
-        with np.errstate(all="ignore"):
-            r = np.empty((len(M_), n + 1))
-            r[:, :n] = np.log(G) - mu[:, None] - np.log(Pr_)
-            spend = np.einsum("ij,ij->i", Pr_, X)
-            r[:, n] = np.log(spend) - np.log(M_)
-        return r, X, G, H, spend
-
-    def system(Pr_, M_, P_, v_):
-        r, X, G, H, spend = parts(Pr_, M_, P_, v_)
-        with np.errstate(all="ignore"):
-            invG = 1.0 / G
-            minus_one = np.full(len(M_), -1.0)
-            J = [[H[:, i, j] * X[:, j] * invG[:, i] for j in range(n)] + [minus_one]
-                 for i in range(n)]
-            J.append([Pr_[:, j] * X[:, j] / spend for j in range(n)] + [np.zeros(len(M_))])
-        return r, J, None
-
-    def residual(Pr_, M_, P_, v_):
-        return _maxnorm(parts(Pr_, M_, P_, v_, hess=False)[0])
-
-    v, iters, norm = _newton(system, residual, v, (Pr, M, P), tol, maxiter)
-    X = np.exp(v[:, :n])
-    conv = (norm <= tol) & second_order(comp, X, P)
-    X[~conv] = np.nan
-    value = comp.f(np.where(conv[:, None], X, 1.0), P)
-    value[~conv] = np.nan
-    lam = np.exp(v[:, n])
-    lam[~conv] = np.nan
-    return BatchResult(value, X, lam, iters, norm, conv)
-
-
-# -- profit -----------------------------------------------------------------------------------
-def solve_profit(model: Model, price, W, P, *, tol: float = TOL,
-                 maxiter: int = MAXITER) -> BatchResult:
-    """max p f(x) − w·x at N points: find y with marginal cost λ(w, y) = p."""
-    price = np.asarray(price, float)
-    W = np.asarray(W, float)
-    N = W.shape[0]
-    P = [np.broadcast_to(np.asarray(p, float), (N,)) for p in P]
-    price = np.broadcast_to(price, (N,))
-    logp = np.log(price)
-    # two trial levels give a local slope of log λ in log y
-    ly = np.zeros(N)
-    a = solve_spending(model, W, np.exp(ly), P, tol=tol, maxiter=maxiter)
-    b = solve_spending(model, W, np.exp(ly + 0.5), P, tol=tol, maxiter=maxiter)
-    la, lb = np.log(a.multiplier), np.log(b.multiplier)
-    y_prev, l_prev = ly + 0.5, lb
-    y_cur = ly
-    l_cur = la
-    iters = a.iterations + b.iterations
-    last = a
-    for _ in range(60):
-        with np.errstate(all="ignore"):
-            slope = (l_cur - l_prev) / (y_cur - y_prev)
-            slope = np.where(np.isfinite(slope) & (slope > 1e-9), slope, np.nan)
-            step = (logp - l_cur) / slope
-            step = np.clip(step, -5.0, 5.0)
-        done = np.abs(logp - l_cur) <= tol
-        if np.all(done | ~np.isfinite(step)):
-            break
-        y_new = np.where(done | ~np.isfinite(step), y_cur, y_cur + step)
-        res = solve_spending(model, W, np.exp(y_new), P, tol=tol, maxiter=maxiter)
-        iters = iters + res.iterations
-        y_prev, l_prev = y_cur, l_cur
-        y_cur, l_cur = y_new, np.log(res.multiplier)
-        last = res
-    conv = last.converged & (np.abs(logp - l_cur) <= 1e-10)
-    # marginal cost must rise with output (second-order condition of profit maximisation)
-    with np.errstate(all="ignore"):
-        rising = (l_cur - l_prev) / (y_cur - y_prev) > 0
-    conv &= np.where(np.isfinite(rising), rising, False) | (np.abs(y_cur - y_prev) == 0)
-    Y = np.exp(y_cur)
-    X = last.quantities.copy()
-    X[~conv] = np.nan
-    value = price * Y - np.einsum("ij,ij->i", W, X)
-    value[~conv] = np.nan
-    Y = np.where(conv, Y, np.nan)
-    return BatchResult(value, X, np.where(conv, price, np.nan), iters,
-                       np.abs(logp - l_cur), conv, Y)
-
-
-__all__ = ["BatchResult", "Compiled", "compiled", "is_homothetic", "solve_spending",
-           "solve_utility", "solve_profit", "second_order", "start_on_level", "TOL"]

@@ -199,13 +199,13 @@ class Derived:
                 if missing:
                     raise DualityError(f"no value for parameter(s) {', '.join(missing)}; "
                                        f"pass them as keywords, e.g. {missing[0]}=0.5")
-                out = np.asarray(fn(*(point[s] for s in syms)), dtype=float)
+                out = _blockwise(fn, [point[s] for s in syms])
             else:
                 out = np.asarray(self.numeric(point), dtype=float)
             shape = np.broadcast(*point.values()).shape
             if out.shape != shape or not out.flags.writeable:
                 out = np.broadcast_to(out, shape).copy()
-            bad = np.zeros(out.shape, dtype=bool)
+            bad = np.zeros(out.shape if self._condition_fns else (), dtype=bool)
             for text, fn, syms in self._condition_fns:
                 ok = np.asarray(fn(*(point[s] for s in syms)), dtype=bool)
                 bad |= ~np.broadcast_to(ok, out.shape)
@@ -254,8 +254,9 @@ class Derived:
                                    f"{', '.join(names)}"
                                    + (f" (parameters: {', '.join(params)})" if params else ""))
             arr = np.asarray(v, dtype=float)
-            if sym in self.positive_args:
-                if not np.all(arr > 0):  # NaN fails this too
+            if sym in self.positive_args and arr.size:
+                # min and max pass over the data without temporaries; NaN fails both tests
+                if not arr.min() > 0:
                     if np.isnan(arr).any():
                         raise DualityError(f"{k} must be finite; got "
                                            f"{_first_bad(arr, finite=True)}")
@@ -280,6 +281,35 @@ class Derived:
         # no broadcasting here: scalar parameters stay scalars, so the compiled code does
         # scalar work once instead of once per row; results are broadcast afterwards
         return point, scalar
+
+
+#: Rows per block when a closed form is evaluated on long one-dimensional arrays: the
+#: temporaries of one block stay in the processor's cache, which is faster than numpy
+#: passing whole columns through memory once per operation.
+EVAL_BLOCK = 65536
+
+
+def _blockwise(fn, args: list) -> np.ndarray:
+    """``fn(*args)`` as a float array, block by block when every array argument is 1-D
+    of one length above two blocks (scalars pass through); in one call otherwise."""
+    n = None
+    for a in args:
+        if np.ndim(a) == 0:
+            continue
+        if a.ndim != 1 or (n is not None and a.shape[0] != n):
+            n = -1
+            break
+        n = a.shape[0]
+    if n is None or n < 2 * EVAL_BLOCK:
+        return np.asarray(fn(*args), dtype=float)
+    first = np.asarray(fn(*[a[:EVAL_BLOCK] if np.ndim(a) else a for a in args]))
+    if first.shape != (EVAL_BLOCK,) or np.iscomplexobj(first):
+        return np.asarray(fn(*args), dtype=float)   # not elementwise: evaluate at once
+    out = np.empty(n)
+    out[:EVAL_BLOCK] = first
+    for s in range(EVAL_BLOCK, n, EVAL_BLOCK):
+        out[s:s + EVAL_BLOCK] = fn(*[a[s:s + EVAL_BLOCK] if np.ndim(a) else a for a in args])
+    return out
 
 
 def _first_bad(arr: np.ndarray, finite: bool = False) -> str:

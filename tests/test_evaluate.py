@@ -120,3 +120,24 @@ def test_file_errors(tmp_path, closed):
     (tmp_path / "a.xlsx").write_text("x")
     with pytest.raises(dy.DualityError, match="unknown file type"):
         evaluate_file(closed, tmp_path / "a.xlsx", tmp_path / "out.csv")
+
+
+def test_long_columns_are_evaluated_block_by_block_with_the_same_numbers():
+    # Cobb–Douglas cost, written out (Varian, Microeconomic Analysis, 3rd ed. 1992, ch. 4;
+    # from memory); 3 blocks and a remainder, one scalar argument broadcast
+    from duality.result import EVAL_BLOCK
+    t = dy.technology("A*x1^a*x2^b", ["x1", "x2"], params={"A": 2, "a": 0.3, "b": 0.5})
+    c = dy.cost(t)
+    rng = np.random.default_rng(5)
+    n = 3 * EVAL_BLOCK + 7
+    w1, w2 = rng.uniform(0.5, 2, n), rng.uniform(0.5, 2, n)
+    k = 0.8
+    expect = k * (4.0 / 2) ** (1 / k) * (w1 / 0.3) ** (0.3 / k) * (w2 / 0.5) ** (0.5 / k)
+    np.testing.assert_allclose(c(w1=w1, w2=w2, y=4.0), expect, rtol=1e-13)
+    # a 2-D argument is evaluated in one call, same numbers
+    got = c(w1=w1[:2 * EVAL_BLOCK].reshape(2, -1), w2=w2[:2 * EVAL_BLOCK].reshape(2, -1), y=4.0)
+    np.testing.assert_allclose(got.reshape(-1), expect[:2 * EVAL_BLOCK], rtol=1e-13)
+    # a bad value far into the column is still named
+    w1[-1] = -1.0
+    with pytest.raises(dy.DualityError, match="w1 must be positive"):
+        c(w1=w1, w2=w2, y=4.0)

@@ -54,7 +54,7 @@ def _start_file() -> Path:
 def _use(raw: dict, origin: Path | None, label: str) -> None:
     """Make ``raw`` the scenario in use (new widget keys, so inputs show its values)."""
     ss = st.session_state
-    ss.raw, ss.origin, ss.label = raw, origin, label
+    ss.raw, ss.origin, ss.label, ss.loaded = raw, origin, label, raw
     ss.generation = ss.get("generation", 0) + 1
     ss.pop("edit_error", None)
 
@@ -491,7 +491,7 @@ def view_export_save(model) -> None:
             except (DualityError, OSError) as exc:
                 st.error(f"not saved: {exc}")
             else:
-                ss.origin = path
+                ss.origin, ss.label, ss.loaded = path, path.name, ss.raw
                 st.success(f"saved {path}")
 
 
@@ -507,6 +507,8 @@ def run() -> None:
     ss = st.session_state
     _source_picker()
     raw = _editors()
+    st.sidebar.caption(f"In use: {ss.label}"
+                       + (" — edited, not saved" if raw != ss.loaded else ""))
     try:
         ss.scenario = W.build(raw, ss.origin)
         model = ss.scenario.build_model()

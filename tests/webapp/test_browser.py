@@ -14,10 +14,8 @@ from __future__ import annotations
 import math
 import os
 import re
-import shutil
 import socket
 import subprocess
-import sys
 import time
 import urllib.request
 from pathlib import Path

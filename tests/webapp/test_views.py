@@ -62,7 +62,9 @@ def test_switching_scenario_shows_its_duals(app):
 
 def test_editing_a_parameter_changes_the_dual(app):
     before = _metric(app, "value at the baseline")[0]
+    assert "In use: pottery_workshop.toml" in _markdown(app)
     app.number_input(key="par:1:A").set_value(2.4).run()
+    assert "In use: pottery_workshop.toml — edited, not saved" in _markdown(app)
     after = _metric(app, "value at the baseline")[0]
     assert before != after
     assert float(after) == float(f"{_pottery_cost(A=2.4):.6g}")

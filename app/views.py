@@ -333,8 +333,28 @@ def _figure(build, key: str) -> None:
     st.plotly_chart(fig, key=key)
 
 
+def _variant_editor() -> None:
+    """An editable table of the variants; valid edits replace the scenario's variants."""
+    ss = st.session_state
+    key = f"var_base:{ss.generation}"
+    if key not in ss:  # the editor's edits are relative to the table it was first given
+        ss[key] = W.variants_frame(ss.raw)
+    with st.expander("Edit the variants (one row each; empty cells keep the baseline)"):
+        edited = st.data_editor(ss[key], num_rows="dynamic", key=f"var_ed:{ss.generation}")
+    if edited.equals(W.variants_frame(ss.raw)):
+        return
+    try:
+        new = W.with_variants(ss.raw, edited)
+        scenario = W.build(new, ss.origin)
+    except DualityError as exc:
+        st.error(f"Variants not applied: {exc}")
+        return
+    ss.raw, ss.scenario = new, scenario
+
+
 def view_scenarios(model) -> None:
     ss = st.session_state
+    _variant_editor()
     table = A.welfare(ss.scenario)
     if isinstance(table, str):
         st.info(table)
@@ -507,8 +527,7 @@ def run() -> None:
     ss = st.session_state
     _source_picker()
     raw = _editors()
-    st.sidebar.caption(f"In use: {ss.label}"
-                       + (" — edited, not saved" if raw != ss.loaded else ""))
+    in_use = st.sidebar.empty()   # filled last: a view may still edit the scenario
     try:
         ss.scenario = W.build(raw, ss.origin)
         model = ss.scenario.build_model()
@@ -533,3 +552,5 @@ def run() -> None:
     except Exception as exc:  # noqa: BLE001 - the page shows a message, never a traceback
         st.error(f"This view stopped on an unexpected problem ({type(exc).__name__}: "
                  f"{exc}). The other views still work; please report it with the scenario.")
+    in_use.caption(f"In use: {ss.label}"
+                   + (" — edited, not saved" if ss.raw != ss.loaded else ""))

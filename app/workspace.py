@@ -168,6 +168,61 @@ def edited(raw: dict, *, parameters: dict | None = None, prices: dict | None = N
     return new
 
 
+def variants_frame(raw: dict) -> "pd.DataFrame":
+    """The scenario's variants as a table: one row per variant, a description column,
+    one column per price (empty where the variant keeps the baseline price) and the
+    output or income column (empty where it keeps the baseline)."""
+    import pandas as pd
+
+    base = raw["baseline"]
+    prices = list(base.get("prices", {}))
+    level = "output" if "output" in base or raw["model"].get("role") == "technology" \
+        else "income"
+    rows = {}
+    for name, v in raw.get("variants", {}).items():
+        row = {"description": v.get("description", "")}
+        row.update({p: v.get("prices", {}).get(p) for p in prices})
+        row[level] = v.get(level)
+        rows[name] = row
+    cols = ["description", *prices, level]
+    frame = pd.DataFrame.from_dict(rows, orient="index", columns=cols)
+    frame.index.name = "variant"
+    return frame.astype({c: float for c in cols[1:]})
+
+
+def with_variants(raw: dict, frame) -> dict:
+    """A copy of ``raw`` whose variants are the rows of ``frame`` (see
+    :func:`variants_frame`); empty cells keep the baseline value."""
+    import math as _math
+
+    new = copy.deepcopy(raw)
+    out = {}
+    for k, (name, row) in enumerate(frame.iterrows()):
+        label = str(name).strip() if name is not None else ""
+        if not label or label == "nan" or not re.fullmatch(r"[A-Za-z0-9_\-]+", label):
+            raise DualityError(f"variants: row {k + 1} needs a name of letters, digits, "
+                               f"'_' or '-' (got {name!r})")
+        if label in out:
+            raise DualityError(f"variants: {label} appears twice")
+        v: dict = {}
+        desc = row.get("description")
+        if isinstance(desc, str) and desc.strip():
+            v["description"] = desc.strip()
+        prices = {}
+        for col, val in row.items():
+            if col == "description" or val is None or (isinstance(val, float)
+                                                       and _math.isnan(val)):
+                continue
+            if col in ("output", "income"):
+                v[col] = float(val)
+            else:
+                prices[col] = float(val)
+        v["prices"] = prices
+        out[label] = v
+    new["variants"] = out
+    return new
+
+
 # -- saving -------------------------------------------------------------------------------
 @dataclass(frozen=True)
 class SavePlan:

@@ -114,7 +114,9 @@ def test_figures_view_draws_isoquant_cost_and_demand_curves(app):
 
 def test_price_scenarios_view_table_and_bars(app):
     _show(app, "Price scenarios")
-    (frame,) = [d.value for d in app.dataframe]
+    (frame,) = [d.value for d in app.dataframe if "scenario variant" in d.value.columns]
+    (editor,) = [d.value for d in app.dataframe if "description" in d.value.columns]
+    assert list(editor.index) == ["kiln_energy_spike", "clay_pit_discount", "festival_order"]
     assert set(frame["scenario variant"]) == {"kiln_energy_spike", "clay_pit_discount",
                                               "festival_order"}
     row = frame[(frame["scenario variant"] == "kiln_energy_spike")

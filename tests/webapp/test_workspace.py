@@ -108,3 +108,34 @@ def test_saving_over_another_file_needs_confirmation(tmp_path):
 def test_save_names_must_be_plain_file_names(tmp_path, name):
     with pytest.raises(DualityError, match="file name"):
         W.plan_save(name, tmp_path, None)
+
+
+def test_variants_table_round_trip_and_edits():
+    raw, _ = W.read_file(SCENARIOS / "pottery_workshop.toml")
+    frame = W.variants_frame(raw)
+    assert list(frame.columns) == ["description", "w_clay", "w_kiln", "w_labour", "p_bowl",
+                                   "output"]
+    assert W.with_variants(raw, frame)["variants"] == raw["variants"]
+    frame.loc["coal_strike"] = ["Kiln energy triples.", None, 0.75, None, None, None]
+    frame.loc["festival_order", "output"] = 600.0
+    new = W.with_variants(raw, frame)
+    s = W.build(new)
+    assert s.variants["coal_strike"].prices == {"w_kiln": 0.75}
+    assert s.variants["festival_order"].output == 600.0
+    assert raw["variants"]["festival_order"]["output"] == 550.0      # the old one untouched
+
+
+@pytest.mark.parametrize("name, message", [("", "needs a name"), ("two words", "needs a name")])
+def test_variant_names_are_checked(name, message):
+    raw, _ = W.read_file(SCENARIOS / "pottery_workshop.toml")
+    frame = W.variants_frame(raw).rename(index={"festival_order": name})
+    with pytest.raises(DualityError, match=message):
+        W.with_variants(raw, frame)
+
+
+def test_a_negative_variant_price_is_named_by_its_key():
+    raw, _ = W.read_file(SCENARIOS / "pottery_workshop.toml")
+    frame = W.variants_frame(raw)
+    frame.loc["kiln_energy_spike", "w_kiln"] = -1.0
+    with pytest.raises(DualityError, match="variants.kiln_energy_spike.prices.w_kiln"):
+        W.build(W.with_variants(raw, frame))

@@ -13,8 +13,9 @@ from .base import CoreSolution, Form, positive_condition
 
 _q = sp.Symbol("q_", positive=True)
 
-#: Seconds allowed to solve phi'(x) = q when matching (in a worker process).
-MATCH_BUDGET = 2.0
+#: Seconds allowed to solve phi'(x) = q when matching (in a worker process, counting its
+#: start-up, which takes seconds on a busy machine; the solves themselves take a fraction).
+MATCH_BUDGET = 5.0
 
 
 def _marginal_roots(phi, x):

@@ -15,7 +15,7 @@ from __future__ import annotations
 
 import math
 import re
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from functools import lru_cache
 
 import numpy as np
@@ -36,7 +36,6 @@ ROUTE_TEXT = {
     "catalogue": "closed form from the catalogue",
     "symbolic": "closed form derived by the engine",
     "numeric": "numeric (no closed form found)",
-    "given": "given as typed",
 }
 
 
@@ -62,14 +61,6 @@ class Unavailable:
 
     title: str
     reason: str
-
-
-@dataclass
-class Duals:
-    """Every dual of a model: the derived objects and their display cards."""
-
-    derived: dict[str, Derived] = field(default_factory=dict)
-    cards: list = field(default_factory=list)
 
 
 def _kinds(model: Model) -> list[tuple[str, str, object]]:

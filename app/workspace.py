@@ -9,10 +9,13 @@ functions, and tests call them directly.
 from __future__ import annotations
 
 import copy
+import math
 import os
 import re
 from dataclasses import dataclass
 from pathlib import Path
+
+import pandas as pd
 
 from duality import scenario as sc
 from duality.errors import DualityError
@@ -168,12 +171,10 @@ def edited(raw: dict, *, parameters: dict | None = None, prices: dict | None = N
     return new
 
 
-def variants_frame(raw: dict) -> "pd.DataFrame":
+def variants_frame(raw: dict) -> pd.DataFrame:
     """The scenario's variants as a table: one row per variant, a description column,
     one column per price (empty where the variant keeps the baseline price) and the
     output or income column (empty where it keeps the baseline)."""
-    import pandas as pd
-
     base = raw["baseline"]
     prices = list(base.get("prices", {}))
     level = "output" if "output" in base or raw["model"].get("role") == "technology" \
@@ -193,8 +194,6 @@ def variants_frame(raw: dict) -> "pd.DataFrame":
 def with_variants(raw: dict, frame) -> dict:
     """A copy of ``raw`` whose variants are the rows of ``frame`` (see
     :func:`variants_frame`); empty cells keep the baseline value."""
-    import math as _math
-
     new = copy.deepcopy(raw)
     out = {}
     for k, (name, row) in enumerate(frame.iterrows()):
@@ -211,7 +210,7 @@ def with_variants(raw: dict, frame) -> dict:
         prices = {}
         for col, val in row.items():
             if col == "description" or val is None or (isinstance(val, float)
-                                                       and _math.isnan(val)):
+                                                       and math.isnan(val)):
                 continue
             if col in ("output", "income"):
                 v[col] = float(val)

@@ -55,6 +55,8 @@ def _use(raw: dict, origin: Path | None, label: str) -> None:
     """Make ``raw`` the scenario in use (new widget keys, so inputs show its values)."""
     ss = st.session_state
     ss.raw, ss.origin, ss.label, ss.loaded = raw, origin, label, raw
+    if origin is not None or label == "typed formula":
+        ss.pop("uploaded", None)   # the same file may be uploaded again later
     ss.generation = ss.get("generation", 0) + 1
     ss.pop("edit_error", None)
 

@@ -17,6 +17,7 @@ Every bad input ends with a one-line message and a non-zero exit, never a traceb
 """
 from __future__ import annotations
 
+import importlib.util
 import json
 import subprocess
 import sys
@@ -26,10 +27,10 @@ from pathlib import Path
 import click
 
 from . import (check as run_checks, conjugate as conj, cost, elasticities, expenditure,
-               indirect_utility, preference, profit, technology)
-from .derive import DEFAULT_BUDGET
-from .errors import DualityError, NoSolutionError
-from .result import Derived
+               preference, technology)
+from .derive import DEFAULT_BUDGET, duals as derive_duals
+from .errors import DualityError
+from .result import KINDS, Derived
 
 #: The built-in default model: a small decreasing-returns technology.
 DEFAULT = {"formula": "2*x1^0.3*x2^0.5", "role": "technology", "quantities": "x1,x2"}
@@ -78,16 +79,7 @@ def _parse_point(text: str) -> dict[str, float]:
 
 def _duals(model, budget):
     """(title, Derived or reason) for every dual of the model."""
-    makers = ([("cost function", cost), ("profit function", profit)] if model.is_technology
-              else [("indirect utility function", indirect_utility),
-                    ("expenditure function", expenditure)])
-    out = []
-    for title, make in makers:
-        try:
-            out.append((title, make(model, budget=budget)))
-        except NoSolutionError as exc:
-            out.append((title, exc.reason))
-    return out
+    return [(KINDS[kind][0], d) for kind, d in derive_duals(model, budget=budget).items()]
 
 
 def _value(d: Derived, point: dict) -> float | None:
@@ -403,10 +395,7 @@ def export_cmd(formula, role, quantities, prices, params, at, budget, as_json,
         if not out.is_dir():
             raise _Fail(f"--out {out}: several targets need an existing folder")
         for t in chosen:
-            suffix = _exp.SUFFIXES.get(t, ".txt")
-            stem = name + ("_document" if t == "latex-document" else
-                           "_bundle" if t == "bundle" else "")
-            path = out / f"{stem}{suffix}"
+            path = out / _exp.file_name(name, t)
             _exp.write(model, t, path, name=name)
             click.echo(f"{t} -> {path}")
     _guard(run)
@@ -487,12 +476,10 @@ def app_command(scenario: str | None, port: int, save_dir: str | None) -> list[s
     if not script.is_file():
         raise _Fail(f"the app is not next to this installation ({script} is missing); "
                     "install from a source checkout with: pip install -e '.[app]'")
-    try:
-        import streamlit  # noqa: F401
-        import plotly  # noqa: F401
-    except ImportError as exc:
-        raise _Fail(f"the app needs {exc.name}; install it with: pip install -e '.[app]'") \
-            from None
+    missing = [m for m in ("streamlit", "plotly") if importlib.util.find_spec(m) is None]
+    if missing:
+        raise _Fail(f"the app needs {' and '.join(missing)}; install it with: "
+                    "pip install -e '.[app]'")
     cmd = [sys.executable, str(script),
            "--server.address", "127.0.0.1", "--server.port", str(port),
            "--server.headless", "true", "--browser.gatherUsageStats", "false",

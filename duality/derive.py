@@ -678,5 +678,21 @@ def _check_returns_numerically(model: Model) -> None:
             "needs decreasing returns to scale")
 
 
-__all__ = ["cost", "profit", "expenditure", "indirect_utility", "DEFAULT_BUDGET",
+def duals(model: Model, *, budget: float | None = DEFAULT_BUDGET) -> dict[str, Derived | str]:
+    """Every dual of ``model`` by kind: ``cost`` and ``profit`` for a technology,
+    ``indirect_utility`` and ``expenditure`` for a preference.  A dual that does not exist
+    (:class:`NoSolutionError`, e.g. no profit function under constant returns) maps to
+    the reason, as text; any other error is raised."""
+    makers = ((("cost", cost), ("profit", profit)) if model.is_technology else
+              (("indirect_utility", indirect_utility), ("expenditure", expenditure)))
+    out: dict[str, Derived | str] = {}
+    for kind, make in makers:
+        try:
+            out[kind] = make(model, budget=budget)
+        except NoSolutionError as exc:
+            out[kind] = exc.reason
+    return out
+
+
+__all__ = ["cost", "profit", "expenditure", "indirect_utility", "duals", "DEFAULT_BUDGET",
            "SYMBOLIC_METHODS", "Solution"]

@@ -68,6 +68,16 @@ SUFFIXES = {"python": ".py", "latex": ".tex", "latex-document": ".tex", "json": 
             "bundle": ".json"}
 
 
+def file_name(name: str, target: str) -> str:
+    """The usual file name of export ``name`` in ``target`` (distinct for every target:
+    ``model.tex`` and ``model_document.tex``, ``model.json`` and ``model_bundle.json``)."""
+    if target not in TARGETS:
+        raise DualityError(f"unknown export target {target!r}; the targets are "
+                           f"{', '.join(TARGETS)}")
+    stem = name + {"latex-document": "_document", "bundle": "_bundle"}.get(target, "")
+    return stem + SUFFIXES[target]
+
+
 def export(what, target: str, *, name: str = "model", values: bool = True, **options) -> str:
     """The text of ``what`` exported to ``target``.
 
@@ -131,4 +141,4 @@ def write(what, target: str, path, **kw) -> Path:
     return path
 
 
-__all__ = ["TARGETS", "SUFFIXES", "export", "write", "load_json", "collect"]
+__all__ = ["TARGETS", "SUFFIXES", "export", "file_name", "write", "load_json", "collect"]

@@ -23,9 +23,9 @@ import pandas as pd
 import sympy as sp
 
 import duality as dy
-from duality.derive import DEFAULT_BUDGET
+from duality.derive import DEFAULT_BUDGET, duals
 from duality.errors import DualityError
-from duality.export import SUFFIXES, TARGETS, export
+from duality.export import TARGETS, export, file_name
 from duality.model import Model
 from duality.result import Derived
 
@@ -52,7 +52,6 @@ class Card:
     notes: tuple[str, ...] = ()
     value: float | None = None
     demands: tuple["Card", ...] = ()
-    numeric: bool = False
 
 
 @dataclass(frozen=True)
@@ -63,26 +62,17 @@ class Unavailable:
     reason: str
 
 
-def _kinds(model: Model) -> list[tuple[str, str, object]]:
-    if model.is_technology:
-        return [("cost", "Cost function", dy.cost), ("profit", "Profit function", dy.profit)]
-    return [("indirect_utility", "Indirect utility function", dy.indirect_utility),
-            ("expenditure", "Expenditure function", dy.expenditure)]
+#: display titles of the duals, in the order shown
+TITLES = {"cost": "Cost function", "profit": "Profit function",
+          "indirect_utility": "Indirect utility function",
+          "expenditure": "Expenditure function"}
 
 
 @lru_cache(maxsize=64)
-def derive_all(model: Model, budget: float | None = BUDGET) -> dict[str, Derived | str]:
-    """Each dual of ``model`` (cost and profit, or indirect utility and expenditure).
-
-    A dual that does not exist maps to the reason, as text.
-    """
-    out: dict[str, Derived | str] = {}
-    for key, _title, fn in _kinds(model):
-        try:
-            out[key] = fn(model, budget=budget)
-        except DualityError as exc:
-            out[key] = str(exc)
-    return out
+def derive_all(model: Model) -> dict[str, Derived | str]:
+    """Each dual of ``model`` (:func:`duality.derive.duals`, cached here with its compiled
+    functions); a dual that does not exist maps to the reason, as text."""
+    return duals(model, budget=BUDGET)
 
 
 def point_for(d: Derived, point: dict) -> dict[str, float]:
@@ -100,7 +90,7 @@ def value_at(d: Derived, point: dict) -> float | None:
     return v if math.isfinite(v) else None
 
 
-def baseline_point(model: Model, duals: dict, base: dict) -> dict[str, float]:
+def baseline_point(model: Model, found: dict, base: dict) -> dict[str, float]:
     """The scenario's baseline point, completed with the utility level it reaches.
 
     For a preference the expenditure function needs a utility level: the one the
@@ -109,7 +99,7 @@ def baseline_point(model: Model, duals: dict, base: dict) -> dict[str, float]:
     pt = {k: float(v) for k, v in base.items()}
     if not model.is_technology:
         u, m = str(model.level), str(model.income)
-        v, e = duals.get("indirect_utility"), duals.get("expenditure")
+        v, e = found.get("indirect_utility"), found.get("expenditure")
         if u not in pt and isinstance(v, Derived) and m in pt:
             val = value_at(v, pt)
             if val is not None:
@@ -131,8 +121,7 @@ def _card(title: str, d: Derived, point: dict, with_demands: bool) -> Card:
         demands = tuple(_card(name, x, point, False) for name, x in dem.items())
     return Card(title=title, latex=latex_of(d), route=d.route, method=d.method or "",
                 source=d.source, conditions=tuple(sp.latex(c) for c in d.conditions),
-                notes=tuple(d.notes), value=value_at(d, point), demands=demands,
-                numeric=d.expr is None)
+                notes=tuple(d.notes), value=value_at(d, point), demands=demands)
 
 
 def cards(model: Model, base: dict) -> tuple[list, dict[str, float]]:
@@ -140,12 +129,10 @@ def cards(model: Model, base: dict) -> tuple[list, dict[str, float]]:
 
     Returns the cards (:class:`Card` or :class:`Unavailable`) and the completed point.
     """
-    duals = derive_all(model)
-    pt = baseline_point(model, duals, base)
-    out = []
-    for key, title, _fn in _kinds(model):
-        d = duals[key]
-        out.append(Unavailable(title, d) if isinstance(d, str) else _card(title, d, pt, True))
+    found = derive_all(model)
+    pt = baseline_point(model, found, base)
+    out = [Unavailable(TITLES[kind], d) if isinstance(d, str) else
+           _card(TITLES[kind], d, pt, True) for kind, d in found.items()]
     return out, pt
 
 
@@ -226,12 +213,9 @@ def elasticity_tables(model: Model, point: dict) -> dict[str, pd.DataFrame] | st
 
 @lru_cache(maxsize=256)
 def _elasticities(model: Model, items: tuple):
-    point = dict(items)
-    names = {str(s) for s in model.prices} | {str(model.level)}
-    if not model.is_technology:
-        names = {str(s) for s in model.prices} | {str(model.income)}
-    return dy.elasticities(model, budget=BUDGET, **{k: v for k, v in point.items()
-                                                   if k in names})
+    level = model.level if model.is_technology else model.income
+    names = {str(s) for s in model.prices} | {str(level)}
+    return dy.elasticities(model, budget=BUDGET, **{k: v for k, v in items if k in names})
 
 
 ELASTICITY_TITLES = {
@@ -310,9 +294,7 @@ def exports(model: Model, name: str) -> dict[str, tuple[str, str | None, str]]:
     ``(file name, None, reason)`` for a target that cannot express this model."""
     out = {}
     for target in TARGETS:
-        fname = f"{name}{SUFFIXES[target]}"
-        if target == "bundle":
-            fname = f"{name}_bundle.json"
+        fname = file_name(name, target)
         try:
             out[target] = (fname, export(model, target, name=name), "")
         except DualityError as exc:

@@ -174,28 +174,26 @@ def cost_curves(cost: Derived, point: dict, n: int = 120) -> go.Figure:
     return _finish(fig, "Cost against output at the chosen input prices")
 
 
-def demand_curves(dual: Derived, point: dict, n: int = 80) -> go.Figure:
+def demand_curves(dual: Derived, point: dict, n: int = 81) -> go.Figure:
     """Each demand of ``dual`` against its own price, the other arguments fixed at
-    ``point`` (one panel per quantity)."""
+    ``point`` (one panel per quantity; the point itself is marked)."""
     dem = dual.demands
-    prices = [str(a) for a in dual.args[:len(dem)]]
-    names = [q for q in dem if q in dem]
-    rows = (len(names) + 2) // 3
-    fig = make_subplots(rows=rows, cols=min(3, len(names)),
+    names = list(dem)
+    prices = [str(a) for a in dual.args[:len(names)]]
+    fig = make_subplots(rows=(len(names) + 2) // 3, cols=min(3, len(names)),
                         subplot_titles=[f"{q} against {p}" for q, p in zip(names, prices)])
     base = {str(a): float(point[str(a)]) for a in dual.args}
+    mid = n // 2
     for k, (q, p) in enumerate(zip(names, prices)):
-        grid = np.geomspace(base[p] / 4.0, base[p] * 4.0, n)
-        pt = {a: np.full(n, v) for a, v in base.items()}
+        grid = np.geomspace(base[p] / 4.0, base[p] * 4.0, 2 * mid + 1)
+        grid[mid] = base[p]                       # the point itself, exactly
+        pt = {a: np.full(grid.size, v) for a, v in base.items()}
         pt[p] = grid
         x = np.asarray(dem[q](**pt), dtype=float)
         r, c = k // 3 + 1, k % 3 + 1
         fig.add_trace(go.Scatter(x=grid, y=x, name=q, showlegend=False,
                                  line=dict(color=SERIES[k % len(SERIES)], width=3)), r, c)
-        fig.add_trace(go.Scatter(x=[base[p]], y=[float(dem[q](**base)
-                                                      if dem[q].expr is not None else
-                                                      np.interp(base[p], grid, x))],
-                                 mode="markers", showlegend=False,
+        fig.add_trace(go.Scatter(x=[base[p]], y=[x[mid]], mode="markers", showlegend=False,
                                  marker=dict(color=INK, size=9)), r, c)
         fig.update_xaxes(title=p, type="log", row=r, col=c)
     kind = {"cost": "Conditional", "profit": "Unconditional", "expenditure": "Hicksian",
@@ -219,13 +217,15 @@ def conjugate_envelope(formula: str, var: str = "x", lower: float = -3.0,
         raise DualityError(f"the interval needs lower < upper (got {lower:g}, {upper:g})")
     expr = parse(formula)
     sym = sp.Symbol(var)
-    extra = expr.free_symbols - {sym}
     if params:
         expr = expr.xreplace({sp.Symbol(k): v for k, v in params.items()})
-        extra = expr.free_symbols - {sym}
+    extra = sorted(map(str, expr.free_symbols - {sym}))
+    if extra and sym not in expr.free_symbols:
+        raise DualityError(f"the variable {var!r} does not appear in {formula} (it has "
+                           f"{', '.join(extra)})")
     if extra:
         raise DualityError(f"the function may only depend on {var}; give values for "
-                           + ", ".join(sorted(map(str, extra))))
+                           + ", ".join(extra))
     xs = np.linspace(lower, upper, n)
     with np.errstate(all="ignore"):
         fx = np.broadcast_to(np.asarray(sp.lambdify(sym, expr, "numpy")(xs), dtype=float),
@@ -234,7 +234,7 @@ def conjugate_envelope(formula: str, var: str = "x", lower: float = -3.0,
         bad = xs[~np.isfinite(fx)]
         raise DualityError(f"{formula} is not finite on [{lower:g}, {upper:g}] "
                            f"(e.g. at {var} = {bad[0]:.4g}); choose another interval")
-    conj = dy.conjugate(fx, xs, np.linspace(*_slope_range(fx, xs), 401))
+    conj = dy.conjugate(fx, xs)   # slopes spread over the hull's range, all finite
     s, fstar = np.asarray(conj.slopes, dtype=float), np.asarray(conj.values, dtype=float)
     fig = make_subplots(rows=1, cols=2, subplot_titles=(
         f"f({var}) and supporting lines", "conjugate f*(s) = sup (s·x − f(x))"))
@@ -255,14 +255,6 @@ def conjugate_envelope(formula: str, var: str = "x", lower: float = -3.0,
     fig.update_yaxes(range=[fx.min() - 0.15 * span - 1e-9, fx.max() + 0.15 * span + 1e-9],
                      row=1, col=1)
     return _finish(fig, "Legendre–Fenchel conjugate as the envelope of supporting lines")
-
-
-def _slope_range(fx, xs) -> tuple[float, float]:
-    """First and last slope of the lower convex hull of the samples."""
-    import duality as dy
-
-    lo, hi = dy.conjugate(fx, xs).slope_range
-    return float(lo), float(hi)
 
 
 def elasticity_heatmap(matrix: pd.DataFrame, title: str) -> go.Figure:

@@ -55,7 +55,7 @@ def read_file(path: Path) -> tuple[dict, Path]:
 
 
 def read_upload(data: bytes, name: str) -> dict:
-    """An uploaded scenario file as a dictionary (validated).
+    """An uploaded scenario file as a dictionary (validated, its model built).
 
     An upload has no folder, so a data file it names cannot be found: the ``[data]``
     table is kept (and saved back) but the data file must be attached separately.
@@ -66,9 +66,11 @@ def read_upload(data: bytes, name: str) -> dict:
         raise DualityError(f"{name}: not a UTF-8 text file ({exc.reason} at byte "
                            f"{exc.start})") from None
     try:
-        return sc.to_dict(sc.loads(text))
+        scenario = sc.loads(text)
+        scenario.build_model()
     except DualityError as exc:
         raise DualityError(str(exc).replace("<scenario text>", name, 1)) from None
+    return sc.to_dict(scenario)
 
 
 def build(raw: dict, path: Path | None = None) -> sc.Scenario:
@@ -151,7 +153,7 @@ def from_formula(formula: str, role: str, quantities: str, parameters: str = "",
         base["income"] = 100.0
     raw = {"title": "Typed model", "description": f"Typed in the app: {formula}",
            "model": model, "baseline": base}
-    build(raw)
+    build(raw).build_model()   # a model that cannot be built never replaces the one in use
     return raw
 
 

@@ -154,11 +154,20 @@ def test_conjugate_envelope_of_a_kink_and_of_a_non_convex_function():
     assert np.interp(0.0, conj.x, conj.y) == pytest.approx(1.0, abs=1e-9)
 
 
-@pytest.mark.parametrize("formula, where", [("log(x)", "not finite"),
-                                            ("x + a", "give values for a")])
-def test_conjugate_envelope_names_the_problem(formula, where):
+@pytest.mark.parametrize("formula, var, where", [
+    ("log(x)", "x", "not finite"),
+    ("x + a", "x", "give values for a"),
+    ("x^2", "y", "the variable 'y' does not appear in x\\^2 .it has x."),
+])
+def test_conjugate_envelope_names_the_problem(formula, var, where):
     with pytest.raises(DualityError, match=where):
-        F.conjugate_envelope(formula, "x", -1, 1)
+        F.conjugate_envelope(formula, var, -1, 1)
+
+
+def test_conjugate_envelope_of_a_constant_is_the_indicator_of_zero():
+    # f = 3: f*(s) = -3 at s = 0 only (common practice, no source)
+    conj = F.conjugate_envelope("3", "x", -1, 1).data[-1]
+    assert list(conj.x) == [0.0] and conj.y[0] == pytest.approx(-3.0)
 
 
 def test_elasticity_heatmap_shows_the_matrix(pottery):

@@ -268,3 +268,11 @@ def test_a_numeric_dual_is_evaluated_at_every_data_row_with_progress(app, tmp_pa
     import numpy as np
     np.testing.assert_allclose(costs, expect, rtol=1e-10)
     assert "numeric dual is evaluated at every row" in _markdown(app)
+
+
+def test_every_export_download_has_its_own_file_name(app):
+    _show(app, "Export & save")
+    # labels read "<target> — <file name>"; latex and latex-document once shared one name
+    names = [b.label.split(" — ")[1] for b in app.get("download_button")
+             if not b.label.startswith("scenario")]
+    assert len(names) == len(dy.export.TARGETS) == len(set(names)), names

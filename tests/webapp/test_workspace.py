@@ -41,6 +41,7 @@ def test_typed_formula_becomes_a_scenario_at_unit_prices():
     ("A*x1^a", "x1", "A=2, A=3, a=1", "given twice"),
     ("A*x1", "x1, x9", "A=2", "x9 does not appear"),
     ("A*x1", "x1, 9x", "A=2", "not a valid name"),
+    ("A*x1^-0.5*x2", "x1, x2", "A=1", "decreases in x1"),
 ])
 def test_typed_formula_problems_are_named(formula, quantities, params, message):
     with pytest.raises(DualityError, match=message):
@@ -61,6 +62,10 @@ def test_upload_reads_text_and_names_the_file():
         W.read_upload(b"\xff\xfe\x00", "up.toml")
     with pytest.raises(DualityError, match="up.toml"):
         W.read_upload(b'title = "t"\n', "up.toml")
+    bad_model = (SCENARIOS / "pottery_workshop.toml").read_text().replace(
+        "A * clay^0.3", "A * clay^-0.3")
+    with pytest.raises(DualityError, match="up.toml.*decreases in clay"):
+        W.read_upload(bad_model.encode(), "up.toml")
 
 
 def test_edits_make_a_new_dictionary_and_leave_the_old_one_alone():

@@ -1,11 +1,11 @@
 """What every view of the app shows, computed by plain functions (no Streamlit here).
 
-Each function takes a :class:`~duality.model.Model` (frozen and hashable) or a
-:class:`~duality.scenario.Scenario` and returns plain data: cards of LaTeX with their
+Each function takes a :class:`~duality.model.base.Model` (frozen and hashable) or a
+:class:`~duality.apply.scenario.Scenario` and returns plain data: cards of LaTeX with their
 provenance, DataFrames, check records, export texts.  Results that cost symbolic work are
 cached by model (``functools.lru_cache``), so a rerun of the page with the same model is
 free and a parameter edit only pays for evaluation.  The symbolic solving itself runs in
-budgeted worker processes inside the library (:mod:`duality.budget`).
+budgeted worker processes inside the library (:mod:`duality.solve.budget`).
 
 Errors from the library arrive as :class:`~duality.errors.DualityError` with a readable
 message; functions here turn them into "not available" entries instead of raising, so a
@@ -23,11 +23,11 @@ import pandas as pd
 import sympy as sp
 
 import duality as dy
-from duality.derive import DEFAULT_BUDGET, duals
+from duality.solve.derive import DEFAULT_BUDGET, duals
 from duality.errors import DualityError
-from duality.export import TARGETS, export, file_name
-from duality.model import Model
-from duality.result import Derived
+from duality.apply.export import TARGETS, export, file_name
+from duality.model.base import Model
+from duality.solve.result import Derived
 
 #: seconds of symbolic work allowed per dual before the numeric route takes over; the
 #: library's default, so the app, the exports and the checks share one cached derivation
@@ -70,7 +70,7 @@ TITLES = {"cost": "Cost function", "profit": "Profit function",
 
 @lru_cache(maxsize=64)
 def derive_all(model: Model) -> dict[str, Derived | str]:
-    """Each dual of ``model`` (:func:`duality.derive.duals`, cached here with its compiled
+    """Each dual of ``model`` (:func:`duality.solve.derive.duals`, cached here with its compiled
     functions); a dual that does not exist maps to the reason, as text."""
     return duals(model, budget=BUDGET)
 

@@ -22,8 +22,8 @@ import sympy as sp
 from plotly.subplots import make_subplots
 
 from duality.errors import DualityError
-from duality.model import Model
-from duality.result import Derived
+from duality.model.base import Model
+from duality.solve.result import Derived
 
 #: the app's palette: slate ink, a teal for the primal, an ochre for the dual side
 INK = "#23313f"
@@ -211,7 +211,7 @@ def conjugate_envelope(formula: str, var: str = "x", lower: float = -3.0,
     ``s x − f*(s)`` supports f from below, and together they trace its convex envelope.
     """
     import duality as dy
-    from duality.formula import parse
+    from duality.model.formula import parse
 
     if not lower < upper:
         raise DualityError(f"the interval needs lower < upper (got {lower:g}, {upper:g})")

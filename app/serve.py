@@ -18,7 +18,7 @@ def warm(scenario: str | None) -> None:
     """Import the page's modules and derive the opening scenario (fills the caches)."""
     from app import analysis, views  # noqa: F401 - imported for the page script
     from app import workspace
-    from duality import scenario as sc
+    from duality.apply import scenario as sc
     from duality.errors import DualityError
 
     path = Path(scenario) if scenario else workspace.SCENARIO_DIR / workspace.DEFAULT_SCENARIO

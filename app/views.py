@@ -15,7 +15,7 @@ import pandas as pd
 import streamlit as st
 
 import duality as dy
-from duality import scenario as sc
+from duality.apply import scenario as sc
 from duality.errors import DualityError
 
 from . import analysis as A

@@ -1,8 +1,8 @@
 """The scenario being worked on: where it came from, its edits, and saving it safely.
 
-The app holds a scenario as the plain dictionary of :func:`duality.scenario.to_dict`
+The app holds a scenario as the plain dictionary of :func:`duality.apply.scenario.to_dict`
 (what the TOML file holds).  Every edit produces a new dictionary, which is validated by
-:func:`duality.scenario.from_dict`; a problem comes back as a message naming the key, and
+:func:`duality.apply.scenario.from_dict`; a problem comes back as a message naming the key, and
 the last valid scenario stays in use.  No Streamlit here: the page script calls these
 functions, and tests call them directly.
 """
@@ -17,9 +17,9 @@ from pathlib import Path
 
 import pandas as pd
 
-from duality import scenario as sc
+from duality.apply import scenario as sc
 from duality.errors import DualityError
-from duality.formula import parse
+from duality.model.formula import parse
 
 ROOT = Path(__file__).resolve().parents[1]
 #: the demo scenarios shipped with the project

@@ -17,34 +17,55 @@ Results hold only for the assumed functional form and parameter values.
 """
 from __future__ import annotations
 
-from .checks import CheckRecord, check
+import importlib
+import sys
+
+from .analyse.checks import CheckRecord, check
 from .conjugate import Conjugate, biconjugate, conjugate
-from .demand import hotelling, roy, shares, shephard
-from .derive import DEFAULT_BUDGET, cost, expenditure, indirect_utility, profit
-from .elasticity import ElasticityTable, allen_uzawa, elasticities, morishima, price_elasticities
-from .evaluate import evaluate, evaluate_dask, evaluate_file
+from .analyse.demand import hotelling, roy, shares, shephard
+from .solve.derive import DEFAULT_BUDGET, cost, expenditure, indirect_utility, profit
+from .analyse.elasticity import ElasticityTable, allen_uzawa, elasticities, morishima, price_elasticities
+from .apply.evaluate import evaluate, evaluate_dask, evaluate_file
 from .errors import (BudgetExceeded, DomainError, DualityError, FormulaError, ModelError,
                      NoSolutionError)
-from .forms import CATALOGUE
-from .dual_forms import (DUAL_CATALOGUE, aids_expenditure, aids_share_equations,
+from .solve.forms import CATALOGUE
+from .solve.dual_forms import (DUAL_CATALOGUE, aids_expenditure, aids_share_equations,
                          generalized_leontief_cost, translog_cost)
-from .dual_side import (cost_function, expenditure_function, indirect_utility_function,
+from .model.dual_side import (cost_function, expenditure_function, indirect_utility_function,
                         profit_function)
-from .model import Model, Parameter, preference, technology
-from .data_regularity import RegularityReport, regularity
-from .recovery import Recovered, recover
-from .scenario import load as load_scenario, save as save_scenario
-from .theory import impose_restrictions, restrictions, violations
-from .welfare import compare as price_change, scenario_table
-from .result import Derived, NumericWarning
+from .model.base import Model, Parameter, preference, technology
+from .model.formula import parse
+from ._version import __version__
+from .analyse.regularity import RegularityReport, regularity
+from .analyse.recovery import Recovered, recover
+from .apply.scenario import load as load_scenario, save as save_scenario
+from .analyse.theory import impose_restrictions, restrictions, violations
+from .apply.welfare import compare as price_change, scenario_table
+from .solve.result import Derived, NumericWarning
 
-__version__ = "0.1.0"
+
+# Import paths from before the stages became folders (``duality.derive`` is now
+# ``duality.solve.derive``): kept so that existing user code keeps working.
+_FORMER_PATHS = {
+    "formula": "model.formula", "dual_side": "model.dual_side", "lambdas": "model.lambdas",
+    "derive": "solve.derive", "derive_dual": "solve.derive_dual", "budget": "solve.budget",
+    "numeric": "solve.numeric", "batch": "solve.batch", "forms": "solve.forms",
+    "dual_forms": "solve.dual_forms", "calculus": "solve.calculus", "result": "solve.result",
+    "demand": "analyse.demand", "elasticity": "analyse.elasticity", "checks": "analyse.checks",
+    "restrictions": "analyse.restrictions", "theory": "analyse.theory",
+    "data_regularity": "analyse.regularity", "recovery": "analyse.recovery",
+    "scenario": "apply.scenario", "welfare": "apply.welfare", "evaluate": "apply.evaluate",
+    "estimation": "apply.estimation", "export": "apply.export",
+}
 
 
-def parse(text: str, **kwargs):
-    """Read a formula safely (see :func:`duality.formula.parse`)."""
-    from .formula import parse as _parse
-    return _parse(text, **kwargs)
+def _register_former_paths() -> None:
+    for old, new in _FORMER_PATHS.items():
+        module = importlib.import_module(f"{__name__}.{new}")
+        sys.modules.setdefault(f"{__name__}.{old}", module)
+
+
+_register_former_paths()
 
 
 __all__ = [

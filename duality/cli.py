@@ -25,12 +25,17 @@ import warnings
 from pathlib import Path
 
 import click
+import pandas as pd
 
 from . import (check as run_checks, conjugate as conj, cost, elasticities, expenditure,
                preference, technology)
-from .derive import DEFAULT_BUDGET, duals as derive_duals
+from .apply import export as _exp, scenario as _scn
+from .apply.estimation import fit, log_linear_equation
+from .apply.evaluate import evaluate_file, functions_of
+from .apply.welfare import scenario_table
+from .solve.derive import DEFAULT_BUDGET, duals as derive_duals
 from .errors import DualityError
-from .result import KINDS, Derived
+from .solve.result import KINDS, Derived
 
 #: The built-in default model: a small decreasing-returns technology.
 DEFAULT = {"formula": "2*x1^0.3*x2^0.5", "role": "technology", "quantities": "x1,x2"}
@@ -277,7 +282,6 @@ def conjugate_cmd(formula, var, convention, as_json):
 def _scenario_model(path: str | None, formula, role, quantities, params, prices):
     """The model of a scenario file (with the scenario) or of the typed options."""
     if path:
-        from . import scenario as _scn
         scn = _scn.load(path)
         return scn.build_model(), scn
     return _model(formula, role, quantities, params, prices), None
@@ -294,9 +298,6 @@ _scenario_option = click.option("--scenario", "-s", "scenario_path", default=Non
 def run_cmd(scenario_file, as_json):
     """Run a scenario file: every variant against the baseline (costs, demands, welfare)."""
     def run():
-        import pandas as pd
-        from . import scenario as _scn
-        from .welfare import scenario_table
         scn = _scn.load(scenario_file)
         model = scn.build_model()
         frames = {}
@@ -344,7 +345,6 @@ def evaluate_cmd(formula, role, quantities, prices, params, at, budget, as_json,
                  scenario_path, data_path, out_path, keep, chunksize):
     """Evaluate the cost or indirect utility function and its demands on a data file."""
     def run():
-        from .evaluate import evaluate_file, functions_of
         model, scn = _scenario_model(scenario_path, formula, role, quantities, params, prices)
         columns = None
         src = data_path
@@ -376,7 +376,6 @@ def export_cmd(formula, role, quantities, prices, params, at, budget, as_json,
                scenario_path, targets, out_path, name):
     """Export every derived function as code, LaTeX, JSON or an estimation bundle."""
     def run():
-        from . import export as _exp
         model, scn = _scenario_model(scenario_path, formula, role, quantities, params, prices)
         chosen = list(targets) or (list(scn.exports) if scn is not None else [])
         if not chosen:
@@ -415,8 +414,6 @@ def estimate_cmd(formula, role, quantities, prices, params, at, budget, as_json,
                  scenario_path, data_path, normalise, column_map, rows):
     """Fit the log-linear equation of the cost function by least squares."""
     def run():
-        import pandas as pd
-        from .estimation import fit, log_linear_equation
         model, _ = _scenario_model(scenario_path, formula, role, quantities, params, prices)
         d = cost(model, budget=budget) if model.is_technology else \
             expenditure(model, budget=budget)
@@ -455,7 +452,6 @@ def estimate_cmd(formula, role, quantities, prices, params, at, budget, as_json,
 def scenarios_cmd(folder):
     """List the scenario files in a folder with their titles and variants."""
     def run():
-        from . import scenario as _scn
         paths = sorted(Path(folder).glob("*.toml"))
         if not paths:
             raise _Fail(f"no scenario files (*.toml) in {folder}")

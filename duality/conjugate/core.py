@@ -9,8 +9,9 @@ import numpy as np
 import sympy as sp
 
 from ..errors import DualityError
-from ..formula import parse
+from ..model.formula import parse
 from .common import _Raw, _expr_numeric, _to_float
+from .grid import biconjugate_samples, conjugate_samples
 from .multi import _conj_multi
 from .univariate import _sup_concave_1d
 
@@ -110,7 +111,7 @@ def conjugate(f, x=None, p=None, *, convention: str = "sup",
     Parameters
     ----------
     f : sympy.Expr or str
-        The function.  Text is read with :func:`duality.formula.parse` (never sympify).
+        The function.  Text is read with :func:`duality.model.formula.parse` (never sympify).
         A ``Piecewise((value, cond), (oo, True))`` is read as ``value`` on ``cond``.
     x : str, Symbol or sequence of them, optional
         The variables to conjugate.  Default: the single free symbol of ``f``.
@@ -132,7 +133,6 @@ def conjugate(f, x=None, p=None, *, convention: str = "sup",
         raise DualityError(f"unknown convention {convention!r}; allowed values are "
                            f"{', '.join(repr(c) for c in CONVENTIONS)}")
     if _is_samples(f):  # sampled values: x is the grid, p the query slopes
-        from .grid import conjugate_samples
         return conjugate_samples(f, _sample_grid(x), p, convention=convention)
     fexpr = _to_expr(f)
     xs, fexpr = _primal_symbols(fexpr, x)
@@ -152,7 +152,6 @@ def biconjugate(f, x=None, p=None, *, budget: float | None = 5.0) -> Conjugate:
     evaluated numerically (``expr=None``); multivariate ones need a symbolic conjugate.
     """
     if _is_samples(f):  # sampled values: the convex envelope at the grid x (an ndarray)
-        from .grid import biconjugate_samples
         if p is not None:
             raise DualityError("p is not used by the biconjugate of sampled values")
         return biconjugate_samples(f, _sample_grid(x))

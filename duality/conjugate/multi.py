@@ -5,10 +5,11 @@ import math
 
 import numpy as np
 import sympy as sp
+from scipy.optimize import minimize
 
-from ..budget import run_with_budget
+from ..solve.budget import run_with_budget
 from ..errors import BudgetExceeded, DualityError
-from ..lambdas import numpy_function
+from ..model.lambdas import numpy_function
 from .common import _Raw, _expr_numeric, _remaining
 from .univariate import _conj1_any
 
@@ -227,7 +228,6 @@ def _pick_multi(sols, f, xs, ps, samples):
 
 
 def _numeric_multi(f, xs, ps, notes) -> _Raw:
-    from scipy.optimize import minimize
     fn = numpy_function([xs], f)
     gr = numpy_function([xs], [sp.diff(f, x) for x in xs])
     bounds = []

@@ -5,11 +5,12 @@ import math
 
 import numpy as np
 import sympy as sp
+from scipy.optimize import minimize_scalar
 from sympy.calculus.util import continuous_domain
 
-from ..budget import run_with_budget
+from ..solve.budget import run_with_budget
 from ..errors import BudgetExceeded, DualityError
-from ..lambdas import numpy_function
+from ..model.lambdas import numpy_function
 from .common import _Raw, _remaining
 from .piecewise import _pl_breakpoints, _pl_conjugate
 
@@ -396,7 +397,6 @@ def _numeric1(f, x, p, dom, notes) -> _Raw:
             best = float(vals[k])
             at_edge = (k == 0 and a > lo) or (k == grid.size - 1 and b < hi)
             if not at_edge:
-                from scipy.optimize import minimize_scalar
                 l_ = grid[max(k - 1, 0)]
                 r_ = grid[min(k + 1, grid.size - 1)]
                 if r_ > l_:
@@ -414,7 +414,6 @@ def _numeric1(f, x, p, dom, notes) -> _Raw:
 
 def _sup_concave_1d(h):
     """sup over t of a concave function h (may be -inf); inf if it keeps growing."""
-    from scipy.optimize import minimize_scalar
 
     def hv(t):
         v = h(float(t))

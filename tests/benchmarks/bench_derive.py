@@ -19,8 +19,8 @@ import time
 import sympy as sp
 
 import duality as dy
-from duality import derive
-from duality.budget import run_with_budget
+from duality.solve import derive
+from duality.solve.budget import run_with_budget
 from duality.errors import BudgetExceeded
 
 CATALOGUE_CASES = {

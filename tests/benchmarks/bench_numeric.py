@@ -23,7 +23,7 @@ import numpy as np
 from scipy import optimize
 
 import duality as dy
-from duality import batch
+from duality.solve import batch
 
 D = np.array([1.0, 2.0, 3.0])
 

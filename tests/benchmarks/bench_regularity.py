@@ -1,4 +1,4 @@
-"""Benchmark of duality.data_regularity on a 3-input translog cost function.
+"""Benchmark of duality.analyse.regularity on a 3-input translog cost function.
 
 Run:  python tests/benchmarks/bench_regularity.py [--repeat K] [--seed N]
 
@@ -18,7 +18,7 @@ import numpy as np
 import pandas as pd
 
 import duality as dy
-from duality.data_regularity import regularity
+from duality.analyse.regularity import regularity
 
 # homogeneity holds: Σ a_i = 1, rows of g sum to zero, Σ g_iy = 0
 PARAMS = dict(a0=0.1, a1=0.3, a2=0.5, a3=0.2, g11=0.1, g12=-0.05, g13=-0.05, g22=0.08,

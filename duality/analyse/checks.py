@@ -1,0 +1,488 @@
+"""Checks as data: the identities and properties duality theory predicts, verified.
+
+:func:`check` returns one :class:`CheckRecord` per property: Shephard's and Hotelling's
+lemmas, Roy's identity, the Slutsky equation, symmetry and negative semidefiniteness of
+the substitution matrix, e(p, v(p, m)) = m and v(p, e(p, u)) = u, homogeneity, adding-up,
+monotonicity and curvature of each dual.
+
+Each check is first tried symbolically (the residual simplifies to zero: ``proved``, under
+a per-check time budget in a worker process), then numerically at sampled points
+(``held`` with the largest relative error, or ``failed`` with the counterexample point).
+Properties that are inequalities (monotonicity, curvature) are only ever ``held`` or
+``failed``.  A check that cannot apply (no profit function under constant returns, say)
+is ``not applicable`` with the reason.  Front ends only display these records.
+"""
+from __future__ import annotations
+
+import math
+import warnings
+from dataclasses import dataclass
+from typing import Callable, Sequence
+
+import numpy as np
+import sympy as sp
+
+from ..solve.budget import run_with_budget
+from ..solve.calculus import Fn
+from ..solve.derive import DEFAULT_BUDGET, cost, expenditure, indirect_utility, profit
+from ..solve.numeric import _Fns, compile_model
+from ..errors import BudgetExceeded, DualityError, NoSolutionError
+from ..model.base import Model
+from ..solve.result import NumericWarning
+
+STATUSES = ("proved", "held", "failed", "not applicable")
+
+#: Seconds allowed for each symbolic proof attempt (at most the derivation budget).
+PROOF_BUDGET = 2.0
+
+#: Relative tolerance of numeric checks by finite-difference depth of the residual.
+TOLERANCE = {0: 1e-8, 1: 1e-5, 2: 1e-3}
+
+
+@dataclass(frozen=True)
+class CheckRecord:
+    """The outcome of one check.
+
+    Attributes
+    ----------
+    name : str
+        Short name, e.g. ``"Shephard's lemma"``.
+    statement : str
+        The property in LaTeX.
+    status : {"proved", "held", "failed", "not applicable"}
+    evidence : str
+        How the status was reached, in words.
+    max_error : float or None
+        Largest relative error over the points tried (numeric checks).
+    points : int
+        Number of points tried numerically.
+    counterexample : dict or None
+        A point (name -> value) where the check failed.
+    """
+
+    name: str
+    statement: str
+    status: str
+    evidence: str
+    max_error: float | None = None
+    points: int = 0
+    counterexample: dict | None = None
+
+    def __post_init__(self):
+        if self.status not in STATUSES:
+            raise ValueError(f"status {self.status!r} is not one of {STATUSES}")
+
+    @property
+    def ok(self) -> bool:
+        return self.status in ("proved", "held")
+
+    def to_dict(self) -> dict:
+        return {"name": self.name, "statement": self.statement, "status": self.status,
+                "evidence": self.evidence, "max_error": self.max_error,
+                "points": self.points, "counterexample": self.counterexample}
+
+    def line(self) -> str:
+        return f"[{self.status:^14}] {self.name}: {self.evidence}"
+
+
+# -- the check engine ---------------------------------------------------------------------
+@dataclass
+class _Spec:
+    """One check: residual functions (each should be zero) or a sign test."""
+
+    name: str
+    statement: str
+    residuals: Sequence[Fn] = ()
+    scale: Sequence[Fn] = ()                    # magnitude for relative errors
+    sign_test: Callable[[dict], tuple[float, float]] | None = None  # -> (violation, scale)
+    symbolic: bool = True
+    depth: int = 0
+    domain: Sequence = ()                       # sympy conditions: skip points outside
+
+
+def _is_zero(expr: sp.Expr) -> bool:
+    """Worker: does ``expr`` simplify to zero?"""
+    if expr == 0:
+        return True
+    for attempt in (lambda e: sp.simplify(e),
+                    lambda e: sp.simplify(sp.powsimp(sp.expand_power_base(
+                        sp.expand_log(e, force=True), force=True), force=True)),
+                    lambda e: sp.simplify(sp.logcombine(sp.powdenest(e, force=True),
+                                                        force=True)),
+                    # homogeneity: pull a common positive factor out of sums under powers
+                    lambda e: sp.simplify(sp.powsimp(sp.expand_power_base(sp.factor_terms(
+                        sp.expand_power_base(e, force=True)), force=True), force=True))):
+        try:
+            if attempt(expr) == 0:
+                return True
+        except Exception:  # noqa: BLE001 - a failed attempt is just not a proof
+            continue
+    return False
+
+
+def _run(spec: _Spec, points: list[dict], budget: float | None, names: dict) -> CheckRecord:
+    exprs = getattr(spec, "symbolic_exprs", None) or [r.sym for r in spec.residuals]
+    if spec.symbolic and exprs and all(e is not None for e in exprs):
+        try:
+            proved = all(run_with_budget(_is_zero, e, budget=budget) for e in exprs)
+        except BudgetExceeded:
+            proved = False
+        except Exception:  # noqa: BLE001
+            proved = False
+        if proved:
+            return CheckRecord(spec.name, spec.statement, "proved",
+                               "the residual simplifies to zero symbolically")
+    worst, worst_pt, used = 0.0, None, 0
+    tol = TOLERANCE.get(spec.depth, 1e-3)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", NumericWarning)
+        worst, worst_pt, used = _numeric_pass(spec, points)
+    skipped = len(points) - used
+    if skipped and used:
+        skipped_note = (f" ({skipped} of {len(points)} sampled points lie outside the "
+                        "region where it is defined or could not be computed)")
+    else:
+        skipped_note = ""
+    if used == 0:
+        return CheckRecord(spec.name, spec.statement, "not applicable",
+                           "no sampled point could be evaluated")
+    where = None if worst_pt is None else {names.get(k, str(k)): float(v)
+                                           for k, v in worst_pt.items()}
+    if worst <= tol:
+        return CheckRecord(spec.name, spec.statement, "held",
+                           f"held at {used} sampled points; largest relative error "
+                           f"{worst:.2g} (tolerance {tol:g}){skipped_note}", worst, used)
+    at = ", ".join(f"{k}={v:.4g}" for k, v in where.items())
+    return CheckRecord(spec.name, spec.statement, "failed",
+                       f"fails at {at}: relative error {worst:.3g} (tolerance {tol:g})",
+                       worst, used, where)
+
+
+def _numeric_pass(spec: _Spec, points: list[dict]):
+    worst, worst_pt, used = 0.0, None, 0
+    for pt in points:
+        if not _inside(spec.domain, pt):
+            continue
+        try:
+            if spec.sign_test is not None:
+                viol, scale = spec.sign_test(pt)
+                errs = [viol / max(scale, 1e-300)]
+            else:
+                errs = []
+                for k, r in enumerate(spec.residuals):
+                    s = abs(spec.scale[k](pt)) if k < len(spec.scale) else 1.0
+                    errs.append(abs(r(pt)) / max(s, 1.0 if not spec.scale else 1e-300))
+        except (DualityError, ArithmeticError, ValueError, KeyError):
+            continue
+        if any(not math.isfinite(e) for e in errs):
+            continue
+        used += 1
+        err = max(errs)
+        if err > worst:
+            worst, worst_pt = err, pt
+    return worst, worst_pt, used
+
+
+def _inside(conds, pt) -> bool:
+    for c in conds:
+        try:
+            v = c.xreplace({k: sp.Float(v) for k, v in pt.items()})
+        except Exception:  # noqa: BLE001
+            return False
+        if v is sp.false or (v is not sp.true and not bool(v)):
+            return False
+    return True
+
+
+def _na(name: str, statement: str, reason: str) -> CheckRecord:
+    return CheckRecord(name, statement, "not applicable", reason)
+
+
+def _depth(*fns: Fn) -> int:
+    return max(f.depth + (1 if f.sym is None else 0) for f in fns)
+
+
+# -- sampling -----------------------------------------------------------------------------------
+def _sample(model: Model, n: int, seed: int) -> list[dict]:
+    """Points with prices in [0.5, 3] and reachable levels; parameter values included."""
+    if not model.is_primal:
+        return _sample_dual(model, n, seed)
+    rng = np.random.default_rng(seed)
+    comp = compile_model(model)
+    pts = []
+    for _ in range(n):
+        pv = {s: model.values.get(s, float(rng.uniform(0.2, 0.6))) for s in comp.params}
+        F = _Fns(comp, tuple(pv[s] for s in comp.params))
+        x = rng.uniform(0.5, 3.0, len(model.quantities))
+        level = F.f(x)
+        for _ in range(8):  # e.g. Stone–Geary: scale up until above subsistence
+            if math.isfinite(level):
+                break
+            x = 2.0 * x
+            level = F.f(x)
+        pt = {**pv}
+        prices = rng.uniform(0.5, 3.0, len(model.prices))
+        pt.update(zip(model.prices, prices))
+        if math.isfinite(level):
+            pt[model.level] = level
+        if model.income is not None:
+            pt[model.income] = float(prices @ x)
+        if model.output_price is not None:
+            pt[model.output_price] = float(rng.uniform(1.0, 3.0))
+        pts.append(pt)
+    return pts
+
+
+def _sample_dual(model: Model, n: int, seed: int) -> list[dict]:
+    """Dual-side models: prices in [0.5, 3]; output in [0.5, 3]; income in [5, 50] and the
+    utility level it buys (u = v(p, m)), so both preference duals are checked consistently."""
+    rng = np.random.default_rng(seed)
+    v = None
+    if not model.is_technology:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            v = Fn.of(indirect_utility(model))
+    pts = []
+    for _ in range(n):
+        pt = {s: float(rng.uniform(0.2, 0.6)) for s in model.free_params}
+        pt.update(model.values)
+        pt.update(zip(model.prices, rng.uniform(0.5, 3.0, len(model.prices))))
+        if model.is_technology:
+            pt[model.level] = float(rng.uniform(0.5, 3.0))
+            pt[model.output_price] = float(rng.uniform(1.0, 3.0))
+        else:
+            pt[model.income] = float(rng.uniform(5.0, 50.0))
+            try:
+                u = v(pt)
+            except (DualityError, ArithmeticError, ValueError, KeyError):
+                u = math.nan
+            if math.isfinite(u):
+                pt[model.level] = u
+        pts.append(pt)
+    return pts
+
+
+# -- public ----------------------------------------------------------------------------------
+def check(model: Model, *, budget: float | None = DEFAULT_BUDGET, points: int | None = None,
+          seed: int = 11, symbolic: bool = True) -> list[CheckRecord]:
+    """Verify the identities and properties of every dual of ``model``.
+
+    Parameters
+    ----------
+    budget : float or None
+        Wall-clock budget of each derivation and of each symbolic proof attempt.
+    points : int, optional
+        Number of sampled points (default 20 for closed forms, 6 for numeric duals).
+    symbolic : bool
+        Try symbolic proofs first (set False for a quick numeric pass).
+    """
+    if not isinstance(model, Model):
+        raise DualityError(f"check needs a model from technology() or preference(), not "
+                           f"{type(model).__name__}")
+    names = model.symbols
+    names = {v: k for k, v in names.items()}
+    proof_budget = None if budget is None else min(budget, PROOF_BUDGET)
+    if model.is_technology:
+        specs, numeric = _technology_specs(model, budget)
+    else:
+        specs, numeric = _preference_specs(model, budget)
+    n = points if points is not None else (6 if numeric else 20)
+    pts = _sample(model, n, seed)
+    out = []
+    for spec in specs:
+        if isinstance(spec, CheckRecord):
+            out.append(spec)
+            continue
+        if not symbolic:
+            spec.symbolic = False
+        out.append(_run(spec, pts, proof_budget, names))
+    return out
+
+
+def _scaled(f: Fn, syms, t) -> Fn:
+    return f.subs({s: Fn(t * s) for s in syms})
+
+
+def _grad_checks(kind: str, main: Fn, demands: dict, prices, sign: int, lemma: str,
+                 domain) -> list[_Spec]:
+    specs = []
+    res = [main.diff(w) * sign - Fn.of(x) for (name, x), w in zip(demands.items(), prices)]
+    scale = [Fn.of(x) for x in demands.values()]
+    specs.append(_Spec(lemma, r"\partial c/\partial w_i = x_i" if kind == "cost" else
+                       (r"\partial e/\partial p_i = h_i" if kind == "expenditure" else
+                        r"-\partial \pi/\partial w_i = x_i"),
+                       res, scale, depth=_depth(main, *scale), domain=domain))
+    return specs
+
+
+def _curvature(name, statement, fns: list[list[Fn]], sign: int, domain) -> _Spec:
+    """Matrix of functions is NSD (sign=-1) or PSD (sign=+1) at each point."""
+    def test(pt):
+        M = np.array([[f(pt) for f in row] for row in fns], dtype=float)
+        M = (M + M.T) / 2
+        eig = np.linalg.eigvalsh(M) * sign
+        scale = max(np.abs(M).max(), 1e-12)
+        return max(0.0, -eig.min()) , scale
+    depth = max(_depth(f) for row in fns for f in row)
+    return _Spec(name, statement, sign_test=test, symbolic=False, depth=depth, domain=domain)
+
+
+def _symmetry(name, statement, fns: list[list[Fn]], domain) -> _Spec:
+    n = len(fns)
+    res = [fns[i][j] - fns[j][i] for i in range(n) for j in range(i + 1, n)]
+    scale = [fns[i][j] for i in range(n) for j in range(i + 1, n)]
+    if not res:
+        return None
+    return _Spec(name, statement, res, scale, depth=max(_depth(f) for f in res + scale),
+                 domain=domain)
+
+
+def _monotone(name, statement, fns: Sequence[Fn], sign: int, domain) -> _Spec:
+    def test(pt):
+        vals = np.array([f(pt) for f in fns]) * sign
+        return max(0.0, -vals.min()), max(np.abs(vals).max(), 1e-12)
+    return _Spec(name, statement, sign_test=test, symbolic=False,
+                 depth=max(_depth(f) for f in fns), domain=domain)
+
+
+def _derive_or_record(fn, model, budget, name, statement):
+    try:
+        return fn(model, budget=budget), None
+    except NoSolutionError as exc:
+        return None, _na(name, statement, exc.reason)
+
+
+def _technology_specs(model: Model, budget) -> tuple[list, bool]:
+    specs: list = []
+    c = cost(model, budget=budget)
+    ws, y = c.args[:-1], c.args[-1]
+    dom = c.conditions
+    C = Fn.of(c)
+    X = [Fn.of(x) for x in c.demands.values()]
+    specs += _grad_checks("cost", C, c.demands, ws, 1, "Shephard's lemma", dom)
+    specs.append(_Spec("cost = w·x (adding-up)", r"c(w, y) = \sum_i w_i x_i(w, y)",
+                       [C - sum((Fn(w) * x for w, x in zip(ws, X)), Fn.const(0))], [C],
+                       depth=_depth(C, *X), domain=dom))
+    if model.is_primal:
+        f = Fn(model.expr, params=model.values)
+        specs.append(_Spec("demands reach the output level", r"f(x(w, y)) = y",
+                           [f.subs(dict(zip(model.quantities, X))) - Fn(y)], [Fn(y)],
+                           depth=_depth(*X), domain=dom))
+    specs.append(_hom_spec("cost homogeneous of degree 1 in prices",
+                           r"c(t w, y) = t\, c(w, y)", C, ws, 1, dom))
+    specs.append(_hom_multi("conditional demands homogeneous of degree 0 in prices",
+                            r"x_i(t w, y) = x_i(w, y)", X, ws, 0, dom))
+    S = [[x.diff(w) for w in ws] for x in X]
+    sym = _symmetry("substitution matrix symmetric", r"\partial x_i/\partial w_j = "
+                    r"\partial x_j/\partial w_i", S, dom)
+    if sym is not None:
+        specs.append(sym)
+    specs.append(_curvature("cost concave in prices",
+                            r"\nabla^2_w c(w, y) \preceq 0", S, -1, dom))
+    specs.append(_monotone("cost non-decreasing in prices and output",
+                           r"\partial c/\partial w_i \ge 0,\ \partial c/\partial y > 0",
+                           X + [C.diff(y)], 1, dom))
+    pi, na = _derive_or_record(profit, model, budget, "Hotelling's lemma",
+                               r"\partial\pi/\partial p = y,\ -\partial\pi/\partial w_i = x_i")
+    if pi is None:
+        specs.append(na)
+        specs.append(_na("profit convex in prices", r"\nabla^2 \pi(p, w) \succeq 0",
+                         na.evidence))
+    else:
+        P = Fn.of(pi)
+        p = pi.args[0]
+        dem = pi.demands
+        Yf = Fn.of(dem[str(model.level)])
+        XF = [Fn.of(dem[str(q)]) for q in model.quantities]
+        res = [P.diff(p) - Yf] + [-P.diff(w) - xf for w, xf in zip(ws, XF)]
+        specs.append(_Spec("Hotelling's lemma",
+                           r"\partial\pi/\partial p = y,\ -\partial\pi/\partial w_i = x_i",
+                           res, [Yf] + XF, depth=_depth(P, Yf, *XF), domain=pi.conditions))
+        allp = (p,) + tuple(ws)
+        specs.append(_hom_spec("profit homogeneous of degree 1 in (p, w)",
+                               r"\pi(t p, t w) = t\, \pi(p, w)", P, allp, 1, pi.conditions))
+        grad = [P.diff(s) for s in allp]
+        specs.append(_curvature("profit convex in prices", r"\nabla^2 \pi(p, w) \succeq 0",
+                                [[g.diff(s) for s in allp] for g in grad], 1,
+                                pi.conditions))
+    return specs, c.route == "numeric"
+
+
+def _hom_spec(name, statement, f: Fn, syms, degree, domain):
+    return _hom_multi(name, statement, [f], syms, degree, domain)
+
+
+def _hom_multi(name, statement, fs: list[Fn], syms, degree, domain):
+    t = sp.Symbol("t_", positive=True)
+    tv = 1.7
+    if all(f.sym is not None for f in fs):
+        res_t = [f.subs({s: Fn(t * s) for s in syms}) - Fn(t ** degree) * f for f in fs]
+        spec = _Spec(name, statement, [r.subs({t: Fn.const(tv)}) for r in res_t], fs,
+                     depth=0, domain=domain)
+        spec.symbolic_exprs = [r.sym for r in res_t]  # type: ignore[attr-defined]
+        return spec
+    res = [f.subs({s: Fn(tv * s) for s in syms}) - f * (tv ** degree) for f in fs]
+    return _Spec(name, statement, res, fs, symbolic=False, depth=max(_depth(f) for f in fs),
+                 domain=domain)
+
+
+def _preference_specs(model: Model, budget) -> tuple[list, bool]:
+    specs: list = []
+    v = indirect_utility(model, budget=budget)
+    e = expenditure(model, budget=budget)
+    ps, m, u = v.args[:-1], v.args[-1], e.args[-1]
+    V, E = Fn.of(v), Fn.of(e)
+    X = [Fn.of(x) for x in v.demands.values()]
+    H = [Fn.of(h) for h in e.demands.values()]
+    vdom = v.conditions
+    edom = e.conditions
+    both = tuple(vdom) + tuple(edom)
+    Vm = V.diff(m)
+    specs.append(_Spec("Roy's identity", r"x_i = -\frac{\partial v/\partial p_i}"
+                       r"{\partial v/\partial m}",
+                       [-V.diff(p) / Vm - x for p, x in zip(ps, X)], X,
+                       depth=_depth(V, *X), domain=vdom))
+    specs += _grad_checks("expenditure", E, e.demands, ps, 1, "Shephard's lemma (Hicksian)",
+                          edom)
+    specs.append(_Spec("e(p, v(p, m)) = m", r"e(p, v(p, m)) = m",
+                       [E.subs({u: V}) - Fn(m)], [Fn(m)], depth=_depth(E, V), domain=vdom))
+    specs.append(_Spec("v(p, e(p, u)) = u", r"v(p, e(p, u)) = u",
+                       [V.subs({m: E}) - Fn(u)], [Fn(u)], depth=_depth(E, V), domain=edom))
+    specs.append(_Spec("budget exhausted (adding-up)", r"\sum_i p_i x_i(p, m) = m",
+                       [sum((Fn(p) * x for p, x in zip(ps, X)), Fn.const(0)) - Fn(m)],
+                       [Fn(m)], depth=_depth(*X), domain=vdom))
+    # Slutsky equation at u = v(p, m): dx_i/dp_j = dh_i/dp_j - x_j dx_i/dm
+    slutsky_res, slutsky_scale = [], []
+    for i, x in enumerate(X):
+        for j, p in enumerate(ps):
+            lhs = x.diff(p)
+            rhs = H[i].diff(p).subs({u: V}) - X[j] * x.diff(m)
+            slutsky_res.append(lhs - rhs)
+            slutsky_scale.append(x / Fn(p))
+    specs.append(_Spec("Slutsky equation", r"\frac{\partial x_i}{\partial p_j} = "
+                       r"\frac{\partial h_i}{\partial p_j} - x_j \frac{\partial x_i}{\partial m}",
+                       slutsky_res, slutsky_scale,
+                       depth=max(_depth(r) for r in slutsky_res), domain=both))
+    S = [[h.diff(p) for p in ps] for h in H]
+    sym = _symmetry("Slutsky matrix symmetric", r"\partial h_i/\partial p_j = "
+                    r"\partial h_j/\partial p_i", S, edom)
+    if sym is not None:
+        specs.append(sym)
+    specs.append(_curvature("Slutsky matrix negative semidefinite (e concave in p)",
+                            r"\nabla^2_p e(p, u) \preceq 0", S, -1, edom))
+    specs.append(_hom_spec("indirect utility homogeneous of degree 0 in (p, m)",
+                           r"v(t p, t m) = v(p, m)", V, tuple(ps) + (m,), 0, vdom))
+    specs.append(_hom_multi("Marshallian demands homogeneous of degree 0 in (p, m)",
+                            r"x_i(t p, t m) = x_i(p, m)", X, tuple(ps) + (m,), 0, vdom))
+    specs.append(_hom_spec("expenditure homogeneous of degree 1 in prices",
+                           r"e(t p, u) = t\, e(p, u)", E, ps, 1, edom))
+    specs.append(_monotone("indirect utility increasing in income, non-increasing in prices",
+                           r"\partial v/\partial m > 0,\ \partial v/\partial p_i \le 0",
+                           [Vm] + [-V.diff(p) for p in ps], 1, vdom))
+    specs.append(_monotone("expenditure increasing in utility, non-decreasing in prices",
+                           r"\partial e/\partial u > 0,\ \partial e/\partial p_i \ge 0",
+                           [E.diff(u)] + H, 1, edom))
+    return specs, v.route == "numeric" or e.route == "numeric"
+
+
+__all__ = ["check", "CheckRecord", "STATUSES"]

@@ -1,0 +1,195 @@
+"""Duals of a model given on the dual side (see :mod:`duality.model.dual_side`).
+
+* The given function itself comes back with its demand system by differentiation:
+  Shephard's lemma (cost, expenditure), Hotelling's lemma (profit), Roy's identity
+  (indirect utility).
+* The other dual of a preference by inversion: v(p, m) solves e(p, v) = m, and
+  e(p, u) solves v(p, e) = u — symbolically under the budget (verified numerically), else
+  numerically (vectorised bisection, the function being monotone in the level).
+* A cost function from a profit function: c(w, y) = max_p p·y − π(p, w), at the output
+  price where supply ∂π/∂p equals y; a profit function from a cost function goes through
+  the usual route in :mod:`duality.solve.derive`.
+"""
+from __future__ import annotations
+
+import numpy as np
+import sympy as sp
+
+from .budget import run_with_budget
+from ..errors import BudgetExceeded, NoSolutionError
+from ..model.lambdas import numpy_function
+from ..model.base import Model, _safe_eval
+from .dual_forms import DUAL_CATALOGUE
+from .result import Solution
+
+LEMMA = {"cost": "Shephard's lemma", "expenditure": "Shephard's lemma",
+         "profit": "Hotelling's lemma", "indirect_utility": "Roy's identity"}
+
+
+def dual_source(model: Model) -> str | None:
+    form = DUAL_CATALOGUE.get(model.form)
+    return None if form is None else form["source"]
+
+
+def given(model: Model):
+    """Solution of the function the model was given as, demands by its lemma."""
+    e = model.expr
+    ps = list(model.prices)
+    if model.side in ("cost", "expenditure"):
+        demands = tuple(sp.diff(e, p) for p in ps)
+        extra = {}
+    elif model.side == "profit":
+        demands = tuple(-sp.diff(e, w) for w in ps)
+        extra = {"supply": sp.diff(e, model.output_price)}
+    else:
+        vm = sp.diff(e, model.income)
+        demands = tuple(-sp.diff(e, p) / vm for p in ps)
+        extra = {}
+    src = dual_source(model)
+    route = "catalogue" if src else "symbolic"
+    what = model.form.replace("_", " ") + " " if model.form else ""
+    method = (f"given as a {what}{model.side.replace('_', ' ')} function; demands by "
+              f"{LEMMA[model.side]}")
+    return Solution(e, demands, route, method, src, (), (), extra)
+
+
+def _sample(model: Model, n: int = 6, seed: int = 3):
+    rng = np.random.default_rng(seed)
+    pts = []
+    for _ in range(n):
+        pt = {s: model.values.get(s, float(rng.uniform(0.2, 0.6))) for s in model.free_params}
+        pt.update({s: v for s, v in model.values.items()})
+        pt.update(zip(model.prices, rng.uniform(0.5, 3.0, len(model.prices))))
+        pts.append(pt)
+    return pts
+
+
+def _fn(expr, syms):
+    return numpy_function(syms, expr)
+
+
+def _invert_worker(expr, var, target):
+    return [s for s in sp.solve(sp.Eq(expr, target), var) if s.is_real is not False]
+
+
+def invert(model: Model, expr, var, target, budget, notes: list, label: str):
+    """Closed-form solutions of expr(var) = target, verified numerically; or None."""
+    try:
+        cands = run_with_budget(_invert_worker, expr, var, target, budget=budget)
+    except BudgetExceeded:
+        notes.append(f"solving {label} did not finish within the budget")
+        return None
+    except Exception as exc:  # noqa: BLE001 - a failed solve is a note
+        notes.append(f"solving {label} failed: {type(exc).__name__}: {exc}")
+        return None
+    syms = sorted((expr.free_symbols | {target}) - {var}, key=str)
+    f = _fn(expr, [var] + syms)
+    for cand in cands:
+        g = _fn(cand, syms)
+        ok = True
+        for pt in _sample(model):
+            pt = dict(pt)
+            pt[target] = float(np.random.default_rng(len(pt)).uniform(1.0, 3.0)) \
+                if target.is_positive else 0.7
+            with np.errstate(all="ignore"):
+                try:
+                    val = complex(g(*[pt[s] for s in syms]))
+                    back = complex(f(val.real, *[pt[s] for s in syms]))
+                except (ArithmeticError, ValueError, TypeError, KeyError):
+                    ok = False
+                    break
+            if (abs(val.imag) > 1e-9 * (1 + abs(val.real)) or
+                    not abs(back - pt[target]) <= 1e-8 * (1 + abs(pt[target]))):
+                ok = False
+                break
+        if ok:
+            return cand
+    notes.append(f"no closed-form solution of {label} passed the numeric check")
+    return None
+
+
+def bisect_increasing(fn, target, lo, hi, *, log=False, iters: int = 200):
+    """Vectorised bisection for fn(x) = target with fn increasing; NaN where unbracketed."""
+    target = np.asarray(target, float)
+    shape = target.shape
+    lo = np.full(shape, lo, float)
+    hi = np.full(shape, hi, float)
+    tr = (lambda z: np.exp(z)) if log else (lambda z: z)
+    for _ in range(80):  # widen
+        with np.errstate(all="ignore"):
+            flo, fhi = fn(tr(lo)), fn(tr(hi))
+        need_lo = ~(flo <= target)
+        need_hi = ~(fhi >= target)
+        if not (need_lo.any() or need_hi.any()):
+            break
+        lo = np.where(need_lo, lo - (2.0 if log else np.maximum(1.0, np.abs(lo))), lo)
+        hi = np.where(need_hi, hi + (2.0 if log else np.maximum(1.0, np.abs(hi))), hi)
+    with np.errstate(all="ignore"):
+        ok = (fn(tr(lo)) <= target) & (fn(tr(hi)) >= target)
+    for _ in range(iters):
+        mid = 0.5 * (lo + hi)
+        with np.errstate(all="ignore"):
+            up = fn(tr(mid)) >= target
+        hi = np.where(up, mid, hi)
+        lo = np.where(up, lo, mid)
+        if np.all(np.abs(hi - lo) <= 1e-15 * np.maximum(1.0, np.abs(hi))):
+            break
+    out = tr(0.5 * (lo + hi))
+    return np.where(ok, out, np.nan)
+
+
+def numeric_inverse(model: Model, expr, var, target, demand_exprs, *, log: bool):
+    """Numeric evaluators: value(point) solving expr(var) = target, and demands there.
+
+    ``demand_exprs`` are expressions in ``var`` and the other arguments (e.g. Marshallian
+    demands in (p, m) for Hicksian demands at m = e(p, u)).
+    """
+    params = dict(model.values)
+    e = expr.xreplace(params)
+    rest_syms = sorted(e.free_symbols - {var}, key=str)
+    f = _fn(e, [var] + rest_syms)
+    dex = [d.xreplace(params) for d in demand_exprs]
+    dsyms = [sorted(d.free_symbols, key=str) for d in dex]
+    ds = [_fn(d, syms) for d, syms in zip(dex, dsyms)]
+
+    def solve(point):
+        shape = np.broadcast(*[np.asarray(v) for v in point.values()]).shape
+        vals = {k: np.broadcast_to(np.asarray(v, float), shape) for k, v in point.items()}
+        rest = [vals[s] for s in rest_syms]
+        start = (0.0, 1.0) if log else (-1.0, 1.0)
+        x = bisect_increasing(lambda z: f(z, *rest), vals[target], *start, log=log)
+        return x, vals
+
+    def value(point):
+        return solve(point)[0]
+
+    def demand(i):
+        def run(point):
+            x, vals = solve(point)
+            sub = {**vals, var: x}
+            return ds[i](*[sub[s] for s in dsyms[i]])
+        return run
+    return value, [demand(i) for i in range(len(dex))]
+
+
+def check_monotone_level(model: Model, expr, var, why: str = "") -> None:
+    """The given function must increase in its level argument for an inversion.
+
+    Raises NoSolutionError (the other dual does not exist) with ``why`` appended."""
+    d = sp.diff(expr, var).xreplace(model.values)
+    syms = sorted(d.free_symbols, key=str)
+    fn = _fn(d, syms)
+    rng = np.random.default_rng(1)
+    for _ in range(6):
+        vals = rng.uniform(0.5, 3.0, len(syms))
+        v = _safe_eval(fn, vals)
+        if v is not None and v <= 0:
+            at = ", ".join(f"{s}={x:.3g}" for s, x in zip(syms, vals))
+            raise NoSolutionError(why.format(at=at) if why else
+                                  f"the given function does not increase in {var} at {at}; "
+                                  "it cannot be inverted for the other dual")
+
+
+__all__ = ["given", "invert", "numeric_inverse", "bisect_increasing", "dual_source",
+           "check_monotone_level", "LEMMA"]
+

@@ -1,0 +1,178 @@
+"""Catalogue of flexible forms written on the dual side, each with its published source.
+
+Builders return dual-side models (:mod:`duality.model.dual_side`) whose parameters follow one
+naming scheme (``a0, a1, …`` first-order, ``g11, g12, …`` second-order with ``i <= j``,
+symmetric by construction; output terms ``ay, gyy, g1y, …``; AIDS ``b0, b1, …``).
+Parameters not given a value stay free (symbolic).  The theory restrictions
+(homogeneity, adding-up) are not built in: :func:`duality.analyse.restrictions` derives them from
+the formula, checks values against them and imposes them.
+
+* translog cost — Christensen, Jorgenson and Lau (1973):
+  ln c = a0 + Σ a_i ln w_i + ½ ΣΣ g_ij ln w_i ln w_j + ay ln y + ½ gyy (ln y)²
+  + Σ g_iy ln w_i ln y
+* generalized Leontief cost — Diewert (1971):  c = y ΣΣ b_ij (w_i w_j)^{1/2}
+* Almost Ideal expenditure — Deaton and Muellbauer (1980):
+  ln e(p, u) = ln a(p) + u b(p),  ln a = a0 + Σ a_k ln p_k + ½ ΣΣ g_kj ln p_k ln p_j,
+  b = b0 Π p_k^{b_k};  budget shares w_i = a_i + Σ_j g_ij ln p_j + b_i ln(m / a(p)),
+  or with Stone's index ln P* = Σ_k w_k ln p_k in place of ln a(p).
+"""
+from __future__ import annotations
+
+from typing import Mapping, Sequence
+
+import sympy as sp
+
+from ..model.dual_side import cost_function, expenditure_function
+from ..errors import ModelError
+from ..model.base import Model
+
+DUAL_CATALOGUE: dict[str, dict] = {
+    "translog_cost": {
+        "title": "translog cost function",
+        "source": "Christensen, Jorgenson and Lau, 'Transcendental logarithmic production "
+                  "frontiers', Review of Economics and Statistics 55 (1973) (from memory)"},
+    "generalized_leontief_cost": {
+        "title": "generalized Leontief cost function",
+        "source": "Diewert, 'An application of the Shephard duality theorem: a generalized "
+                  "Leontief production function', Journal of Political Economy 79 (1971) "
+                  "(from memory)"},
+    "aids_expenditure": {
+        "title": "Almost Ideal expenditure function",
+        "source": "Deaton and Muellbauer, 'An almost ideal demand system', American "
+                  "Economic Review 70 (1980) (from memory)"},
+}
+
+
+def _names(n_or_names, letter: str) -> list[str]:
+    if isinstance(n_or_names, int):
+        if n_or_names < 2:
+            raise ModelError("a flexible form needs at least two prices")
+        return [f"{letter}{i + 1}" for i in range(n_or_names)]
+    names = list(n_or_names)
+    if len(names) < 2:
+        raise ModelError("a flexible form needs at least two prices")
+    return names
+
+
+def _params(names: Sequence[str], given: Mapping[str, float | None] | None) -> dict:
+    given = dict(given or {})
+    unknown = sorted(set(given) - set(names))
+    if unknown:
+        raise ModelError(f"unknown parameter(s) {', '.join(unknown)}; this form has "
+                         f"{', '.join(names)}")
+    return {k: given.get(k) for k in names}
+
+
+def _quadratic(logs: Sequence[str], idx: Sequence[str], prefix: str) -> tuple[str, list[str]]:
+    """½ ΣΣ g_ij L_i L_j with symmetric g (i <= j) as text, and the parameter names."""
+    terms, names = [], []
+    n = len(logs)
+    for i in range(n):
+        for j in range(i, n):
+            g = f"{prefix}{idx[i]}{idx[j]}"
+            names.append(g)
+            terms.append(f"1/2*{g}*{logs[i]}^2" if i == j else f"{g}*{logs[i]}*{logs[j]}")
+    return " + ".join(terms), names
+
+
+def translog_cost(prices=2, *, output: str = "y", params=None, quantities=None,
+                  name: str = "") -> Model:
+    """Translog cost function c(w, y) (Christensen, Jorgenson and Lau 1973).
+
+    Parameters
+    ----------
+    prices : int or sequence of str
+        Number of inputs (prices ``w1..wn``) or the price names.
+    params : mapping, optional
+        Values for ``a0, a1.., g11, g12.., ay, gyy, g1y..``; others stay free.
+    """
+    ps = _names(prices, "w")
+    idx = [str(i + 1) for i in range(len(ps))]
+    L = [f"log({p})" for p in ps]
+    quad, gnames = _quadratic(L, idx, "g")
+    first = " + ".join(f"a{i}*{l}" for i, l in zip(idx, L))
+    ly = f"log({output})"
+    out_terms = f"ay*{ly} + 1/2*gyy*{ly}^2 + " + " + ".join(
+        f"g{i}y*{l}*{ly}" for i, l in zip(idx, L))
+    formula = f"exp(a0 + {first} + {quad} + {out_terms})"
+    names = (["a0"] + [f"a{i}" for i in idx] + gnames + ["ay", "gyy"]
+             + [f"g{i}y" for i in idx])
+    return cost_function(formula, ps, quantities, output=output, params=_params(names, params),
+                         name=name or "translog cost", form="translog_cost")
+
+
+def generalized_leontief_cost(prices=2, *, output: str = "y", params=None, quantities=None,
+                              name: str = "") -> Model:
+    """Generalized Leontief cost function c = y ΣΣ b_ij (w_i w_j)^{1/2} (Diewert 1971),
+    with b_ij = b_ji (parameters ``b11, b12, …`` for i <= j)."""
+    ps = _names(prices, "w")
+    idx = [str(i + 1) for i in range(len(ps))]
+    terms, names = [], []
+    for i in range(len(ps)):
+        for j in range(i, len(ps)):
+            b = f"b{idx[i]}{idx[j]}"
+            names.append(b)
+            terms.append(f"{b}*{ps[i]}" if i == j else f"2*{b}*sqrt({ps[i]}*{ps[j]})")
+    formula = f"{output}*({' + '.join(terms)})"
+    return cost_function(formula, ps, quantities, output=output, params=_params(names, params),
+                         name=name or "generalized Leontief cost",
+                         form="generalized_leontief_cost")
+
+
+def aids_expenditure(prices=2, *, utility: str = "u", income: str = "m", params=None,
+                     goods=None, name: str = "") -> Model:
+    """Almost Ideal expenditure function (Deaton and Muellbauer 1980).
+
+    ln e = a0 + Σ a_k ln p_k + ½ ΣΣ g_kj ln p_k ln p_j + u·b0·Π p_k^{b_k}
+    (symmetric g: parameters ``g11, g12, …`` for k <= j).
+    """
+    ps = _names(prices, "p")
+    idx = [str(i + 1) for i in range(len(ps))]
+    L = [f"log({p})" for p in ps]
+    quad, gnames = _quadratic(L, idx, "g")
+    first = " + ".join(f"a{i}*{l}" for i, l in zip(idx, L))
+    prod = "*".join(f"{p}^b{i}" for i, p in zip(idx, ps))
+    formula = f"exp(a0 + {first} + {quad} + {utility}*b0*{prod})"
+    names = ["a0"] + [f"a{i}" for i in idx] + gnames + ["b0"] + [f"b{i}" for i in idx]
+    return expenditure_function(formula, ps, goods, utility=utility, income=income,
+                                params=_params(names, params),
+                                name=name or "Almost Ideal demand system",
+                                form="aids_expenditure")
+
+
+def aids_share_equations(model: Model, *, index: str = "exact",
+                         observed: Sequence[str] | None = None) -> list[sp.Expr]:
+    """Budget-share equations of an AIDS model, in prices, income and parameters.
+
+    ``index="exact"`` uses ln P = ln a(p) (the model's own price index); ``"stone"`` uses
+    Stone's index ln P* = Σ_k w_k ln p_k with observed shares ``w_k`` (symbols named by
+    ``observed``, default ``s1, s2, …``), the linear approximation common in estimation.
+    """
+    if model.form != "aids_expenditure":
+        raise ModelError("share equations of this kind need a model from aids_expenditure()")
+    if index not in ("exact", "stone"):
+        raise ModelError(f"index {index!r} is not one of exact, stone")
+    ps = list(model.prices)
+    sym = {p.name: p.symbol for p in model.params}
+    n = len(ps)
+    m = model.income
+    lnp = [sp.log(p) for p in ps]
+
+    def g(i, j):
+        a, b = sorted((i, j))
+        return sym[f"g{a + 1}{b + 1}"]
+    if index == "exact":
+        lnP = sym["a0"] + sum(sym[f"a{k + 1}"] * lnp[k] for k in range(n)) + sp.Rational(1, 2) * \
+            sum(g(k, j) * lnp[k] * lnp[j] for k in range(n) for j in range(n))
+    else:
+        names = list(observed) if observed is not None else [f"s{k + 1}" for k in range(n)]
+        if len(names) != n:
+            raise ModelError(f"{n} goods but {len(names)} observed share names")
+        shares = [sp.Symbol(s, real=True) for s in names]
+        lnP = sum(s * l for s, l in zip(shares, lnp))
+    return [sym[f"a{i + 1}"] + sum(g(i, j) * lnp[j] for j in range(n))
+            + sym[f"b{i + 1}"] * (sp.log(m) - lnP) for i in range(n)]
+
+
+__all__ = ["DUAL_CATALOGUE", "translog_cost", "generalized_leontief_cost", "aids_expenditure",
+           "aids_share_equations"]

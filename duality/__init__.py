@@ -63,6 +63,8 @@ def _register_former_paths() -> None:
     for old, new in _FORMER_PATHS.items():
         module = importlib.import_module(f"{__name__}.{new}")
         sys.modules.setdefault(f"{__name__}.{old}", module)
+        if old not in globals():  # ``dy.export.TARGETS``; never shadows a function (evaluate)
+            globals()[old] = module
 
 
 _register_former_paths()

@@ -160,7 +160,7 @@ def test_conjugate_view_draws_and_gives_the_closed_form(app):
 def test_export_view_offers_every_target_and_the_scenario(app):
     _show(app, "Export & save")
     labels = [b.label for b in app.get("download_button")]
-    for target in dy.export.TARGETS:
+    for target in dy.apply.export.TARGETS:
         assert any(label.startswith(f"{target} — ") for label in labels), target
     assert any(label.startswith("scenario") for label in labels)
 
@@ -275,4 +275,4 @@ def test_every_export_download_has_its_own_file_name(app):
     # labels read "<target> — <file name>"; latex and latex-document once shared one name
     names = [b.label.split(" — ")[1] for b in app.get("download_button")
              if not b.label.startswith("scenario")]
-    assert len(names) == len(dy.export.TARGETS) == len(set(names)), names
+    assert len(names) == len(dy.apply.export.TARGETS) == len(set(names)), names

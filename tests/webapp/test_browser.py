@@ -167,16 +167,23 @@ def test_switch_scenario(page):
 
 
 def test_edit_a_parameter_and_see_the_dual_change(page):
-    before = metric_values(page)[0]
+    from playwright.sync_api import TimeoutError as PageTimeout
+
     box = page.get_by_role("spinbutton", name="A", exact=True)
     box.fill("2.4")
     box.press("Enter")
-    page.wait_for_function(
-        "(old) => { const m = document.querySelector('[data-testid=\"stMetricValue\"]');"
-        " return m && m.innerText !== old; }", arg=before)
+    want = _pottery_cost(2.4)
+    # wait for the new value itself: a rerun may show intermediate values first
+    try:
+        page.wait_for_function(
+            "(want) => { const m = document.querySelector('[data-testid=\"stMetricValue\"]');"
+            " return m && Math.abs(parseFloat(m.innerText.replace(/,/g, '')) - want)"
+            " <= 1e-5 * want; }", arg=want)
+    except PageTimeout:
+        pass  # the assertion below reports what the page shows
     wait_idle(page)
     after = float(metric_values(page)[0].replace(",", ""))
-    assert after == pytest.approx(_pottery_cost(2.4), rel=1e-5)
+    assert after == pytest.approx(want, rel=1e-5)
 
 
 def test_numeric_fallback(page):

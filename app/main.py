@@ -26,6 +26,6 @@ def _options() -> None:
         os.environ.setdefault("DUALITY_APP_SAVE_DIR", known.save_dir)
 
 
-st.set_page_config(page_title="duality · dual desk", page_icon="⚖️", layout="wide")
+st.set_page_config(page_title="duality: primal and dual functions", layout="wide")
 _options()
 views.run()

@@ -96,8 +96,7 @@ def _load_pick(entries) -> None:
 def _source_picker() -> None:
     ss = st.session_state
     side = st.sidebar
-    side.markdown('<div class="dy-brand">duality<span> ·</span> dual desk</div>',
-                  unsafe_allow_html=True)
+    side.markdown('<div class="dy-brand">duality</div>', unsafe_allow_html=True)
     side.caption("From a production or utility function to its duals, demands, "
                  "elasticities and checks.")
     how = side.radio("Model from", ["Demo scenario", "Upload a scenario", "Type a formula"],
@@ -283,6 +282,11 @@ def view_elasticities(model) -> None:
                                              .capitalize()), key="el_heat")
 
 
+#: check status → a mark from the icon font Streamlit ships (no colour-emoji font needed)
+STATUS_ICONS = {"proved": ":material/verified:", "held": ":material/check:",
+                "failed": ":material/close:"}
+
+
 def view_checks(model) -> None:
     proofs = st.toggle("Try symbolic proofs first (slower; otherwise sampled points only)",
                        value=True, key="ck_proofs")
@@ -292,8 +296,8 @@ def view_checks(model) -> None:
     counts = pd.Series([r.status for r in recs]).value_counts()
     st.markdown(" · ".join(f"**{n}** {s}" for s, n in counts.items()))
     for r in recs:
-        icon = {"proved": "✅", "held": "☑️", "failed": "❌"}.get(r.status, "➖")
-        with st.expander(f"{icon} {r.name} — {r.status}", expanded=r.status == "failed"):
+        with st.expander(f"{r.name} — {r.status}", expanded=r.status == "failed",
+                         icon=STATUS_ICONS.get(r.status, ":material/remove:")):
             if r.statement:
                 st.latex(r.statement)
             st.write(r.evidence)

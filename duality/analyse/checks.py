@@ -82,7 +82,7 @@ class CheckRecord:
                 "points": self.points, "counterexample": self.counterexample}
 
     def line(self) -> str:
-        return f"[{self.status:^14}] {self.name}: {self.evidence}"
+        return f"{self.name} — {self.status.upper()}: {self.evidence}"
 
 
 # -- the check engine ---------------------------------------------------------------------

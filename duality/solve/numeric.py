@@ -29,6 +29,7 @@ from ..errors import NoSolutionError
 from ..model.base import Model
 from ..model.lambdas import numpy_function
 from . import batch
+from .domain import CODES, REASONS, code, explain, level_floor, model_domain
 from .result import NumericWarning
 
 #: First-order conditions must hold to this (relative) accuracy for a point to count.
@@ -71,8 +72,10 @@ def compile_model(model: Model) -> Compiled:
 class _Fns:
     """Evaluators of f, ∇f, ∇²f at one parameter point, safe against overflow."""
 
-    def __init__(self, comp: Compiled, pvals: tuple[float, ...]):
+    def __init__(self, comp: Compiled, pvals: tuple[float, ...], lower=None):
         self.c, self.p = comp, pvals
+        #: the domain's lower bounds at these parameter values (None: all zero)
+        self.lower = None if lower is None or not np.any(lower) else np.asarray(lower, float)
 
     def f(self, x):
         with np.errstate(all="ignore"):
@@ -92,12 +95,14 @@ class _Fns:
 
 # -- spending: min w·x s.t. f(x) = level ----------------------------------------------
 def _start_on_level(F: _Fns, w: np.ndarray, level: float) -> np.ndarray | None:
-    """A point on the ray x = t/w where f(x) = level (bisection in log t)."""
+    """A point on the ray x = L + t/w where f(x) = level (bisection in log t; L is the
+    domain's lower corner)."""
     base = 1.0 / w
     base = base / base.sum()
+    corner = 0.0 if F.lower is None else F.lower
 
     def gap(s):
-        v = F.f(np.exp(s) * base)
+        v = F.f(corner + np.exp(s) * base)
         return v - level if math.isfinite(v) else math.nan
 
     lo, hi = -2.0, 2.0
@@ -105,7 +110,7 @@ def _start_on_level(F: _Fns, w: np.ndarray, level: float) -> np.ndarray | None:
         glo, ghi = gap(lo), gap(hi)
         if math.isfinite(glo) and math.isfinite(ghi) and glo <= 0 <= ghi:
             s = optimize.brentq(gap, lo, hi, xtol=1e-14, rtol=1e-14, maxiter=200)
-            return np.exp(s) * base
+            return corner + np.exp(s) * base
         if not math.isfinite(glo) or glo > 0:
             lo -= 2.0
         if not math.isfinite(ghi) or ghi < 0:
@@ -190,6 +195,11 @@ def utility_point(F: _Fns, p: np.ndarray, m: float) -> tuple[float, np.ndarray, 
     """Maximal utility and the bundle bought at prices ``p`` and income ``m``."""
     n = len(p)
     x0 = m / (n * p)
+    if F.lower is not None:  # start inside the domain: its corner plus an equal share
+        left = m - float(p @ F.lower)
+        if not left > 0:
+            return math.nan, np.full(n, math.nan), False
+        x0 = F.lower + left / (n * p)
     fscale = max(abs(F.f(x0)), 1.0)
 
     def obj(z):
@@ -249,7 +259,8 @@ def profit_point(F: _Fns, price: float, w: np.ndarray) -> tuple[float, float, np
 
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        res = optimize.minimize(obj, np.zeros(n), jac=obj_grad, method="BFGS",
+        z0 = np.zeros(n) if F.lower is None else np.log(F.lower + 1.0)
+        res = optimize.minimize(obj, z0, jac=obj_grad, method="BFGS",
                                 options={"gtol": 1e-12, "maxiter": 2000})
     z = res.x
     if not np.all(np.isfinite(z)) or np.abs(z).max() > 300:
@@ -337,8 +348,8 @@ class Batch:
         out = self._last
         bad = int((~out["ok"]).sum())
         if bad:
-            warnings.warn(f"the numeric solver did not converge at {bad} of "
-                          f"{out['ok'].size} point(s); those are returned as NaN",
+            warnings.warn(f"no numeric solution at {bad} of {out['ok'].size} point(s), "
+                          f"returned as NaN: {explain(out['reason'])}",
                           NumericWarning, stacklevel=3)
         return out
 
@@ -362,9 +373,12 @@ class Batch:
         value, X = res.value.copy(), res.quantities.copy()
         Y = None if res.output is None else res.output.copy()
         ok = res.converged.copy()
+        dom = self.comp_domain
+        lower = dom.lower(params, ok.size) if dom.has_bounds else None
         # points the batched Newton could not finish: one careful solve each
         for k in np.flatnonzero(~ok)[:RESCUE_LIMIT]:
-            F = _Fns(self.comp, tuple(float(p[k]) for p in params))
+            F = _Fns(self.comp, tuple(float(p[k]) for p in params),
+                     None if lower is None else lower[k])
             if self.kind == "spending":
                 value[k], X[k], ok[k] = spending_point(F, prices[k], float(flat[m.level][k]))
             elif self.kind == "utility":
@@ -372,13 +386,90 @@ class Batch:
             else:
                 value[k], Y[k], X[k], ok[k] = profit_point(
                     F, float(flat[m.output_price][k]), prices[k])
+        reason = self._check(flat, prices, params, value, X, Y, ok, lower)
         ys = np.full(ok.size, np.nan) if Y is None else Y
         return {"value": value.reshape(shape), "x": [X[:, i].reshape(shape)
                                                      for i in range(X.shape[1])],
                 "y": ys.reshape(shape), "ok": ok.reshape(shape),
+                "reason": reason.reshape(shape),
                 "iterations": res.iterations.reshape(shape),
                 "residual": res.residual.reshape(shape)}
 
+    @property
+    def comp_domain(self):
+        return model_domain(self.model)
 
-__all__ = ["Batch", "compile_model", "spending_point", "utility_point", "profit_point",
+    def _check(self, flat, prices, params, value, X, Y, ok, lower) -> np.ndarray:
+        """Check every returned point (inside the domain, on its constraint); give each
+        point a reason code (:data:`~duality.solve.domain.REASONS`) and make every point
+        that fails NaN.  Profit gets the shut-down option.  Works in place."""
+        m, dom = self.model, self.comp_domain
+        N = ok.size
+        reason = np.where(ok, code("ok"), code("not_converged")).astype(np.int8)
+        inside = dom.contains(np.where(ok[:, None], X, 1.0), params) | ~ok
+        reason[~inside] = code("outside_domain")
+        bcomp = batch.compiled(m)
+        safe = np.where(ok[:, None] & inside[:, None], X, 1.0)
+        with np.errstate(all="ignore"):
+            if self.kind == "spending":
+                level = flat[m.level]
+                fx = bcomp.f(safe, params)
+                feasible = np.abs(fx - level) <= 1e-8 * (1 + np.abs(level))
+            elif self.kind == "utility":
+                income = flat[m.income]
+                spent = np.einsum("ij,ij->i", prices, safe)
+                feasible = np.abs(spent - income) <= 1e-8 * income
+            else:
+                feasible = np.ones(N, dtype=bool)
+        reason[ok & inside & ~feasible] = code("infeasible")
+        failed = reason != code("ok")
+        # why a point never converged, where that can be told
+        if self.kind == "spending":
+            floor = self._floor(params, N)
+            reason[failed & ~ok & (flat[m.level] <= floor)] = code("below_range")
+        elif self.kind == "utility" and lower is not None:
+            with np.errstate(all="ignore"):
+                short = flat[m.income] <= np.einsum("ij,ij->i", prices, lower)
+            reason[failed & ~ok & short] = code("income_short")
+        elif self.kind == "profit":
+            self._shut_down(flat, prices, params, value, X, Y, reason, lower)
+            failed = reason != code("ok")
+        value[failed] = np.nan
+        X[failed] = np.nan
+        if Y is not None:
+            Y[failed] = np.nan
+        ok &= ~failed
+        return reason
+
+    def _floor(self, params, N) -> np.ndarray:
+        """Per point, the infimum of f on the domain (−inf where it cannot be read)."""
+        m = self.model
+        if not params or all(np.ptp(p) == 0 for p in params):
+            vals = {s: float(p[0]) for s, p in zip(self.comp.params, params)} if params \
+                else {}
+            fl = level_floor(m, {**m.values, **vals})
+            return np.full(N, -np.inf if fl is None else fl)
+        return np.full(N, -np.inf)
+
+    def _shut_down(self, flat, prices, params, value, X, Y, reason, lower) -> None:
+        """π ≥ p·f(0) when x = 0 is in the domain: a point whose interior optimum earns
+        less becomes the shut-down point (y = f(0), x = 0); a point with no interior
+        maximum is unavailable (the shut-down value is only a lower bound there)."""
+        if lower is not None:
+            return                              # x = 0 is outside the domain
+        m = self.model
+        N = value.size
+        zero = np.zeros((N, len(m.quantities)))
+        f0 = batch.compiled(m).f(zero, params)
+        if not np.all(np.isfinite(f0)):
+            return
+        price = flat[m.output_price]
+        shut = price * f0
+        okk = reason == code("ok")
+        down = okk & (value < shut)
+        value[down], Y[down], X[down] = shut[down], f0[down], 0.0
+        reason[~okk & (reason == code("not_converged"))] = code("no_interior_max")
+
+
+__all__ = ["Batch", "REASONS", "CODES", "compile_model", "spending_point", "utility_point", "profit_point",
            "KKT_TOL", "SOLVER"]

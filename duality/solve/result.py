@@ -18,6 +18,7 @@ import sympy as sp
 
 from ..errors import DomainError, DualityError
 from ..model.lambdas import numpy_function
+from .domain import CODES, REASONS
 
 ROUTES = ("catalogue", "symbolic", "numeric")
 
@@ -219,13 +220,27 @@ class Derived:
         if scalar:
             if not np.isfinite(out).all() and not bad.any():
                 if self.route == "numeric":
+                    why = self._numeric_reason(point)
                     raise DomainError(
                         f"the numeric solver found no interior optimum for the {self.label} "
                         "at this point (the optimum may be a corner solution, or may not "
-                        "exist at these prices)")
+                        "exist at these prices)" if why is None else
+                        f"no numeric value of the {self.label} at this point: {why}")
                 raise DomainError(f"the {self.label} has no finite value at this point")
             return float(out.reshape(-1)[0])
         return out
+
+    def _numeric_reason(self, point: dict) -> str | None:
+        """The solver's reason (:data:`duality.solve.domain.REASONS`) at a scalar point."""
+        if self.solver is None:
+            return None
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", NumericWarning)
+            out = self.solver(point)
+        codes = out.get("reason") if isinstance(out, dict) else None
+        if codes is None:
+            return None
+        return REASONS[CODES[int(np.asarray(codes).reshape(-1)[0])]]
 
     def solver_report(self, **values) -> dict[str, np.ndarray]:
         """Per point, how the numeric solver did: ``iterations``, ``residual`` (max-norm
@@ -240,8 +255,11 @@ class Derived:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", NumericWarning)
             out = self.solver(point)
-        return {"iterations": out["iterations"], "residual": out["residual"],
-                "converged": out["ok"]}
+        rep = {"iterations": out["iterations"], "residual": out["residual"],
+               "converged": out["ok"]}
+        if "reason" in out:
+            rep["reason"] = np.asarray(CODES, dtype=object)[np.asarray(out["reason"], int)]
+        return rep
 
     def _point(self, values: Mapping[str, object]) -> tuple[dict, bool]:
         names = {str(a): a for a in self.args}

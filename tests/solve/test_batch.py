@@ -116,7 +116,7 @@ def test_non_convergent_points_are_reported_not_returned(rng):
     c = dy.cost(t, budget=1)
     rep = c.solver_report(w1=np.array([1.0, 2.0]), w2=1.0, y=4.0)
     assert not rep["converged"].any()
-    with pytest.warns(dy.NumericWarning, match="did not converge at 2 of 2"):
+    with pytest.warns(dy.NumericWarning, match="no numeric solution at 2 of 2"):
         c(w1=np.array([1.0, 2.0]), w2=1.0, y=4.0)
 
 

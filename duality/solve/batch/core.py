@@ -12,6 +12,7 @@ import sympy as sp
 
 from ...model.lambdas import BufferedFunction, numpy_function
 from ...model.base import Model
+from ..domain import model_domain
 
 
 #: Residual (max-norm, in logs) under which a point counts as converged.
@@ -77,6 +78,8 @@ class Compiled:
         self._fgh = numpy_function(args, [f] + grad + hess, cse=True)  # shared subexpressions
         self._exprs = (xs, args, f, grad, hess)
         self._kernels = None
+        #: where f is defined (log arguments, fractional-power bases; lower bounds)
+        self.domain = model_domain(model)
 
     @property
     def kernels(self):
@@ -201,29 +204,45 @@ def _level_res(f, y):
     return out, pos
 
 
-def start_on_level(comp: Compiled, W, Y, P):
-    """Points on the ray x = t·(1/w)/Σ(1/w) with f(x) = y.
+def _ray(comp: Compiled, W, P):
+    """The start ray of each point: its corner L (the domain's lower bounds, 0 for most
+    functions) and direction (1/w)/Σ(1/w); the ray is x = L + t·direction."""
+    with np.errstate(all="ignore"):
+        base = (1.0 / W) / (1.0 / W).sum(axis=1, keepdims=True)
+    if not comp.domain.has_bounds:
+        return None, base
+    return comp.domain.lower(P, W.shape[0]), base
 
-    Newton steps in s = log t (f increases along the ray, so d log f/ds = ∇f·x / f > 0)
+
+def start_on_level(comp: Compiled, W, Y, P):
+    """Points on the ray x = L + t·(1/w)/Σ(1/w) with f(x) = y (L: the domain's lower
+    bounds, so the start lies inside the domain).
+
+    Newton steps in s = log t (f increases along the ray, so d log f/ds = ∇f·(x−L) / f > 0)
     for every point at once; points where that fails are bracketed and bisected.
     Returns the start points and a mask of the points where the level was reached.
     """
-    with np.errstate(all="ignore"):
-        base = (1.0 / W) / (1.0 / W).sum(axis=1, keepdims=True)
+    L, base = _ray(comp, W, P)
     N = W.shape[0]
+
+    def on_ray(s_):
+        X_ = np.exp(s_)[:, None] * base
+        return X_ if L is None else L + X_
+
     s = np.zeros(N)
     pos = Y > 0
     for _ in range(30):
-        X = np.exp(s)[:, None] * base
+        X = on_ray(s)
         f, G = comp.fg(X, P)
+        D = X if L is None else X - L
         with np.errstate(all="ignore"):
             r = np.where(pos, np.log(f) - np.log(np.where(pos, Y, 1.0)), f - Y)
-            d = np.where(pos, np.einsum("ij,ij->i", G, X) / f, np.einsum("ij,ij->i", G, X))
+            d = np.where(pos, np.einsum("ij,ij->i", G, D) / f, np.einsum("ij,ij->i", G, D))
             step = np.clip(r / d, -RAY_STEP, RAY_STEP)
         if np.all(np.abs(r) < 1e-6):  # a start point only: Newton on the KKT finishes
             break
         s = np.where(np.isfinite(step), s - step, s)
-    X = np.exp(s)[:, None] * base
+    X = on_ray(s)
     f = comp.f(X, P)
     with np.errstate(all="ignore"):
         good = np.abs(np.where(pos, np.log(f) - np.log(np.where(pos, Y, 1.0)), f - Y)) < 1e-4
@@ -235,13 +254,16 @@ def start_on_level(comp: Compiled, W, Y, P):
 
 
 def _bisect_on_level(comp: Compiled, W, Y, P, iters: int = 80):
-    with np.errstate(all="ignore"):
-        base = (1.0 / W) / (1.0 / W).sum(axis=1, keepdims=True)
+    L, base = _ray(comp, W, P)
     N = W.shape[0]
     lo, hi = np.full(N, -2.0), np.full(N, 2.0)
 
+    def on_ray(s_):
+        X_ = np.exp(s_)[:, None] * base
+        return X_ if L is None else L + X_
+
     def gap(s):
-        v = comp.f(np.exp(s)[:, None] * base, P)
+        v = comp.f(on_ray(s), P)
         return np.where(np.isfinite(v), v - Y, np.nan)
 
     for _ in range(40):  # widen until bracketed (NaN below counts as "too low")
@@ -260,7 +282,7 @@ def _bisect_on_level(comp: Compiled, W, Y, P, iters: int = 80):
         hi = np.where(up, mid, hi)
         lo = np.where(up, lo, mid)
     ok = np.abs(gap(hi)) <= 1e-9 * np.maximum(1.0, np.abs(Y))  # NaN (undefined) fails
-    return np.exp(hi)[:, None] * base, ok
+    return on_ray(hi), ok
 
 
 def _spending_system(comp, W, Y, P, z, mu):

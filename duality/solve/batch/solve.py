@@ -52,7 +52,7 @@ def _may_repeat(col) -> bool:
 def _spending_solve(comp, W, Y, P, tol, maxiter, notes=()) -> BatchResult:
     """The block engine where it applies, the array path for the points it leaves."""
     N, n = W.shape
-    if comp.kernels is None or N == 0:
+    if comp.kernels is None or N == 0 or comp.domain.has_bounds:
         v, iters, norm = _spending_generic(comp, W, Y, P, tol, maxiter)
         return _spending_result(comp, W, P, v, iters, norm, tol, notes)
     X, lam, value, iters, norm, conv, start_fail, unfinished = _spend_blocks(
@@ -131,6 +131,20 @@ def solve_spending_plain(comp, W, Y, P, tol, maxiter):
 
 
 # -- utility --------------------------------------------------------------------------------
+def utility_start(comp, Pr, M, P):
+    """A bundle on the budget line inside the domain: the domain's lower bounds L plus
+    an equal share of the income left, (m − p·L)/(n p) of each good.  Where that share is
+    not positive (income does not buy L) the row is NaN."""
+    n = comp.n
+    if not comp.domain.has_bounds:
+        return M[:, None] / (n * Pr)
+    L = comp.domain.lower(P, len(M))
+    with np.errstate(all="ignore"):
+        left = M - np.einsum("ij,ij->i", Pr, L)
+        X0 = L + np.where(left > 0, left, np.nan)[:, None] / (n * Pr)
+    return X0
+
+
 def solve_utility(model: Model, Pr, M, P, *, tol: float = TOL,
                   maxiter: int = MAXITER) -> BatchResult:
     """max f(x) s.t. p·x = m at N points."""
@@ -139,7 +153,7 @@ def solve_utility(model: Model, Pr, M, P, *, tol: float = TOL,
     M = np.asarray(M, float)
     P = [np.broadcast_to(np.asarray(p, float), (len(M),)) for p in P]
     n = comp.n
-    X0 = M[:, None] / (n * Pr)
+    X0 = utility_start(comp, Pr, M, P)
     _, G0 = comp.fg(X0, P)
     with np.errstate(all="ignore"):
         mu0 = np.log(np.einsum("ij,ij->i", G0, X0) / M)

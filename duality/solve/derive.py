@@ -103,6 +103,7 @@ def _derived(model: Model, kind: str, demand_kind: str, args: tuple, sol: Soluti
     if given is not None:  # numeric evaluators from the dual side (inversions)
         return _derived_from_evaluators(model, kind, demand_kind, args, sol, given)
     batch = _numeric.Batch(model, numeric_kind) if sol.route == "numeric" else None
+    reasons = sol.extra.get("reasons", {})
 
     def numeric_value(point):
         return batch(point)["value"]
@@ -116,20 +117,20 @@ def _derived(model: Model, kind: str, demand_kind: str, args: tuple, sol: Soluti
                 "supply", args, yexpr, sol.route, sol.method, values, sol.source,
                 sol.notes, sol.conditions, yname, positive,
                 numeric=None if yexpr is not None else (lambda pt: batch(pt)["y"]),
-                solver=batch)
+                solver=batch, condition_reasons=reasons)
         for i, name in enumerate(names):
             e = None if sol.demands is None else sol.demands[i]
             out[name] = Derived(
                 demand_kind, args, e, sol.route, sol.method, values, sol.source, sol.notes,
                 sol.conditions, name, positive,
                 numeric=None if e is not None else (lambda pt, i=i: batch(pt)["x"][i]),
-                solver=batch)
+                solver=batch, condition_reasons=reasons)
         return out
 
     return Derived(kind, args, sol.value, sol.route, sol.method, values, sol.source,
                    sol.notes, sol.conditions, kind, positive,
                    numeric=numeric_value if sol.value is None else None,
-                   demand_factory=factory, solver=batch)
+                   demand_factory=factory, solver=batch, condition_reasons=reasons)
 
 
 def _derived_from_evaluators(model, kind, demand_kind, args, sol, ev) -> Derived:
@@ -235,10 +236,13 @@ def _spending_solution(model: Model, budget) -> Solution:
     notes = list(notes)
     if match is not None:
         core = match.form.solve(match.pieces, xs, ws, match.to_core(level))
+        in_range, reasons = match.level_condition(
+            level, model.values, "output" if model.is_technology else "utility")
         return Solution(core.value, core.demands, "catalogue",
                         f"recognised as {match.description}", match.form.source,
-                        tuple(notes) + core.notes, tuple(match.conditions) + core.conditions,
-                        {"match": match})
+                        tuple(notes) + core.notes,
+                        tuple(match.conditions) + core.conditions + in_range,
+                        {"match": match, "reasons": reasons})
     notes.append("not a catalogue form")
     found = _symbolic(model, budget, notes, _spending_candidates, _verify_spending)
     if found is not None:

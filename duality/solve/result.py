@@ -86,6 +86,8 @@ class Derived:
     numeric: Callable[..., np.ndarray] | None = field(default=None, repr=False)
     demand_factory: Callable[[], dict] | None = field(default=None, repr=False)
     solver: Callable[[dict], dict] | None = field(default=None, repr=False)
+    #: a sentence for a condition (keyed by its text) that says more than the formula
+    condition_reasons: Mapping[str, str] = field(default_factory=dict, repr=False)
 
     def __post_init__(self) -> None:
         if self.route not in ROUTES:
@@ -211,6 +213,9 @@ class Derived:
                 ok = np.asarray(fn(*(point[s] for s in syms)), dtype=bool)
                 bad |= ~np.broadcast_to(ok, out.shape)
                 if scalar and bad.any():
+                    if text in self.condition_reasons:
+                        raise DomainError(f"no {self.label} here: "
+                                          f"{self.condition_reasons[text]}")
                     raise DomainError(f"the {self.label} is valid only where {text}; "
                                       f"this point is outside it")
         if bad.any():

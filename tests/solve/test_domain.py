@@ -165,3 +165,28 @@ def test_reason_codes_cover_every_message():
     with pytest.raises(KeyError, match="known: ok"):
         domain.code("nonsense")
     assert "2 the solver" in domain.explain(np.array([0, 1, 1]))
+
+
+# -- levels outside the range of the function -----------------------------------------------
+@pytest.mark.parametrize("formula, floor", [
+    ("x1^0.5*x2^0.5", 0.0), ("(x1^0.5+x2^0.5)^2", 0.0), ("min(x1,x2)", 0.0),
+    ("3*x1^0.5*x2^0.5 + 1", 1.0), ("x1 + 2*x2", 0.0)])
+def test_utility_below_the_range_is_refused(formula, floor):
+    # each of these takes only values above `floor` at positive quantities, so
+    # e(p, u) = min {p·x : U(x) >= u} is not a (negative) number below it: the definition
+    # of the expenditure function (Varian, Microeconomic Analysis 3rd ed., ch. 7, from memory)
+    e = dy.expenditure(dy.preference(formula, ["x1", "x2"]))
+    with pytest.raises(DomainError, match="outside the range of the utility function"):
+        e(p1=1, p2=1, u=floor - 1.0)
+    with pytest.raises(DomainError, match="no bundle reaches it"):
+        e.demands["x1"](p1=1, p2=1, u=floor - 1.0)
+    with pytest.warns(dy.NumericWarning):
+        out = e(p1=1.0, p2=1.0, u=np.array([floor - 2.0, floor + 2.0]))
+    assert np.isnan(out[0]) and out[1] > 0
+
+
+def test_a_level_anywhere_in_the_range_stays_valid():
+    # log x1 + log x2 takes every real value: u = −1 is reached, e = 2 e^(−1/2) at p = (1, 1)
+    # (Cobb–Douglas expenditure, Varian 3rd ed., ch. 7, from memory)
+    e = dy.expenditure(dy.preference("log(x1)+log(x2)", ["x1", "x2"]))
+    assert e(p1=1, p2=1, u=-1.0) == pytest.approx(2 * math.exp(-0.5), rel=1e-12)

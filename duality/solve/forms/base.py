@@ -64,6 +64,27 @@ class Match:
             g0 = layer.forward(g0)
         return g0
 
+    def level_condition(self, level: sp.Expr, values: Mapping[sp.Symbol, float],
+                        what: str) -> tuple[tuple, dict]:
+        """The condition that ``level`` lies in the range of the function (core level
+        above 0) for a form with :attr:`Form.positive_core`, and a sentence saying so.
+
+        Returns ``(conditions, reasons)`` with reasons keyed by the condition's text."""
+        if not self.form.positive_core:
+            return (), {}
+        conds = positive_condition(self.to_core(level))
+        if not conds or conds == [sp.false]:
+            return (), {}
+        floor = sp.sympify(sp.sympify(self.from_core(sp.Integer(0))).xreplace(dict(values)))
+        one = sp.sympify(sp.sympify(self.from_core(sp.Integer(1))).xreplace(dict(values)))
+        at = ""
+        if floor.is_number and floor.is_finite and floor.is_real and one.is_number:
+            side = "above" if bool(one > floor) else "below"
+            at = f" (every bundle gives a level {side} {float(floor):.6g})"
+        return tuple(conds), {str(conds[0]): (
+            f"the {what} level {level} lies outside the range of the {what} "
+            f"function{at}: no bundle reaches it")}
+
     @property
     def description(self) -> str:
         outer = " of ".join(layer.label for layer in self.layers)
@@ -89,6 +110,10 @@ class Form:
     title: str = ""
     source: str = ""
     roles: tuple[str, ...] = ("technology", "preference")
+    #: True when the core takes every positive value and only those on the positive
+    #: orthant (products and sums of positive terms): a core level g0 <= 0 is reached by
+    #: no bundle, so a level below the function's range is refused, not solved.
+    positive_core: bool = False
 
     def match(self, core: sp.Expr, xs: Sequence[sp.Symbol]) -> dict | None:
         """The form's pieces if ``core`` has this form in ``xs``, else None."""

@@ -9,6 +9,7 @@ from .base import CoreSolution, Form, free_of, positive_condition
 class CES(Form):
     key = "ces"
     title = "CES (constant elasticity of substitution)"
+    positive_core = True
     source = ("Arrow, Chenery, Minhas and Solow, Review of Economics and Statistics 43 (1961); "
               "Varian, Microeconomic Analysis, 3rd ed. (1992), ch. 4 (CES cost function) "
               "(from memory)")

@@ -9,6 +9,7 @@ from .base import CoreSolution, Form, free_of, positive_condition
 class CobbDouglas(Form):
     key = "cobb_douglas"
     title = "Cobb–Douglas"
+    positive_core = True
     source = ("Varian, Microeconomic Analysis, 3rd ed. (1992), ch. 4 (cost) and ch. 7 "
               "(demand); Mas-Colell, Whinston and Green, Microeconomic Theory (1995), "
               "Examples 3.D.1 and 3.E.1 (from memory)")

@@ -9,6 +9,7 @@ from .base import CoreSolution, Form, free_of, positive_condition
 class Leontief(Form):
     key = "leontief"
     title = "Leontief (fixed proportions)"
+    positive_core = True
     source = ("Varian, Microeconomic Analysis, 3rd ed. (1992), ch. 4 (Leontief cost "
               "function) and ch. 7 (perfect complements) (from memory)")
 

@@ -9,6 +9,7 @@ from .base import CoreSolution, Form, free_of, positive_condition
 class Linear(Form):
     key = "linear"
     title = "linear (perfect substitutes)"
+    positive_core = True
     source = ("Varian, Microeconomic Analysis, 3rd ed. (1992), ch. 4 (linear technology "
               "cost function) and ch. 7 (perfect substitutes) (from memory)")
 

@@ -10,6 +10,7 @@ from .cobb_douglas import CobbDouglas
 class StoneGeary(Form):
     key = "stone_geary"
     title = "Stone–Geary (linear expenditure system)"
+    positive_core = True
     source = ("Stone, Economic Journal 64 (1954), 'Linear expenditure systems and demand "
               "analysis'; Geary, Review of Economic Studies 18 (1950); Deaton and "
               "Muellbauer, Economics and Consumer Behavior (1980), §3.1 (from memory)")

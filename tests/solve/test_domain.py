@@ -190,3 +190,27 @@ def test_a_level_anywhere_in_the_range_stays_valid():
     # (Cobb–Douglas expenditure, Varian 3rd ed., ch. 7, from memory)
     e = dy.expenditure(dy.preference("log(x1)+log(x2)", ["x1", "x2"]))
     assert e(p1=1, p2=1, u=-1.0) == pytest.approx(2 * math.exp(-0.5), rel=1e-12)
+
+
+# -- corners ---------------------------------------------------------------------------------
+def test_quasi_linear_corner_worked_by_hand():
+    # U = x1 + 2 log x2. Kuhn–Tucker (MWG §3.D; Varian 3rd ed. ch. 7, from memory), by hand:
+    # interior when m > 2 p1: x2 = 2 p1/p2, x1 = m/p1 − 2; else x1 = 0, x2 = m/p2.
+    q = dy.preference("x1 + 2*log(x2)", ["x1", "x2"])
+    v, e = dy.indirect_utility(q), dy.expenditure(q)
+    for p1, p2, m in ((1.0, 1.0, 1.0), (2.0, 0.5, 3.9), (1.0, 1.0, 5.0), (0.5, 2.0, 1.5)):
+        if m > 2 * p1:
+            x = (m / p1 - 2, 2 * p1 / p2)
+        else:
+            x = (0.0, m / p2)
+        got = (v.demands["x1"](p1=p1, p2=p2, m=m), v.demands["x2"](p1=p1, p2=p2, m=m))
+        assert got == pytest.approx(x, rel=1e-12, abs=1e-14)
+        assert v(p1=p1, p2=p2, m=m) == pytest.approx(x[0] + 2 * math.log(x[1]), rel=1e-12,
+                                                     abs=1e-14)
+    # Hicksian corner: when u <= 2 log(2 p1/p2), x1 = 0 and x2 = exp(u/2), e = p2 exp(u/2)
+    for p1, p2, u in ((1.0, 1.0, 0.5), (1.0, 1.0, 3.0), (2.0, 0.5, 1.0)):
+        x2i = 2 * p1 / p2
+        h = (u - 2 * math.log(x2i), x2i) if u > 2 * math.log(x2i) else (0.0, math.exp(u / 2))
+        assert e(p1=p1, p2=p2, u=u) == pytest.approx(p1 * h[0] + p2 * h[1], rel=1e-12)
+        assert e.demands["x1"](p1=p1, p2=p2, u=u) == pytest.approx(h[0], abs=1e-12)
+        assert e.demands["x2"](p1=p1, p2=p2, u=u) == pytest.approx(h[1], rel=1e-12)

@@ -18,6 +18,15 @@ _q = sp.Symbol("q_", positive=True)
 MATCH_BUDGET = 5.0
 
 
+_t = sp.Symbol("t_", real=True)
+
+
+def _level_roots(phi, x):
+    """Positive solutions of phi(x) = t (run in a worker under a time budget)."""
+    xp = sp.Symbol("xp_", positive=True)
+    return [s for s in sp.solve(sp.Eq(phi.subs(x, xp), _t), xp) if s.is_real is not False]
+
+
 def _marginal_roots(phi, x):
     """Positive solutions of phi'(x) = q (run in a worker under a time budget)."""
     xp = sp.Symbol("xp_", positive=True)
@@ -61,7 +70,16 @@ class QuasiLinear(Form):
             if len(sols) != 1:
                 return None
             roots[x] = sols[0]
-        return {"numeraire": k, "a": linear[k], "phi": phis, "root": roots}
+        inverse = None
+        if len(phis) == 1:  # the corner x_k = 0 has a closed form when phi inverts
+            (x, phi), = phis.items()
+            try:
+                inv = run_with_budget(_level_roots, phi, x, budget=MATCH_BUDGET)
+            except Exception:  # noqa: BLE001 - no inverse: the corner stays unsolved
+                inv = []
+            inverse = inv[0] if len(inv) == 1 else None
+        return {"numeraire": k, "a": linear[k], "phi": phis, "root": roots,
+                "inverse": inverse}
 
     def requirements(self, pieces, xs):
         return positive_condition(pieces["a"])
@@ -78,20 +96,45 @@ class QuasiLinear(Form):
         """Notes
         -----
         phi_j'(x_j) = a w_j / w_k fixes the non-numeraire quantities; the numeraire buys
-        the rest: x_k = (g0 - phi(x_o)) / a, interior only when that is positive.
+        the rest: x_k = (g0 - phi(x_o)) / a, interior only when that is positive.  With
+        one non-numeraire good j the corner below is solved too (Kuhn–Tucker: x_k = 0 and
+        phi(x_j) = g0, so x_j = phi^{-1}(g0)).
         """
         k, a, wk, xo, phi, spend_o = self._interior(pieces, xs, ws)
         xk = (g0 - phi) / a
         demands = tuple(xk if x == k else xo[x] for x in xs)
-        return CoreSolution(spend_o + wk * xk, demands,
-                            conditions=(sp.StrictGreaterThan(xk, 0),),
-                            notes=(f"interior solution: valid while the numeraire {k} is "
-                                   "bought in positive amount",))
+        value = spend_o + wk * xk
+        inverse = pieces.get("inverse")
+        if inverse is None:
+            return CoreSolution(value, demands,
+                                conditions=(sp.StrictGreaterThan(xk, 0),),
+                                notes=(f"interior solution: valid while the numeraire {k} "
+                                       "is bought in positive amount",))
+        (j,) = xo
+        xj = inverse.subs(_t, g0)
+        inside = sp.StrictGreaterThan(g0, phi)
+        corner = {k: sp.Integer(0), j: xj}
+        return CoreSolution(
+            sp.Piecewise((value, inside), (ws[xs.index(j)] * xj, True)),
+            tuple(sp.Piecewise((d, inside), (corner[x], True)) for x, d in zip(xs, demands)),
+            notes=(f"corner solution (none of the numeraire {k} bought) where the level is "
+                   "at or below what the other good gives at its interior quantity",))
 
     def level(self, pieces, xs, ws, spend):
         k, a, wk, xo, phi, spend_o = self._interior(pieces, xs, ws)
-        return a * (spend - spend_o) / wk + phi, (sp.StrictGreaterThan(spend - spend_o, 0),)
+        interior = a * (spend - spend_o) / wk + phi
+        if pieces.get("inverse") is None:
+            return interior, (sp.StrictGreaterThan(spend - spend_o, 0),)
+        (j,), (phij,) = xo, pieces["phi"].values()
+        at_corner = phij.subs(j, spend / ws[xs.index(j)])
+        return sp.Piecewise((interior, spend > spend_o), (at_corner, True)), ()
 
     def marshallian(self, pieces, xs, ws, m):
         k, a, wk, xo, phi, spend_o = self._interior(pieces, xs, ws)
-        return tuple((m - spend_o) / wk if x == k else xo[x] for x in xs)
+        interior = tuple((m - spend_o) / wk if x == k else xo[x] for x in xs)
+        if pieces.get("inverse") is None:
+            return interior
+        (j,) = xo
+        corner = {k: sp.Integer(0), j: m / ws[xs.index(j)]}
+        return tuple(sp.Piecewise((d, m > spend_o), (corner[x], True))
+                     for x, d in zip(xs, interior))

@@ -70,7 +70,27 @@ def _natural_domain(val, x):
         nat = continuous_domain(val.xreplace({x: xr}), xr, sp.S.Reals)
     except Exception:  # noqa: BLE001 - no inference: keep the declared domain
         return sp.S.Reals
+    if isinstance(nat, sp.Union) and all(isinstance(a, sp.Interval) for a in nat.args):
+        return nat
     return nat if isinstance(nat, sp.Interval) else sp.S.Reals
+
+
+def _falls_without_bound(val, x, pieces) -> str | None:
+    """Where f → −oo at a finite end of one of the intervals of its domain (a pole such
+    as 1/x at 0 from below), then p·x − f(x) → +oo there for every p; that end, else None."""
+    xr = sp.Symbol(x.name, real=True)
+    v = val.xreplace({x: xr})
+    for piece in pieces:
+        for end, side in ((piece.start, "+"), (piece.end, "-")):
+            if not end.is_finite:
+                continue
+            try:
+                lim = sp.limit(v, xr, end, side)
+            except Exception:  # noqa: BLE001 - unknown behaviour: not claimed
+                continue
+            if lim == -sp.oo:
+                return f"{x} → {end}{'⁺' if side == '+' else '⁻'}"
+    return None
 
 
 def _conj1_any(f, x, p, deadline) -> _Raw:
@@ -78,6 +98,19 @@ def _conj1_any(f, x, p, deadline) -> _Raw:
     dom = dom.intersect(_symbol_interval(x))
     nat = _natural_domain(val, x)
     natural_note = None
+    if isinstance(nat, sp.Union):
+        pieces = [a.intersect(dom) for a in nat.args]
+        pieces = [a for a in pieces if isinstance(a, sp.Interval)]
+        where = _falls_without_bound(val, x, pieces)
+        if where is not None:
+            return _Raw(sp.oo, "fenchel", "fenchel", {}, sp.S.EmptySet,
+                        [f"f is defined for {x} in {nat}; f → −oo as {where}, so p·x − f(x) "
+                         "is unbounded above and f*(p) = +oo for every p"])
+        if len(pieces) == 1:
+            nat = pieces[0]
+        else:
+            raise DualityError(f"f is defined for {x} in {nat}, not one interval; declare "
+                               f"the sign of {x} (e.g. positive) to choose one piece")
     if nat != sp.S.Reals and not dom.is_subset(nat):
         dom = dom.intersect(nat)
         natural_note = (f"f is defined only for {x} in {nat} (its natural domain); it is "
@@ -385,7 +418,6 @@ def _numeric1(f, x, p, dom, notes) -> _Raw:
             v = np.asarray(v, dtype=float)
             return np.where(np.isfinite(v), v, -np.inf)
         best = -np.inf
-        prev = None
         for R in (10.0, 100.0, 1000.0, 1e4):
             a = max(lo, -R)
             b = min(hi, R)
@@ -404,12 +436,52 @@ def _numeric1(f, x, p, dom, notes) -> _Raw:
                                           method="bounded",
                                           options={"xatol": 1e-12})
                     best = max(best, -float(res.fun))
+                # the supremum may be approached at an open end of the domain
+                if k == 0 and a == lo:
+                    best = max(best, _edge_limit(h, f, x, pval, lo, +1))
+                if k == grid.size - 1 and b == hi:
+                    best = max(best, _edge_limit(h, f, x, pval, hi, -1))
                 return best
-            prev = best
-        return math.inf if prev is not None and np.isfinite(prev) else best
+        # still rising at the widest window: the limit towards that infinite end decides
+        end = -math.inf if k == 0 else math.inf
+        return max(best, _edge_limit(h, f, x, pval, end, +1 if k == 0 else -1))
     notes = list(notes) + ["numeric route: sup of p·x − f(x) by grid search and bounded "
-                           "refinement (windows up to |x| ≤ 1e4)"]
+                           "refinement (windows up to |x| ≤ 1e4); where the supremum lies "
+                           "at an end of the domain, the limit of p·x − f(x) there "
+                           "(+oo when unbounded, never a window's bound)"]
     return _Raw(None, "numeric", "fenchel", {}, None, notes, num)
+
+
+def _edge_limit(h, f, x, pval, end, side) -> float:
+    """lim p·x − f(x) as x approaches ``end`` from inside the domain (``side`` +1: from
+    above, −1: from below): read off a geometric sequence of points when it settles or
+    explodes, else by sympy's limit; +inf when unbounded."""
+    if math.isinf(end):
+        ts = np.sign(end) * 10.0 ** np.arange(4.0, 301.0, 4.0)
+    else:
+        scale = max(1.0, abs(end))
+        ts = end + side * scale * 10.0 ** -np.arange(4.0, 301.0, 4.0)
+        ts = ts[ts != end]
+    with np.errstate(all="ignore"):
+        vals = np.asarray(h(ts), dtype=float)
+    vals = vals[np.isfinite(vals)]
+    if vals.size >= 3:
+        if vals[-1] > 1e100 or (vals[-1] > 1e12 and np.all(np.diff(vals[-4:]) > 0)):
+            return math.inf
+        if abs(vals[-1] - vals[-2]) <= 1e-12 * (1 + abs(vals[-1])) and \
+                abs(vals[-2] - vals[-3]) <= 1e-9 * (1 + abs(vals[-1])):
+            return float(vals[-1])
+    try:
+        expr = sp.Float(pval) * x - f
+        point = sp.oo if end == math.inf else (-sp.oo if end == -math.inf else sp.Float(end))
+        lim = sp.limit(expr, x, point, "+" if side > 0 else "-")
+        if lim == sp.oo:
+            return math.inf
+        if lim.is_real and lim.is_finite:
+            return float(lim)
+    except Exception:  # noqa: BLE001 - sympy cannot take the limit: the points decide
+        pass
+    return float(vals[-1]) if vals.size and vals[-1] <= 1e12 else math.inf
 
 
 def _sup_concave_1d(h):

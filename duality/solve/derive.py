@@ -24,6 +24,7 @@ from functools import lru_cache
 import numpy as np
 import sympy as sp
 
+from . import additive as _additive
 from . import derive_dual as _dual
 from . import numeric as _numeric
 from .budget import run_with_budget
@@ -37,7 +38,7 @@ from sympy.solvers.solveset import NonlinearError
 #: Default wall-clock budget (seconds) of the symbolic route of one dual.
 DEFAULT_BUDGET = 5.0
 
-SYMBOLIC_METHODS = ("log-linear", "homothetic", "lagrangian")
+SYMBOLIC_METHODS = ("log-linear", "homothetic", "additive", "lagrangian")
 
 
 # -- public entry points ---------------------------------------------------------------
@@ -247,7 +248,8 @@ def _spending_solution(model: Model, budget) -> Solution:
     found = _symbolic(model, budget, notes, _spending_candidates, _verify_spending)
     if found is not None:
         method, value, demands = found
-        return Solution(value, demands, "symbolic", method, None, tuple(notes))
+        conds = _additive.interior_conditions(demands) if method == "additive" else ()
+        return Solution(value, demands, "symbolic", method, None, tuple(notes), conds)
     _numeric_allowed(model, notes)
     return Solution(None, None, "numeric", _numeric.SOLVER, None, tuple(notes))
 
@@ -361,6 +363,8 @@ def _spending_candidates(method: str, model: Model):
                 demands = (x1,) + tuple(rs_sol[r] * x1 for r in rs)
                 out.append((sp.Add(*[w * d for w, d in zip(ws, demands)]), demands))
         return out
+    if method == "additive":
+        return _additive.candidates("spending", model)
     if method == "lagrangian":
         lam = sp.Symbol("lambda_", positive=True)
         eqs = [g - lam * w for g, w in zip(grads, ws)] + [f - y]
@@ -457,10 +461,14 @@ def _verify_spending(model: Model, value, demands) -> tuple[bool, str]:
 
 
 def _bundle(dfn, vfn, vals):
-    """Evaluate candidate demands and value; demands None unless positive and real."""
+    """Evaluate candidate demands and value; demands None unless positive and real (or
+    when numpy cannot evaluate them, e.g. a special function it lacks)."""
     with np.errstate(all="ignore"):
-        x = np.asarray(dfn(*vals), dtype=complex).reshape(-1)
-        v = complex(vfn(*vals))
+        try:
+            x = np.asarray(dfn(*vals), dtype=complex).reshape(-1)
+            v = complex(vfn(*vals))
+        except (NameError, TypeError, ValueError, ZeroDivisionError):
+            return None, complex(math.nan)
     if np.any(np.abs(x.imag) > 1e-9 * (1 + np.abs(x.real))) or np.any(x.real <= 0):
         return None, v
     return x.real, v
@@ -490,6 +498,10 @@ def _indirect_solution(model: Model, budget) -> Solution:
             marsh = tuple(d.xreplace({model.level: v}) for d in spend.demands)
         return Solution(v, tuple(marsh), "catalogue", spend.method, spend.source,
                         tuple(notes), tuple(match.conditions) + tuple(conds))
+    if _additive.split(model.expr, xs) is not None:
+        found = _additive_utility(model, budget, notes)
+        if found is not None:
+            return found
     if spend.route == "symbolic":
         try:
             cands = run_with_budget(_invert_candidates, spend.value, model.level, m,
@@ -510,6 +522,30 @@ def _indirect_solution(model: Model, budget) -> Solution:
             notes.append(f"candidate v(p, m) rejected by the numeric check: {why}")
     _numeric_allowed(model, notes)
     return Solution(None, None, "numeric", _numeric.SOLVER, None, tuple(notes))
+
+
+def _additive_utility(model: Model, budget, notes: list) -> Solution | None:
+    """Marshallian demands of an additive preference: inverse marginal utilities and the
+    budget solved for the multiplier (:mod:`duality.solve.additive`), verified."""
+    try:
+        cands = run_with_budget(_additive.candidates, "utility", model, budget=budget)
+    except BudgetExceeded:
+        notes.append("additive route for v(p, m) did not finish within the budget")
+        return None
+    except Exception as exc:  # noqa: BLE001 - a failing route is a note, not an error
+        notes.append(f"additive route for v(p, m) failed: {type(exc).__name__}: {exc}")
+        return None
+    if isinstance(cands, str):
+        notes.append(f"additive route for v(p, m) not applicable: {cands}")
+        return None
+    for v, marsh in cands:
+        ok, why = _verify_utility(model, v, marsh)
+        if ok:
+            return Solution(v, marsh, "symbolic", "additive: inverse marginal utilities, "
+                            "budget solved for the multiplier", None, tuple(notes),
+                            _additive.interior_conditions(marsh))
+        notes.append(f"additive candidate v(p, m) rejected by the numeric check: {why}")
+    return None
 
 
 def _invert_candidates(e, u, m):

@@ -847,7 +847,8 @@ def test_cobb_douglas_preference_elasticities():
 # =========================================================================================
 def test_catalogue_keys_and_sources():
     keys = list(dy.CATALOGUE.forms)
-    assert keys == ["cobb_douglas", "ces", "leontief", "linear", "stone_geary", "quasi_linear"]
+    assert keys == ["cobb_douglas", "ces", "nested_ces", "leontief", "linear", "stone_geary",
+                    "quasi_linear"]
     for form in dy.CATALOGUE:
         assert form.source and "(19" in form.source, form.key
 

@@ -54,6 +54,9 @@ def build(form: str, role: str, params: tuple, variant: str = "") -> dy.Model:
     elif form == "ces":
         expr = S("A") * sp.Add(*[S(f"d{i + 1}") * x ** S("r") for i, x in enumerate(xs)]) \
             ** (S("k") / S("r"))
+    elif form == "nested_ces":  # two-level CES (Sato 1967): x1, x2 nested, x3 alone
+        inner = (S("d1") * xs[0] ** S("r") + S("d2") * xs[1] ** S("r")) ** (S("s") / S("r"))
+        expr = S("A") * (S("b1") * inner + S("b2") * xs[2] ** S("s")) ** (S("k") / S("s"))
     elif form == "leontief":
         expr = sp.Min(*[x / S(f"a{i + 1}") for i, x in enumerate(xs)])
     elif form == "linear":
@@ -142,6 +145,24 @@ def ces_cases(draw):
 
 
 @st.composite
+def nested_ces_cases(draw):
+    A = draw(_floats(0.5, 2.0))
+    r = draw(_floats(-3.0, 0.9).filter(lambda v: abs(v) >= 0.05))
+    s_ = draw(_floats(-3.0, 0.9).filter(lambda v: abs(v) >= 0.05))
+    k = draw(_floats(0.5, 1.5))
+    d = draw(st.lists(_floats(0.1, 1.0), min_size=2, max_size=2))
+    b = draw(st.lists(_floats(0.1, 1.0), min_size=2, max_size=2))
+    params = ((("A", A), ("r", r), ("s", s_), ("k", k)) + _params("d", d)
+              + _params("b", b))
+
+    def f(x):
+        inner = (d[0] * x[0] ** r + d[1] * x[1] ** r) ** (s_ / r)
+        return A * (b[0] * inner + b[1] * x[2] ** s_) ** (k / s_)
+    model, point, _ = draw(_role_point("nested_ces", _roles(draw), 3, params, f))
+    return model, point
+
+
+@st.composite
 def leontief_cases(draw):
     n = draw(st.sampled_from([2, 3]))
     a = np.array(draw(st.lists(_floats(0.2, 5.0), min_size=n, max_size=n)))
@@ -201,6 +222,7 @@ def quasi_linear_cases(draw):
 STRATEGIES = {
     "cobb_douglas": cobb_douglas_cases(),
     "ces": ces_cases(),
+    "nested_ces": nested_ces_cases(),
     "leontief": leontief_cases(),
     "linear": linear_cases(),
     "stone_geary": stone_geary_cases(),
@@ -461,6 +483,9 @@ CHECK_MODELS = {
                                                          ("a2", 0.5))),
     "ces": build("ces", "technology", (("n", 3), ("A", 1.5), ("r", -0.7), ("k", 0.8),
                                        ("d1", 0.3), ("d2", 0.2), ("d3", 0.5))),
+    "nested_ces": build("nested_ces", "technology",
+                        (("n", 3), ("A", 1.2), ("r", 0.5), ("s", -1.0), ("k", 0.8),
+                         ("d1", 0.3), ("d2", 0.7), ("b1", 0.4), ("b2", 0.6))),
     "leontief": build("leontief", "preference", (("n", 2), ("a1", 2.0), ("a2", 3.0))),
     "linear": build("linear", "technology", (("n", 3), ("a1", 2.0), ("a2", 3.0), ("a3", 1.0))),
     "stone_geary": build("stone_geary", "preference",

@@ -15,11 +15,13 @@ from .ces import CES
 from .cobb_douglas import CobbDouglas
 from .leontief import Leontief
 from .linear import Linear
+from .nested_ces import NestedCES
 from .quasi_linear import QuasiLinear
 from .stone_geary import StoneGeary
 
 CATALOGUE = Registry()
-for _form in (CobbDouglas(), CES(), Leontief(), Linear(), StoneGeary(), QuasiLinear()):
+for _form in (CobbDouglas(), CES(), NestedCES(), Leontief(), Linear(), StoneGeary(),
+              QuasiLinear()):
     CATALOGUE.register(_form)
 
 

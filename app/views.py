@@ -17,6 +17,7 @@ import streamlit as st
 import duality as dy
 from duality.apply import scenario as sc
 from duality.errors import DualityError
+from duality.texts import CAUTION
 
 from . import analysis as A
 from . import figures as F
@@ -26,10 +27,6 @@ VIEWS = ["Duals", "Elasticities", "Checks", "Figures", "Price scenarios", "Data"
          "Conjugate", "Export & save"]
 ROUTE_BADGE = {"catalogue": ("catalogue", "green"), "symbolic": ("derived", "blue"),
                "numeric": ("numeric", "orange")}
-CAUTION = ("Results hold only under the assumed functional form and parameter values. "
-           "A cost change, demand response or welfare figure read off this page is as "
-           "good as those assumptions: check them before it informs a policy or pricing "
-           "decision.")
 _CSS = """
 <style>
 .dy-brand {font-size: 1.35rem; font-weight: 700; color: #17877b; letter-spacing: .02em;}

@@ -36,12 +36,11 @@ from .apply.welfare import scenario_table
 from .solve.derive import DEFAULT_BUDGET, duals as derive_duals
 from .errors import DualityError
 from .solve.result import KINDS, Derived
+from .texts import CAUTION
 
 #: The built-in default model: a small decreasing-returns technology.
 DEFAULT = {"formula": "2*x1^0.3*x2^0.5", "role": "technology", "quantities": "x1,x2"}
 
-CAUTION = ("Results hold only for the assumed functional form and parameter values; "
-           "check them before using them for policy or pricing decisions.")
 
 
 class _Fail(click.ClickException):

@@ -12,8 +12,9 @@ from __future__ import annotations
 import sympy as sp
 from sympy.printing.latex import LatexPrinter
 
+from ...texts import CAUTION
 from ._collect import CASES_ALLOWED, BASE_ALLOWED, Collection, Item, check_supported, fmt_float
-from .code import DISCLAIMER, _version
+from .code import _version
 
 
 class _Latex(LatexPrinter):
@@ -54,7 +55,7 @@ def _equation(it: Item, name: str) -> list[str]:
 
 
 def export_latex(col: Collection, *, name: str, values: bool = True) -> str:
-    out = [f"% {name}: LaTeX exported by duality {_version()}. {DISCLAIMER}"]
+    out = [f"% {name}: LaTeX exported by duality {_version()}. {CAUTION}"]
     for it in col.items:
         out.append(f"% {it.name}: {it.derived.label}; route {it.derived.route}"
                    + (f"; source: {it.derived.source}" if it.derived.source else ""))
@@ -70,7 +71,7 @@ def export_latex_document(col: Collection, *, name: str, values: bool = True) ->
            r"\usepackage{amsmath}", r"\usepackage{booktabs}", "",
            f"\\title{{{escape(name)}: derivation}}",
            f"\\author{{exported by duality {escape(_version())}}}", r"\date{}", "",
-           r"\begin{document}", r"\maketitle", "", escape(DISCLAIMER), ""]
+           r"\begin{document}", r"\maketitle", "", escape(CAUTION), ""]
     m = col.model
     if m is not None:
         out += [r"\section{Model}"]

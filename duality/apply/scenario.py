@@ -30,15 +30,15 @@ Top level
         The function as text (see :mod:`duality.model.formula`).  Exactly one of ``formula``
         and ``form``.
     ``form`` and ``size``
-        A flexible form from the catalogue instead of a formula: ``translog_cost``,
-        ``generalized_leontief_cost`` (technology, cost side) or ``aids_expenditure``
-        (preference, expenditure side), with ``size`` prices (an integer >= 2).
+        A flexible form from the dual-side catalogue instead of a formula (a name in
+        :data:`duality.solve.dual_forms.DUAL_FORMS`, e.g. ``translog_cost``, which also
+        fixes role and side), with ``size`` prices (an integer >= 2).
     ``quantities``
         List of input or good names.  Required for the primal side; on the dual side
         they default from the price names (``w1 -> x1``).
     ``prices``
         List of price names, one per quantity.  Required with ``formula``; with ``form``
-        they default to ``w1..wn`` (cost forms) or ``p1..pn`` (AIDS).
+        they default to the form's price letter: ``w1..wn`` (cost forms) or ``p1..pn`` (AIDS).
     ``output``, ``output_price``
         Technology only: the names of the output (default ``y``) and its price
         (default ``p``).
@@ -137,10 +137,6 @@ from .files import write_atomic
 ROLES = ("technology", "preference")
 SIDES = {"primal": None, "cost": "technology", "profit": "technology",
          "expenditure": "preference", "indirect_utility": "preference"}
-#: form -> (role, side, default price letter)
-FORMS = {"translog_cost": ("technology", "cost", "w"),
-         "generalized_leontief_cost": ("technology", "cost", "w"),
-         "aids_expenditure": ("preference", "expenditure", "p")}
 
 _NAME = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
 _TOP_KEYS = ("title", "description", "exports", "model", "baseline", "variants", "data")
@@ -174,7 +170,7 @@ class ModelSpec:
         """The model's price names (given, or the defaults of a flexible form)."""
         if self.prices is not None:
             return self.prices
-        letter = FORMS[self.form][2]
+        letter = dual_forms.BY_NAME[self.form].price_letter
         return tuple(f"{letter}{i + 1}" for i in range(self.size))
 
     @property
@@ -236,7 +232,7 @@ class Scenario:
         key = "model.form" if spec.form is not None else "model.formula"
         try:
             if spec.form is not None:
-                builder = getattr(dual_forms, spec.form)
+                builder = dual_forms.BY_NAME[spec.form].build
                 prices = list(spec.prices) if spec.prices is not None else spec.size
                 qkey = "goods" if spec.role == "preference" else "quantities"
                 kw = dict(params=dict(spec.parameters), name=self.title,
@@ -257,7 +253,7 @@ class Scenario:
                                           utility=spec.utility, params=dict(spec.parameters),
                                           name=self.title)
             else:
-                fn = getattr(dual_side, f"{spec.side}_function")
+                fn = dual_side.BUILDERS[spec.side]
                 qs = None if spec.quantities is None else list(spec.quantities)
                 if spec.role == "technology":
                     m = fn(spec.formula, list(spec.prices), qs, output=spec.output,
@@ -444,12 +440,12 @@ class _Validator:
         form = t.get("form")
         if form is not None:
             self.text(form, "model.form")
-            if form not in FORMS:
+            if form not in dual_forms.BY_NAME:
                 self.fail("model.form", f"unknown form {form!r}; expected one of "
-                          + ", ".join(FORMS))
+                          + ", ".join(dual_forms.BY_NAME))
             if "formula" in t:
                 self.fail("model.formula", "give either 'formula' or 'form', not both")
-            frole, fside, _ = FORMS[form]
+            frole, fside = dual_forms.BY_NAME[form].role, dual_forms.BY_NAME[form].side
             if "size" not in t:
                 self.fail("model.size", f"missing required key: the number of prices of "
                           f"the {form} form (an integer, at least 2)")
@@ -692,4 +688,4 @@ def save(s: Scenario, path: str | os.PathLike | None = None, *, backup: bool = T
 
 
 __all__ = ["Scenario", "ModelSpec", "Baseline", "Variant", "DataSpec", "load", "loads",
-           "dumps", "save", "from_dict", "to_dict", "FORMS"]
+           "dumps", "save", "from_dict", "to_dict"]

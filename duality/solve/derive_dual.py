@@ -19,7 +19,7 @@ from .budget import run_with_budget
 from ..errors import BudgetExceeded, NoSolutionError
 from ..model.lambdas import numpy_function
 from ..model.base import Model, _safe_eval
-from .dual_forms import DUAL_CATALOGUE
+from .dual_forms import BY_NAME as DUAL_FORMS
 from .points import sample_points
 from .result import Solution
 
@@ -28,8 +28,8 @@ LEMMA = {"cost": "Shephard's lemma", "expenditure": "Shephard's lemma",
 
 
 def dual_source(model: Model) -> str | None:
-    form = DUAL_CATALOGUE.get(model.form)
-    return None if form is None else form["source"]
+    form = DUAL_FORMS.get(model.form)
+    return None if form is None else form.source
 
 
 def given(model: Model):

@@ -11,6 +11,7 @@ from hypothesis import strategies as st
 
 import duality as dy
 from duality.apply import export, files, scenario as sc
+from duality.solve import dual_forms
 from duality.errors import DualityError
 
 SCENARIOS = Path(__file__).resolve().parents[2] / "scenarios"
@@ -393,7 +394,7 @@ def scenarios(draw):
         model.update(role=role, side=side,
                      formula=draw(st.sampled_from(FORMULAS)).format(*quantities))
     else:
-        role = sc.FORMS[form][0]
+        role = dual_forms.BY_NAME[form].role
         model.update(form=form, size=n)
     if form is None or draw(st.booleans()):
         model["prices"] = prices
@@ -404,7 +405,7 @@ def scenarios(draw):
         if draw(st.booleans()) and not (form is not None and k == "output_price"):
             model[k] = nm
     model["parameters"] = draw(st.dictionaries(st.sampled_from(rest[2:]), FINITE, max_size=3))
-    names = model.get("prices") or [f"{sc.FORMS[form][2]}{i + 1}" for i in range(n)]
+    names = model.get("prices") or [f"{dual_forms.BY_NAME[form].price_letter}{i + 1}" for i in range(n)]
     if form is not None and "prices" not in model and set(names) & set(pool):
         model["prices"] = prices  # avoid generated names that clash with the defaults
         names = prices

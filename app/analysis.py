@@ -24,7 +24,7 @@ import sympy as sp
 import duality as dy
 from duality.solve.derive import DEFAULT_BUDGET, duals
 from duality.errors import DualityError
-from duality.apply.export import TARGETS, export, file_name
+from duality.apply.export import REGISTRY, export, file_name
 from duality.model.base import Model
 from duality.solve.points import complete_point, value_at
 from duality.solve.result import Derived
@@ -263,7 +263,7 @@ def exports(model: Model, name: str) -> dict[str, tuple[str, str | None, str]]:
     """Every export target: ``{target: (file name, text, "")}``, or
     ``(file name, None, reason)`` for a target that cannot express this model."""
     out = {}
-    for target in TARGETS:
+    for target in (t.name for t in REGISTRY):
         fname = file_name(name, target)
         try:
             out[target] = (fname, export(model, target, name=name), "")

@@ -147,13 +147,9 @@ def latex_of(d: Derived) -> str:
 
 def model_latex(model: Model) -> str:
     """The model as an equation: ``y = f(x)``, ``u = U(x)`` or the given dual."""
+    head = model.given.latex
     if model.is_primal:
-        lhs = tex(model.level)
-        args = _args_tex(model.quantities)
-        head = "f" if model.is_technology else "U"
-        return f"{lhs} = {head}({args}) = {tex(model.expr)}"
-    head = {"cost": "c", "profit": r"\pi", "expenditure": "e",
-            "indirect_utility": "v"}[model.side]
+        return f"{tex(model.level)} = {head}({_args_tex(model.quantities)}) = {tex(model.expr)}"
     return f"{head}({_args_tex(model.dual_args)}) = {tex(model.expr)}"
 
 

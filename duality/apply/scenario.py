@@ -134,9 +134,9 @@ from ..solve import dual_forms
 from .export import NAMES as EXPORT_NAMES
 from .files import write_atomic
 
-ROLES = ("technology", "preference")
-SIDES = {"primal": None, "cost": "technology", "profit": "technology",
-         "expenditure": "preference", "indirect_utility": "preference"}
+ROLES = _model.ROLES
+#: side -> the role it belongs to (None: either)
+SIDES = {"primal": None, **_model.SIDES}
 
 _NAME = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
 _TOP_KEYS = ("title", "description", "exports", "model", "baseline", "variants", "data")

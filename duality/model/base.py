@@ -19,15 +19,11 @@ import sympy as sp
 from ..errors import DualityError, ModelError
 from .formula import parse
 from .lambdas import numpy_function
+from .roles import DUAL_KINDS, FUNCTIONS, ROLE_OF, ROLES as _ROLES, Function, Role
 
-ROLES = ("technology", "preference")
-#: side -> (role, level kind, what the formula may contain besides prices and params)
-SIDES = {
-    "cost": "technology",
-    "profit": "technology",
-    "expenditure": "preference",
-    "indirect_utility": "preference",
-}
+ROLES = tuple(_ROLES)
+#: dual side -> the role it belongs to
+SIDES = {kind: ROLE_OF[kind] for kind in DUAL_KINDS}
 _NAME = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
 _ASSUMPTIONS = ("positive", "negative", "nonnegative", "nonpositive", "real")
 
@@ -115,6 +111,18 @@ class Model:
         return self.role == "technology"
 
     @property
+    def role_info(self) -> Role:
+        """The role in words: primal function, duals, level, quantity, level curve
+        (:mod:`duality.model.roles`)."""
+        return _ROLES[self.role]
+
+    @property
+    def given(self) -> Function:
+        """The function this model was given as (production or utility function, or a
+        dual), with its label and head letters."""
+        return FUNCTIONS[self.role_info.primal if self.is_primal else self.side]
+
+    @property
     def numeric_expr(self) -> sp.Expr:
         """The function with every parameter value substituted."""
         return self.expr.xreplace(self.values)
@@ -164,14 +172,10 @@ class Model:
         """One line: role, formula and parameter values."""
         vals = ", ".join(f"{p.name}={p.value:g}" if p.value is not None else f"{p.name} free"
                          for p in self.params)
-        if not self.is_primal:
-            head = {"cost": "c", "profit": "π", "expenditure": "e", "indirect_utility": "v"}
-            args = ", ".join(map(str, self.dual_args))
-            return (f"{self.side.replace('_', ' ')} function {head[self.side]}({args}) = "
-                    f"{self.expr}" + (f"  ({vals})" if vals else ""))
-        what = "production function" if self.is_technology else "utility function"
-        lhs = str(self.level)
-        return f"{what} {lhs} = {self.expr}" + (f"  ({vals})" if vals else "")
+        f = self.given
+        lhs = str(self.level) if self.is_primal else \
+            f"{f.letter}({', '.join(map(str, self.dual_args))})"
+        return f"{f.label} {lhs} = {self.expr}" + (f"  ({vals})" if vals else "")
 
 
 # -- constructors --------------------------------------------------------------------

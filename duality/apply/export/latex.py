@@ -12,6 +12,7 @@ from __future__ import annotations
 import sympy as sp
 from sympy.printing.latex import LatexPrinter
 
+from ...model.roles import FUNCTIONS
 from ...texts import CAUTION
 from ._collect import CASES_ALLOWED, BASE_ALLOWED, Collection, Item, check_supported, fmt_float
 from .code import _version
@@ -30,8 +31,7 @@ def _tex(expr) -> str:
 
 def _lhs(it: Item) -> str:
     d = it.derived
-    head = _tex(sp.Symbol(it.head)) if it.quantity else {
-        "cost": "c", "profit": r"\pi", "expenditure": "e", "indirect_utility": "v"}[d.kind]
+    head = _tex(sp.Symbol(it.head)) if it.quantity else FUNCTIONS[d.kind].latex
     return f"{head}({', '.join(_tex(a) for a in it.args)})"
 
 

@@ -288,7 +288,7 @@ def _build(role: str, formula: str | sp.Expr, quantities: list[str], prices: lis
     if len(prices) != len(quantities):
         raise ModelError(f"{len(quantities)} quantities but {len(prices)} prices; "
                          "give one price per quantity")
-    qword = "input" if role == "technology" else "good"
+    qword = _ROLES[role].quantity
     values, psyms = _names_and_parameters(role, [(qword, quantities), ("price", prices)],
                                           level, output_price, income, params, assume)
     qsyms = {q: sp.Symbol(q, positive=True) for q in quantities}
@@ -331,7 +331,7 @@ def _names_and_parameters(role: str, groups: list, level: str, output_price: str
     """
     params = dict(params or {})
     assume = dict(assume or {})
-    extra = [("output" if role == "technology" else "utility level", [level])]
+    extra = [(_ROLES[role].level, [level])]
     if output_price is not None:
         extra.append(("output price", [output_price]))
     if income is not None:
@@ -395,7 +395,7 @@ def _check_monotone(model: Model) -> None:
             val = _safe_eval(fn, up)
             if val is not None and val < base - 1e-9 * max(1.0, abs(base)):
                 where = ", ".join(f"{q}={v:g}" for q, v in zip(model.quantities, x))
-                what = "production function" if model.is_technology else "utility function"
+                what = model.given.label
                 raise ModelError(
                     f"the {what} decreases in {model.quantities[i]} at {where}; it must be "
                     "non-decreasing in every quantity (check the sign of its parameters)")
@@ -403,7 +403,7 @@ def _check_monotone(model: Model) -> None:
         raise ModelError("the formula has no real, finite value at any quantity point tried "
                          "(all quantities 1, 2, 5, 10 and random points in [1, 10])")
     if len(values) == 1:
-        what = "production function" if model.is_technology else "utility function"
+        what = model.given.label
         raise ModelError(f"the {what} takes the same value ({values.pop():g}) at every "
                          "quantity point tried (all quantities 1, 2, 5, 10 and random points "
                          "in [1, 10]); no quantity changes it (check its parameters)")
@@ -449,7 +449,7 @@ def _build_dual(side: str, formula, prices, quantities, *, level: str,
     if len(quantities) != len(prices):
         raise ModelError(f"{len(prices)} prices but {len(quantities)} quantities; give one "
                          "quantity name per price")
-    qword = "input" if role == "technology" else "good"
+    qword = _ROLES[role].quantity
     values, psyms = _names_and_parameters(role, [("price", prices), (qword, quantities)],
                                           level, output_price, income, params, assume)
     price_syms = {p: sp.Symbol(p, positive=True) for p in prices}

@@ -75,8 +75,7 @@ def export_latex_document(col: Collection, *, name: str, values: bool = True) ->
     m = col.model
     if m is not None:
         out += [r"\section{Model}"]
-        what = ("production function" if m.is_technology else "utility function") \
-            if m.is_primal else f"{m.side.replace('_', ' ')} function"
+        what = m.given.label
         lhs = _tex(m.level) if m.is_primal else "F"
         out += [f"The model is a {escape(m.role)} given by its {escape(what)}"
                 + (f" ({escape(m.name)})" if m.name else "") + ":",

@@ -114,8 +114,17 @@ def evaluate(what, data, *, columns: Mapping[str, str] | None = None):
             kw = {str(a): arrays[str(a)] for a in d.args}
             kw.update({str(s): arrays[str(s)] for s in d.free_params if str(s) in arrays})
             out[key] = np.asarray(d(**kw), dtype=float)
-    for w in caught[:1]:
-        warnings.warn(str(w.message), NumericWarning, stacklevel=2)
+    if caught:
+        # one warning counting every row with a NaN in any column, with each reason once
+        nrows = len(data.index) if is_frame else max(
+            (np.size(a) for a in arrays.values()), default=1)
+        bad = np.zeros(nrows, dtype=bool)
+        for v in out.values():
+            bad |= np.broadcast_to(np.isnan(v), bad.shape) if np.ndim(v) else np.isnan(v)
+        reasons = list(dict.fromkeys(str(w.message) for w in caught))
+        warnings.warn(f"{int(bad.sum())} of {nrows} row(s) have no value in at least one "
+                      f"column (returned as NaN): " + "; ".join(reasons),
+                      NumericWarning, stacklevel=2)
     if is_frame:
         return pd.DataFrame(out, index=data.index)
     return out

@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import os
+import warnings
 
 import numpy as np
 import pandas as pd
@@ -141,3 +142,19 @@ def test_long_columns_are_evaluated_block_by_block_with_the_same_numbers():
     w1[-1] = -1.0
     with pytest.raises(dy.DualityError, match="w1 must be positive"):
         c(w1=w1, w2=w2, y=4.0)
+
+
+def test_the_warning_counts_every_row_without_a_value():
+    # u = log(x1 − 2) + 0.5 log x2 + √x3 at p = (1, 1, 1): incomes 1.5 and 1.9 do not buy the
+    # subsistence bundle (p1·2 = 2), so those two rows have no demands; the other three
+    # are interior (the demands solve a quadratic in 1/λ by hand: at m = 6, x = (4, 1, 1))
+    u = dy.preference("log(x1-2) + 0.5*log(x2) + x3^0.5", ["x1", "x2", "x3"])
+    v = dy.indirect_utility(u, budget=30)
+    df = pd.DataFrame({"p1": 1.0, "p2": 1.0, "p3": 1.0, "m": [1.5, 2.5, 6.0, 1.9, 3.0]})
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", dy.NumericWarning)
+        out = dy.evaluate(v, df)
+    msgs = [str(w.message) for w in caught if issubclass(w.category, dy.NumericWarning)]
+    assert len(msgs) == 1 and msgs[0].startswith("2 of 5 row(s)")
+    assert out["x1"].isna().tolist() == [True, False, False, True, False]
+    assert out.loc[2, ["x1", "x2", "x3"]].tolist() == pytest.approx([4.0, 1.0, 1.0], rel=1e-9)

@@ -312,7 +312,8 @@ def _resolve_columns(eng: _Engine, data: pd.DataFrame, columns) -> dict[str, obj
     return out
 
 
-def _observed_shares(eng: _Engine, data: pd.DataFrame, shares) -> np.ndarray:
+def _observed_shares(eng: _Engine, data: pd.DataFrame, shares,
+                     share_tol: float = SHARE_SUM_TOL) -> np.ndarray:
     if not isinstance(shares, Mapping):
         raise DualityError("shares= must map quantity names to columns of observed shares, "
                            f"e.g. {{{eng.names[0]!r}: 'share_col'}}")
@@ -340,12 +341,15 @@ def _observed_shares(eng: _Engine, data: pd.DataFrame, shares) -> np.ndarray:
         cols.append(a)
     S = np.column_stack(cols)
     tot = S.sum(axis=1)
-    bad = np.abs(tot - 1) > SHARE_SUM_TOL
+    bad = np.abs(tot - 1) > share_tol
     if bad.any():
-        pos = int(np.flatnonzero(bad)[0])
-        raise DualityError(f"observed shares do not sum to one at row {data.index[pos]!r}: "
-                           f"the sum is {tot[pos]:.10g} ({int(bad.sum())} row(s) in all; "
-                           f"tolerance {SHARE_SUM_TOL:g})")
+        pos = np.flatnonzero(bad)
+        shown = ", ".join(repr(data.index[k]) for k in pos[:5]) + (" …" if pos.size > 5
+                                                                     else "")
+        raise DualityError(f"observed shares do not sum to one at row {data.index[pos[0]]!r}: "
+                           f"the sum is {tot[pos[0]]:.10g} ({pos.size} row(s) in all: "
+                           f"{shown}; tolerance {share_tol:g}; shares rounded to d digits "
+                           f"need share_tol of about n·0.5e-d)")
     return S
 
 
@@ -527,6 +531,7 @@ class RegularityReport:
 
 def regularity(model: Model, data, *, columns: Mapping[str, object] | None = None,
                shares: Mapping[str, object] | None = None, tol: float = 1e-9,
+               share_tol: float = SHARE_SUM_TOL,
                budget: float | None = DEFAULT_BUDGET,
                restrictions: str = "raise") -> RegularityReport:
     """Check monotonicity and curvature of a model's dual at every row of ``data``.
@@ -543,8 +548,12 @@ def regularity(model: Model, data, *, columns: Mapping[str, object] | None = Non
         Model name -> data column, e.g. ``{"w1": "price_labour", "y": "output"}``.
     shares : mapping, optional
         Quantity name -> column of observed shares (cost or budget shares); they must lie
-        in [0, 1] and sum to one per row within 1e-6.  Residuals fitted minus observed
-        are reported as ``resid_<q>``.
+        in [0, 1] and sum to one per row within ``share_tol``.  Residuals fitted minus
+        observed are reported as ``resid_<q>``.
+    share_tol : float
+        How far a row's observed shares may sum from one (default 1e-6); published
+        shares rounded to d digits need about n·0.5e-d for n quantities.  The rows that
+        do not sum to one exactly (beyond 1e-12) are listed in ``summary["share_sums"]``.
     tol : float
         Relative tolerance of the curvature check.
     budget : float or None
@@ -617,7 +626,14 @@ def regularity(model: Model, data, *, columns: Mapping[str, object] | None = Non
                                f"in column {col!r}; prices, output and income must be "
                                f"positive ({int(bad.sum())} row(s) in all)")
         arrays[name] = a
-    observed = _observed_shares(eng, data, shares) if shares is not None else None
+    try:
+        share_tol = float(share_tol)
+    except (TypeError, ValueError):
+        raise DualityError(f"share_tol must be a number, not {share_tol!r}") from None
+    if not (share_tol >= 0 and math.isfinite(share_tol)):
+        raise DualityError(f"share_tol must be a non-negative number, not {share_tol!r}")
+    observed = (_observed_shares(eng, data, shares, share_tol) if shares is not None
+                else None)
 
     P = np.column_stack([arrays[p] for p in eng.prices])
     L = arrays[eng.level]
@@ -646,6 +662,10 @@ def regularity(model: Model, data, *, columns: Mapping[str, object] | None = Non
                "domain": viol(res["in_domain"]), "at_mean": table,
                "notes": list(dict.fromkeys(notes))}
     if observed is not None:
+        dev = np.abs(observed.sum(axis=1) - 1)
+        off = dev > 1e-12
+        summary["share_sums"] = {"tol": share_tol, "max_dev": float(dev.max()),
+                                 "count": int(off.sum()), "rows": list(idx[off])}
         R = res["shares"] - observed
         summary["share_residuals"] = {
             q: {"mean": float(np.nanmean(R[:, i])),

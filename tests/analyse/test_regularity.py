@@ -356,6 +356,24 @@ def test_observed_shares_must_sum_to_one(tl_data):
         regularity(model, d, shares={"x1": "s1", "x2": "s2"})
 
 
+def test_rounded_published_shares_pass_with_a_share_tolerance(tl_data):
+    # shares printed to 4 digits sum to one only within 3 × 0.5e-4 (rounding of 3 numbers;
+    # common practice, no source): refused at the default tolerance with the rows named,
+    # accepted with share_tol, and the rows that do not sum exactly are reported
+    model = dy.translog_cost(3, params=TL)
+    d = tl_data.assign(s1=0.3333, s2=0.3333, s3=0.3333)
+    d.loc["r2", ["s1", "s2", "s3"]] = [0.2, 0.3, 0.5]
+    cols = {"x1": "s1", "x2": "s2", "x3": "s3"}
+    with pytest.raises(DualityError, match=r"row\(s\) in all: 'r0', 'r1', 'r3', .*share_tol"):
+        regularity(model, d, shares=cols)
+    rep = regularity(model, d, shares=cols, share_tol=1.5e-4)
+    sums = rep.summary["share_sums"]
+    assert sums["count"] == len(d) - 1 and "r2" not in sums["rows"]
+    assert sums["max_dev"] == pytest.approx(1e-4, rel=1e-9)
+    with pytest.raises(DualityError, match="share_tol must be a non-negative number"):
+        regularity(model, d, shares=cols, share_tol=-1)
+
+
 def test_free_parameter_is_named(tl_data):
     params = dict(TL)
     del params["g33"]

@@ -680,6 +680,31 @@ def _verify_profit(model: Model, sol: Solution) -> tuple[bool, str]:
         H = F.h(x)
         if np.linalg.eigvalsh((H + H.T) / 2).max() >= 0:
             return False, "the second-order condition fails (not a maximum)"
+    return _above_shut_down(model, sol, xfn, comp)
+
+
+def _above_shut_down(model: Model, sol: Solution, xfn, comp) -> tuple[bool, str]:
+    """A closed-form profit must not fall below the shut-down profit p·f(0) (x = 0 is
+    feasible when f is defined there): checked at low, middle and high output prices."""
+    ws, p = list(model.prices), model.output_price
+    try:
+        vfn = _lam([p] + ws + list(comp.params), sol.value)
+    except Exception as exc:  # noqa: BLE001
+        return False, f"cannot evaluate ({exc})"
+    for pv, _, w, F in _sample_points(model):
+        f0 = F.f(np.zeros(len(w)))
+        if not math.isfinite(f0):
+            return True, ""
+        for price in (0.25, 2.0, 16.0):
+            with np.errstate(all="ignore"):
+                try:
+                    v = complex(vfn(price, *w, *[pv[s] for s in comp.params]))
+                except (NameError, TypeError, ValueError, ZeroDivisionError):
+                    return False, "cannot evaluate the profit"
+            if abs(v.imag) <= 1e-9 * (1 + abs(v.real)) and \
+                    v.real < price * f0 - 1e-9 * (1 + abs(price * f0)):
+                return False, (f"profit {v.real:.4g} at p={price:g} is below the shut-down "
+                               f"profit p·f(0) = {price * f0:.4g}")
     return True, ""
 
 

@@ -214,3 +214,19 @@ def test_quasi_linear_corner_worked_by_hand():
         assert e(p1=p1, p2=p2, u=u) == pytest.approx(p1 * h[0] + p2 * h[1], rel=1e-12)
         assert e.demands["x1"](p1=p1, p2=p2, u=u) == pytest.approx(h[0], abs=1e-12)
         assert e.demands["x2"](p1=p1, p2=p2, u=u) == pytest.approx(h[1], rel=1e-12)
+
+
+def test_a_closed_form_profit_below_shut_down_is_rejected():
+    # for f = √x1, f(0) = 0, so profit is never below 0 (shut down; Varian 3rd ed., ch. 2,
+    # from memory): the true profit p²/(4 w1) passes, a candidate p − 2 w1 (negative at
+    # low p) is rejected by the numeric check
+    from duality.solve import derive
+    from duality.solve.result import Solution
+
+    t = dy.technology("x1^0.5", ["x1"])
+    p, w1 = t.output_price, t.prices[0]
+    good = Solution(p ** 2 / (4 * w1), (p ** 2 / (4 * w1 ** 2),), "symbolic", "by hand")
+    bad = Solution(p - 2 * w1, (p ** 2 / (4 * w1 ** 2),), "symbolic", "wrong")
+    assert derive._verify_profit(t, good)[0]
+    ok, why = derive._verify_profit(t, bad)
+    assert not ok and "shut-down" in why

@@ -230,3 +230,16 @@ def test_a_closed_form_profit_below_shut_down_is_rejected():
     assert derive._verify_profit(t, good)[0]
     ok, why = derive._verify_profit(t, bad)
     assert not ok and "shut-down" in why
+
+
+def test_quasi_linear_good_not_bought_when_its_marginal_utility_at_zero_is_low():
+    # U = x1 + log(1 + x2): φ'(0) = 1, so x2 = max(0, p1/p2 − 1) while the numeraire is
+    # bought, and x2 = m/p2 when income runs out first (Kuhn–Tucker, by hand; MWG §3.D,
+    # from memory)
+    q = dy.preference("x1 + log(1+x2)", ["x1", "x2"])
+    v = dy.indirect_utility(q)
+    for p2, m, x in ((0.5, 0.2, (0.0, 0.4)), (0.5, 5.0, (4.5, 1.0)), (2.0, 0.2, (0.2, 0.0)),
+                     (2.0, 5.0, (5.0, 0.0))):
+        got = (v.demands["x1"](p1=1.0, p2=p2, m=m), v.demands["x2"](p1=1.0, p2=p2, m=m))
+        assert got == pytest.approx(x, abs=1e-12)
+        assert v(p1=1.0, p2=p2, m=m) == pytest.approx(x[0] + math.log1p(x[1]), abs=1e-12)

@@ -87,10 +87,26 @@ class QuasiLinear(Form):
     def _interior(self, pieces, xs, ws):
         k, a = pieces["numeraire"], pieces["a"]
         wk = ws[xs.index(k)]
-        xo = {x: r.subs(_q, a * ws[xs.index(x)] / wk) for x, r in pieces["root"].items()}
+        xo = {}
+        for x, r in pieces["root"].items():
+            # phi_j'(x_j) = a w_j / w_k; when phi_j is finite at 0 and its marginal there
+            # is below the price ratio, the good is not bought (Kuhn–Tucker: x_j = 0)
+            r = r.subs(_q, a * ws[xs.index(x)] / wk)
+            phi0 = pieces["phi"][x].subs(x, 0)
+            if r.is_positive or not (phi0.is_finite and phi0.is_real):
+                xo[x] = r
+            else:
+                xo[x] = sp.Piecewise((r, r > 0), (sp.Integer(0), True))
         phi = sp.Add(*[p.subs(x, xo[x]) for x, p in pieces["phi"].items()])
         spend_o = sp.Add(*[ws[xs.index(x)] * v for x, v in xo.items()])
         return k, a, wk, xo, phi, spend_o
+
+    def _positive(self, pieces, xs, ws) -> tuple:
+        """Conditions that the non-numeraire quantities are positive where no corner
+        formula covers them (phi_j infinite at 0 but the root's sign unknown)."""
+        k, a, wk, xo, _, _ = self._interior(pieces, xs, ws)
+        return tuple(sp.StrictGreaterThan(v, 0) for v in xo.values()
+                     if not v.is_positive and not isinstance(v, sp.Piecewise))
 
     def solve(self, pieces, xs, ws, g0):
         """Notes
@@ -107,7 +123,8 @@ class QuasiLinear(Form):
         inverse = pieces.get("inverse")
         if inverse is None:
             return CoreSolution(value, demands,
-                                conditions=(sp.StrictGreaterThan(xk, 0),),
+                                conditions=(sp.StrictGreaterThan(xk, 0),)
+                                + self._positive(pieces, xs, ws),
                                 notes=(f"interior solution: valid while the numeraire {k} "
                                        "is bought in positive amount",))
         (j,) = xo
@@ -117,6 +134,7 @@ class QuasiLinear(Form):
         return CoreSolution(
             sp.Piecewise((value, inside), (ws[xs.index(j)] * xj, True)),
             tuple(sp.Piecewise((d, inside), (corner[x], True)) for x, d in zip(xs, demands)),
+            conditions=self._positive(pieces, xs, ws),
             notes=(f"corner solution (none of the numeraire {k} bought) where the level is "
                    "at or below what the other good gives at its interior quantity",))
 
@@ -124,10 +142,12 @@ class QuasiLinear(Form):
         k, a, wk, xo, phi, spend_o = self._interior(pieces, xs, ws)
         interior = a * (spend - spend_o) / wk + phi
         if pieces.get("inverse") is None:
-            return interior, (sp.StrictGreaterThan(spend - spend_o, 0),)
+            return interior, (sp.StrictGreaterThan(spend - spend_o, 0),) \
+                + self._positive(pieces, xs, ws)
         (j,), (phij,) = xo, pieces["phi"].values()
         at_corner = phij.subs(j, spend / ws[xs.index(j)])
-        return sp.Piecewise((interior, spend > spend_o), (at_corner, True)), ()
+        return (sp.Piecewise((interior, spend > spend_o), (at_corner, True)),
+                self._positive(pieces, xs, ws))
 
     def marshallian(self, pieces, xs, ws, m):
         k, a, wk, xo, phi, spend_o = self._interior(pieces, xs, ws)

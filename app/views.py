@@ -205,7 +205,7 @@ def _badge(route: str) -> None:
 
 
 def _card(card) -> None:
-    if isinstance(card, A.Unavailable):
+    if isinstance(card, A.UnavailableCard):
         st.subheader(card.title)
         st.info(f"Not available: {card.reason}")
         return
@@ -261,8 +261,8 @@ def view_duals(model) -> None:
 def view_elasticities(model) -> None:
     _cards, pt = _derive(model)
     tabs = A.elasticity_tables(model, pt)
-    if isinstance(tabs, str):
-        st.info(f"No elasticities: {tabs}")
+    if isinstance(tabs, dy.Unavailable):
+        st.info(f"No elasticities: {tabs.reason}")
         return
     st.caption("at the baseline: " + ", ".join(f"{k} = {v:.4g}" for k, v in pt.items()))
     left, right = st.columns([2, 3])
@@ -362,8 +362,8 @@ def view_scenarios(model) -> None:
     ss = st.session_state
     _variant_editor()
     table = A.welfare(ss.scenario)
-    if isinstance(table, str):
-        st.info(table)
+    if isinstance(table, dy.Unavailable):
+        st.info(table.reason)
         return
     for name, v in ss.scenario.variants.items():
         st.markdown(f"**{name}** — {v.description or ''}")

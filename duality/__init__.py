@@ -41,7 +41,7 @@ from .analyse.recovery import Recovered, recover
 from .apply.scenario import load as load_scenario, save as save_scenario
 from .analyse.theory import impose_restrictions, restrictions, violations
 from .apply.welfare import compare as price_change, scenario_table
-from .solve.result import Derived, NumericWarning
+from .solve.result import Derived, NumericWarning, Unavailable
 
 
 # Import paths from before the stages became folders (``duality.derive`` is now
@@ -83,5 +83,5 @@ __all__ = [
     "Model", "Parameter", "Derived", "Conjugate", "CheckRecord", "ElasticityTable",
     "CATALOGUE", "DEFAULT_BUDGET",
     "DualityError", "FormulaError", "ModelError", "NoSolutionError", "DomainError",
-    "BudgetExceeded", "NumericWarning",
+    "BudgetExceeded", "NumericWarning", "Unavailable",
 ]

@@ -35,7 +35,7 @@ from .apply.evaluate import evaluate_file, functions_of
 from .apply.welfare import scenario_table
 from .solve.derive import DEFAULT_BUDGET, duals as derive_duals
 from .errors import DualityError
-from .solve.result import KINDS, Derived
+from .solve.result import KINDS, Derived, Unavailable
 
 #: The built-in default model: a small decreasing-returns technology.
 DEFAULT = {"formula": "2*x1^0.3*x2^0.5", "role": "technology", "quantities": "x1,x2"}
@@ -83,7 +83,7 @@ def _parse_point(text: str) -> dict[str, float]:
 
 
 def _duals(model, budget):
-    """(title, Derived or reason) for every dual of the model."""
+    """(title, Derived or Unavailable) for every dual of the model."""
     return [(KINDS[kind][0], d) for kind, d in derive_duals(model, budget=budget).items()]
 
 
@@ -143,8 +143,8 @@ def _report(model, budget, at, as_json: bool, with_checks: bool = True) -> None:
     if as_json:
         out = {"model": model.describe(), "caution": CAUTION, "duals": {}, "checks": []}
         for title, d in duals:
-            if isinstance(d, str):
-                out["duals"][title] = {"exists": False, "reason": d}
+            if isinstance(d, Unavailable):
+                out["duals"][title] = {"exists": False, "reason": d.reason}
                 continue
             out["duals"][title] = {
                 "expr": None if d.expr is None else str(d.expr), "route": d.route,
@@ -162,8 +162,8 @@ def _report(model, budget, at, as_json: bool, with_checks: bool = True) -> None:
     click.echo(f"evaluated at: {', '.join(f'{k}={v:g}' for k, v in point.items())}")
     for title, d in duals:
         click.echo("")
-        if isinstance(d, str):
-            click.echo(f"{title}: does not exist — {d}")
+        if isinstance(d, Unavailable):
+            click.echo(f"{title}: does not exist — {d.reason}")
             continue
         click.echo(d.summary())
         v = _value(d, point)

@@ -423,9 +423,9 @@ def view_data(model) -> None:
         return
     s = rep.summary
     c = st.columns(3)
-    c[0].metric("rows", s["n_rows"])
-    c[1].metric("monotonicity violations", s["monotonicity"]["count"])
-    c[2].metric("curvature violations", s["curvature"]["count"])
+    c[0].metric("rows", s.n_rows)
+    c[1].metric("monotonicity violations", s.monotonicity.count)
+    c[2].metric("curvature violations", s.curvature.count)
     st.dataframe(rep.rows)
     with st.expander("full report"):
         st.text(rep.as_text())

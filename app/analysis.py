@@ -291,16 +291,16 @@ def export_name(title: str) -> str:
 
 
 @lru_cache(maxsize=64)
-def exports(model: Model, name: str) -> dict[str, tuple[str, str | None, str]]:
-    """Every export target: ``{target: (file name, text, "")}``, or
-    ``(file name, None, reason)`` for a target that cannot express this model."""
+def exports(model: Model, name: str) -> dict[str, tuple[str, str | Unavailable]]:
+    """Every export target: ``{target: (file name, text)}``, the text being
+    :class:`Unavailable` with the reason for a target that cannot express this model."""
     out = {}
     for target in TARGETS:
         fname = file_name(name, target)
         try:
-            out[target] = (fname, export(model, target, name=name), "")
+            out[target] = (fname, export(model, target, name=name))
         except DualityError as exc:
-            out[target] = (fname, None, str(exc))
+            out[target] = (fname, Unavailable(str(exc)))
     return out
 
 

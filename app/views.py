@@ -487,11 +487,11 @@ def view_export_save(model) -> None:
         st.markdown("**Exports** of every derived function with closed form")
         with st.spinner("Printing the exports…"):
             exports = A.exports(model, name)
-        for target, (fname, text, reason) in exports.items():
-            if text is None:
-                st.button(f"{target}: not available", disabled=True, help=reason,
+        for target, (fname, text) in exports.items():
+            if isinstance(text, dy.Unavailable):
+                st.button(f"{target}: not available", disabled=True, help=text.reason,
                           key=f"ex_off_{target}")
-                st.caption(reason)
+                st.caption(text.reason)
             else:
                 st.download_button(f"{target} — {fname}", text, file_name=fname,
                                    key=f"ex_{target}", mime="text/plain")

@@ -79,7 +79,7 @@ class RegularityWarning(UserWarning):
 # ----------------------------------------------------------------------------------------
 # compiled derivatives (once per model)
 # ----------------------------------------------------------------------------------------
-@dataclass
+@dataclass(frozen=True, kw_only=True)
 class _Engine:
     role: str                      # "technology" | "preference"
     names: tuple[str, ...]         # quantity names
@@ -133,9 +133,10 @@ def _build_engine(model: Model, budget) -> _Engine:
             out[("gl", i)] = sp.diff(grad[i], y)
         fn, layout = _compile(c.args, out)
         conds = _conditions(c)
-        return _Engine("technology", tuple(str(q) for q in model.quantities),
-                       tuple(map(str, ws)), str(y), fn, layout, conditions=conds,
-                       route=c.route, notes=tuple(c.notes), label=c.label)
+        return _Engine(role="technology", names=tuple(str(q) for q in model.quantities),
+                       prices=tuple(map(str, ws)), level=str(y), fn=fn, layout=layout,
+                       conditions=conds, route=c.route, notes=tuple(c.notes),
+                       label=c.label)
     v = indirect_utility(model, budget=budget)
     V = _closed(v, "indirect utility function")
     ps, m = v.args[:-1], v.args[-1]
@@ -173,9 +174,10 @@ def _build_engine(model: Model, budget) -> _Engine:
     elif e is not None:
         notes.append("the expenditure function is numeric only; substitution matrix from "
                      "the Slutsky equation of the Marshallian demands")
-    return _Engine("preference", tuple(str(q) for q in model.quantities),
-                   tuple(map(str, ps)), str(m), fn, layout, fn_e, layout_e, conds,
-                   route, tuple(notes), v.label)
+    return _Engine(role="preference", names=tuple(str(q) for q in model.quantities),
+                   prices=tuple(map(str, ps)), level=str(m), fn=fn, layout=layout, fn_e=fn_e,
+                   layout_e=layout_e, conditions=conds, route=route, notes=tuple(notes),
+                   label=v.label)
 
 
 def _conditions(d) -> list:

@@ -11,7 +11,9 @@ The public contract (kept stable)::
 Results carry ``.expr``, ``.route``, ``.source`` and ``.demands`` and are callable with
 keyword values.  Around them: :func:`elasticities`, :func:`shephard`, :func:`hotelling`,
 :func:`roy`, :func:`shares`, :func:`allen_uzawa`, :func:`morishima`, :func:`parse`,
-:func:`evaluate` (tables, dask, files).
+:func:`evaluate` (tables, dask, files).  Where a result may not exist (e.g. the
+profit function of a constant-returns technology, in ``duality.solve.derive.duals``) it is
+an :class:`Unavailable`: falsy, and ``.reason`` says why.
 
 Results hold only for the assumed functional form and parameter values.
 """

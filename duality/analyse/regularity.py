@@ -640,9 +640,10 @@ def regularity(model: Model, data, *, columns: Mapping[str, object] | None = Non
     Returns
     -------
     RegularityReport
-        ``summary`` (a :class:`RegularitySummary`) and ``rows`` (a DataFrame with the data's index) holds ``value`` (c or e), ``utility``
-        (preference), ``demand_<q>``, ``share_<q>``, ``eps_<q>_<price>``, for a preference
-        also ``hicks_<q>_<price>`` (compensated) and ``income_elast_<q>``, for a technology
+        ``summary`` (a :class:`RegularitySummary`) and ``rows``, a DataFrame with the
+        data's index holding ``value`` (c or e), ``utility`` (preference),
+        ``demand_<q>``, ``share_<q>``, ``eps_<q>_<price>``, for a preference also
+        ``hicks_<q>_<price>`` (compensated) and ``income_elast_<q>``, for a technology
         ``output_elast_<q>`` and ``rts``; ``allen_<qi>_<qj>``, ``morishima_<qi>_<qj>``,
         ``max_eig``, ``monotone``, ``concave``, ``in_domain``.
 

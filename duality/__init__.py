@@ -15,7 +15,8 @@ keyword values.  Around them: :func:`elasticities`, :func:`shephard`, :func:`hot
 profit function of a constant-returns technology, in ``duality.solve.derive.duals``) it is
 an :class:`Unavailable`: falsy, and ``.reason`` says why.
 
-Results hold only for the assumed functional form and parameter values.
+Results hold only for the assumed functional form and parameter values;
+check them before they inform a policy or pricing decision.
 """
 from __future__ import annotations
 

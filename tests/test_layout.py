@@ -95,3 +95,25 @@ def test_former_import_paths_still_work():
     for old, new in duality._FORMER_PATHS.items():
         assert importlib.import_module(f"duality.{old}") is importlib.import_module(
             f"duality.{new}")
+
+
+def test_tests_never_skip_over_the_package_itself():
+    # a missing or broken module of our own must fail loudly, not skip (importorskip is for
+    # optional third-party packages only)
+    tests = Path(__file__).resolve().parent
+    for path in sorted(tests.rglob("*.py")):
+        for node in ast.walk(ast.parse(path.read_text(), str(path))):
+            if (isinstance(node, ast.Call) and isinstance(node.func, ast.Attribute)
+                    and node.func.attr == "importorskip" and node.args
+                    and isinstance(node.args[0], ast.Constant)):
+                root = str(node.args[0].value).split(".")[0]
+                assert root not in ("duality", "app"), (
+                    f"{path.relative_to(tests)}:{node.lineno} skips when "
+                    f"{node.args[0].value} cannot be imported; import it directly")
+
+
+def test_tests_mirror_the_stage_folders():
+    tests = Path(__file__).resolve().parent
+    for stage in STAGES:
+        assert (tests / stage).is_dir(), f"tests/{stage}/ is missing"
+    assert (tests / "webapp").is_dir()

@@ -12,11 +12,6 @@ from duality.apply.evaluate import evaluate, evaluate_dask, evaluate_file
 
 
 @pytest.fixture
-def rng():
-    return np.random.default_rng(7)
-
-
-@pytest.fixture
 def frame(rng):
     n = 500
     return pd.DataFrame({"w1": rng.uniform(0.5, 2, n), "w2": rng.uniform(0.5, 2, n),

@@ -10,7 +10,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 import duality as dy
-from duality.apply import scenario as sc
+from duality.apply import export, scenario as sc
 from duality.errors import DualityError
 
 SCENARIOS = Path(__file__).resolve().parents[2] / "scenarios"
@@ -457,5 +457,4 @@ def test_round_trip_through_a_file(tmp_path_factory, s):
 
 def test_export_names_match_the_export_table():
     # the names accepted in 'exports' are exactly the targets the exporters register
-    export = pytest.importorskip("duality.apply.export")
     assert set(sc.EXPORT_TARGETS) == set(export.TARGETS)

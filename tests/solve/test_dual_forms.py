@@ -204,7 +204,7 @@ def test_bad_calls_are_named(call, message):
     assert message in str(err.value)
 
 
-# -- naming scheme and the catalogue table ---------------------------------------------------------
+# -- naming scheme and the catalogue table ----------------------------------------------------
 @pytest.mark.parametrize("n", [2, 3, 5])
 def test_parameter_names_follow_the_scheme(n):
     # symmetric second-order terms are one parameter each (i <= j): n(n+1)/2 of them

@@ -83,9 +83,9 @@ def test_value_at_and_point_for():
 
 
 def test_elasticity_tables_are_the_cobb_douglas_ones():
-    # Cobb–Douglas, exponents a = 0.25, b = 0.25 → cost shares ½; conditional price
-    # elasticities ε_ij = s_j − δ_ij; Allen–Uzawa σ_12 = 1, σ_ii = −(1 − s_i)/s_i; Morishima
-    # 1; output elasticity 1/(a + b) = 2; returns to scale ½ (Varian 1992, ch. 4;
+    # Cobb–Douglas, exponents a = 0.2, b = 0.3 → cost shares s = (0.4, 0.6); conditional
+    # price elasticities ε_ij = s_j − δ_ij; Allen–Uzawa σ_12 = 1, σ_ii = −(1 − s_i)/s_i;
+    # Morishima 1; output elasticity 1/(a + b) = 2; returns to scale ½ (Varian 1992, ch. 4;
     # Blackorby and Russell, American Economic Review 79 (1989); from memory)
     model = dy.technology("x1^0.2*x2^0.3", ["x1", "x2"])
     tab = an.elasticity_tables(model, {"w1": 1.0, "w2": 2.0, "y": 3.0, "p": 1.0})

@@ -14,6 +14,9 @@ builders), so the identities below must hold at every draw:
 * Almost Ideal: Roy's identity gives Deaton and Muellbauer's budget shares, which sum to
   one, and e(p, v(p, m)) = m.
 
+Homogeneity, adding-up and symmetry are also checked symbolically (the difference simplifies
+to zero under the published restrictions, and homogeneity fails without them).
+
 Duality theory: Varian, Microeconomic Analysis, 3rd ed. (1992), ch. 5–8; Mas-Colell,
 Whinston & Green (1995), §3.G and §5.C (from memory).  Each model is derived once with its
 parameters free and evaluated with the drawn values as keywords, so the examples are cheap.
@@ -25,6 +28,7 @@ from functools import lru_cache
 
 import numpy as np
 import pytest
+import sympy as sp
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
@@ -311,3 +315,60 @@ def test_aids_marshallian_shares_are_deaton_muellbauer_and_add_up(case):
     u = call(v, ipt, params)
     back = call(e, {**{p: point[p] for p in prices}, "u": u}, params)
     assert back == pytest.approx(point["m"], rel=REL)
+
+
+# =========================================================================================
+# The same identities symbolically: the difference simplifies to zero under the published
+# restrictions (and homogeneity fails without them where the form needs them)
+# =========================================================================================
+def published_restrictions(form: str, n: int, sym: dict) -> dict:
+    """Homogeneity (and for AIDS adding-up) solved for the last coefficients: Σ a_i = 1,
+    rows of g summing to zero, Σ g_iy = 0 (Christensen, Jorgenson and Lau 1973); Σ a_i = 1,
+    Σ b_i = 0, Σ_j g_ij = 0 (Deaton and Muellbauer 1980); none for the generalized Leontief
+    form, homogeneous by construction (Diewert 1971); all from memory."""
+    def g(i, j):
+        return sym[f"g{min(i, j)}{max(i, j)}"]
+    sub = {}
+    if form in ("translog_cost", "aids_expenditure"):
+        sub[sym[f"a{n}"]] = 1 - sum(sym[f"a{i}"] for i in range(1, n))
+        for i in range(1, n + 1):
+            sub[g(i, i)] = -sum(g(i, j) for j in range(1, n + 1) if j != i)
+    if form == "translog_cost":
+        sub[sym[f"g{n}y"]] = -sum(sym[f"g{i}y"] for i in range(1, n))
+    if form == "aids_expenditure":
+        sub[sym[f"b{n}"]] = -sum(sym[f"b{i}"] for i in range(1, n))
+    return sub
+
+
+def _vanishes(expr) -> bool:
+    e = sp.expand(sp.expand_log(expr, force=True))
+    return sp.simplify(sp.powsimp(sp.expand_power_base(e, force=True), force=True)) == 0
+
+
+@pytest.mark.parametrize("n", [2, 3])
+@pytest.mark.parametrize("form", FORMS)
+def test_homogeneity_and_adding_up_symbolically(form, n):
+    model = model_of(form, n)
+    d, demands = spending(form, n)
+    sym = {p.name: p.symbol for p in model.params}
+    sub = published_restrictions(form, n, sym)
+    t = sp.Symbol("t", positive=True)
+    c = d.expr.xreplace(sub)
+    scaled = c.xreplace({p: t * p for p in model.prices})
+    assert _vanishes(sp.log(scaled) - sp.log(c) - sp.log(t))
+    if sub:   # the restrictions matter: without them homogeneity fails
+        raw = d.expr.xreplace({p: t * p for p in model.prices})
+        assert not _vanishes(sp.log(raw) - sp.log(d.expr) - sp.log(t))
+    spent = sum(p * x.expr.xreplace(sub) for p, x in zip(model.prices, demands))
+    assert _vanishes(sp.expand(spent / c) - 1)
+
+
+@pytest.mark.parametrize("form", FORMS)
+def test_cross_price_derivatives_symmetric_symbolically(form):
+    model = model_of(form, 3)
+    _, demands = spending(form, 3)
+    ps = model.prices
+    for i in range(3):
+        for j in range(i + 1, 3):
+            diff = sp.diff(demands[i].expr, ps[j]) - sp.diff(demands[j].expr, ps[i])
+            assert sp.simplify(diff) == 0

@@ -72,13 +72,6 @@ def test_given_catalogue_form_is_tagged_with_its_source():
     assert "generalized leontief cost" in sol.method
 
 
-def test_every_side_has_its_lemma():
-    # Shephard (cost, expenditure), Hotelling (profit), Roy (indirect utility): Varian 1992,
-    # ch. 5–7 (from memory)
-    assert dd.LEMMA == {"cost": "Shephard's lemma", "expenditure": "Shephard's lemma",
-                        "profit": "Hotelling's lemma", "indirect_utility": "Roy's identity"}
-
-
 # -- closed-form inversion ----------------------------------------------------------------------
 def test_invert_finds_the_cobb_douglas_expenditure_function():
     # v = m / (p1^0.3 p2^0.7) = u  ⇔  m = u p1^0.3 p2^0.7 (Varian 1992, ch. 7; from memory)

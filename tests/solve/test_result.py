@@ -11,7 +11,7 @@ import sympy as sp
 
 from duality.errors import DomainError, DualityError
 from duality.solve import result
-from duality.solve.result import KINDS, ROUTES, Derived, NumericWarning
+from duality.solve.result import ROUTES, Derived, NumericWarning
 
 w1, w2, y = sp.symbols("w1 w2 y", positive=True)
 A = sp.Symbol("A", positive=True)
@@ -157,17 +157,6 @@ def test_a_derived_function_survives_pickling():
     assert back(w1=1.5, w2=0.6, y=3.0) == pytest.approx(before, rel=1e-15)
     assert before == pytest.approx(cd_cost(1.5, 0.6, 3.0), rel=1e-14)
     assert (back.route, back.source, back.params) == (c.route, c.source, c.params)
-
-
-def test_every_kind_has_a_label_and_a_head():
-    # the heads are the usual letters (Varian 1992, ch. 4–7; from memory)
-    assert KINDS["cost"] == ("cost function", "c")
-    assert KINDS["profit"] == ("profit function", r"\pi")
-    assert KINDS["expenditure"] == ("expenditure function", "e")
-    assert KINDS["indirect_utility"] == ("indirect utility function", "v")
-    assert KINDS["hicksian_demand"][1] == "h"
-    for label, head in KINDS.values():
-        assert label and head
 
 
 def test_array_results_are_writeable_copies():

@@ -11,6 +11,7 @@ import sympy as sp
 
 import duality as dy
 from app import analysis as an
+from duality.apply import scenario as sc
 from duality.apply.export import TARGETS
 
 # y = x1^0.25 x2^0.25 (decreasing returns, degree ½): c = 2 (w1 w2)^½ y², conditional demand
@@ -138,7 +139,7 @@ def test_welfare_table_and_bars_have_the_cobb_douglas_cv_ev_and_surplus():
     # Cobb–Douglas, oil share 0.4, oil price 1 → 1.5, income 100 (Varian 1992, ch. 10;
     # from memory): CV = m − e(p1, u0) = 100 (1 − 1.5^0.4), EV = e(p0, u1) − m =
     # 100 (1.5^−0.4 − 1), ΔCS = −∫ 0.4 m / p dp = −40 ln 1.5
-    s = dy.apply.scenario.loads(SCENARIO)
+    s = sc.loads(SCENARIO)
     table = an.welfare(s)
     bars = an.welfare_bars_data(table, "preference")
     got = {r.measure: r.change for r in bars.itertuples()}
@@ -154,7 +155,7 @@ def test_welfare_table_and_bars_have_the_cobb_douglas_cv_ev_and_surplus():
 
 def test_welfare_without_variants_says_so():
     text = SCENARIO.split("[variants.")[0]
-    got = an.welfare(dy.apply.scenario.loads(text))
+    got = an.welfare(sc.loads(text))
     assert isinstance(got, str) and "no price variants" in got
 
 

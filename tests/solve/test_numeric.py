@@ -21,7 +21,7 @@ def fns(model) -> numeric._Fns:
     return numeric._Fns(comp, tuple(float(model.values[p]) for p in comp.params))
 
 
-# -- compiled derivatives -----------------------------------------------------------------------
+# -- compiled derivatives ---------------------------------------------------------------------
 def test_compiled_gradient_and_hessian_are_sympys(rng):
     model = dy.technology("A*x1^0.3*x2^0.5 + log(1 + x1)", ["x1", "x2"], params={"A": 1.7})
     comp = numeric.compile_model(model)
@@ -39,7 +39,7 @@ def test_compiled_gradient_and_hessian_are_sympys(rng):
         assert np.allclose(F.h(x), want_h, rtol=1e-12)
 
 
-# -- spending: min w·x s.t. f(x) = y ----------------------------------------------------------------
+# -- spending: min w·x s.t. f(x) = y ----------------------------------------------------------
 def test_spending_point_is_the_ces_cost_function():
     # y = (x1^½ + x2^½)² has c = y (w1^{-1} + w2^{-1})^{-1} = y w1 w2 / (w1 + w2), conditional
     # demand x1 = y (w2 / (w1 + w2))² (Varian, Microeconomic Analysis, 3rd ed. (1992), ch. 4,
@@ -84,7 +84,7 @@ def test_spending_with_convex_isoquants_is_refused_not_answered():
     assert not ok and math.isnan(value) and np.isnan(x).all()
 
 
-# -- utility: max f(x) s.t. p·x = m -------------------------------------------------------------------
+# -- utility: max f(x) s.t. p·x = m -----------------------------------------------------------
 def test_utility_point_is_the_cobb_douglas_indirect_utility():
     # U = x1^0.3 x2^0.7: x1 = 0.3 m / p1, v = (0.3 m / p1)^0.3 (0.7 m / p2)^0.7
     # (Varian 1992, ch. 7; from memory)
@@ -122,7 +122,7 @@ def test_utility_with_convex_indifference_curves_is_refused():
     assert not ok and math.isnan(value)
 
 
-# -- profit: max p f(x) − w·x -------------------------------------------------------------------------
+# -- profit: max p f(x) − w·x -----------------------------------------------------------------
 def test_profit_point_is_the_cobb_douglas_profit_function():
     # y = x1^¼ x2^¼: c = 2 (w1 w2)^½ y², so π = p² / (8 (w1 w2)^½) and y* = p / (4 (w1 w2)^½)
     # (Varian 1992, ch. 4–5; from memory)
@@ -154,7 +154,7 @@ def test_profit_under_increasing_returns_is_refused():
     assert not ok and math.isnan(value) and math.isnan(y)
 
 
-# -- the batch front ----------------------------------------------------------------------------------
+# -- the batch front --------------------------------------------------------------------------
 # a technology with no closed-form cost function (see test_batch.py): the numeric route
 NON_HOMOTHETIC = "x1^0.3*x2^0.5 + log(1 + x1) + {k}*sqrt(x1*x2)"
 

@@ -26,7 +26,8 @@ def _num(expr, model, **at):
 def test_given_cost_function_has_shephard_demands():
     # y = x1^0.3 x2^0.5 has c = K w1^{3/8} w2^{5/8} y^{5/4}, conditional demands
     # x_i = (a_i / s) c / w_i (Varian, Microeconomic Analysis, 3rd ed. (1992), ch. 4–5,
-    # Cobb–Douglas cost function and Shephard's lemma; from memory)
+    # Cobb–Douglas cost function; Shephard's lemma: Mas-Colell, Whinston & Green (1995),
+    # Prop. 5.C.2; from memory)
     model = dy.cost_function("y^1.25*w1^0.375*w2^0.625", ["w1", "w2"])
     sol = dd.given(model)
     assert sol.value == model.expr
@@ -40,7 +41,9 @@ def test_given_cost_function_has_shephard_demands():
 
 def test_given_profit_function_has_hotelling_demands():
     # y = x1^½ + x2^½: x_i = p² / (4 w_i²), π = p²/(4 w1) + p²/(4 w2), supply p/(2 w1) +
-    # p/(2 w2) (first-order conditions p / (2 √x_i) = w_i; common practice, no source)
+    # p/(2 w2) (first-order conditions p / (2 √x_i) = w_i; common practice, no source);
+    # demands −∂π/∂w_i by Hotelling's lemma (Mas-Colell, Whinston & Green (1995),
+    # Prop. 5.C.1; from memory)
     model = dy.profit_function("p^2/(4*w1) + p^2/(4*w2)", ["w1", "w2"])
     sol = dd.given(model)
     assert "Hotelling's lemma" in sol.method
@@ -55,7 +58,8 @@ def test_given_profit_function_has_hotelling_demands():
 
 def test_given_indirect_utility_has_roy_demands():
     # v = m / (p1^0.3 p2^0.7) is Cobb–Douglas; x_1 = 0.3 m / p1, x_2 = 0.7 m / p2
-    # (Varian 1992, ch. 7, Roy's identity; from memory)
+    # (Varian 1992, ch. 7; Roy's identity: Mas-Colell, Whinston & Green (1995), Prop. 3.G.4;
+    # from memory)
     model = dy.indirect_utility_function("m/(p1^0.3*p2^0.7)", ["p1", "p2"])
     sol = dd.given(model)
     assert "Roy's identity" in sol.method

@@ -55,7 +55,8 @@ def test_a_dual_that_does_not_exist_is_shown_with_its_reason():
 
 def test_baseline_of_a_preference_is_completed_with_the_utility_income_buys():
     # U = x1^0.3 x2^0.7: v = (0.3 m / p1)^0.3 (0.7 m / p2)^0.7 and e(p, v(p, m)) = m
-    # (Varian 1992, ch. 7; from memory)
+    # (Varian 1992, ch. 7; Mas-Colell, Whinston & Green (1995), Examples 3.D.1 and 3.E.1,
+    # Prop. 3.E.1; from memory)
     pref = dy.preference("x1^0.3*x2^0.7", ["x1", "x2"])
     base = {"p1": 2.0, "p2": 0.5, "m": 12.0}
     cards, pt = an.cards(pref, base)

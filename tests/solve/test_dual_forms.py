@@ -239,26 +239,13 @@ def test_named_prices_give_named_quantities():
     assert (str(aids.level), str(aids.income)) == ("U", "y")
 
 
-BUILDERS = {"translog_cost": dy.translog_cost,
-            "generalized_leontief_cost": dy.generalized_leontief_cost,
-            "aids_expenditure": dy.aids_expenditure}
-
-
-def test_every_catalogue_entry_has_a_builder_that_tags_its_models():
-    assert set(BUILDERS) == set(dy.DUAL_CATALOGUE)
-    for key, build in BUILDERS.items():
-        model = build(2)
-        assert model.form == key
-        assert model.side == ("expenditure" if key.startswith("aids") else "cost")
-
-
 @pytest.mark.parametrize("key, author", [("translog_cost", "Christensen"),
                                          ("generalized_leontief_cost", "Diewert"),
                                          ("aids_expenditure", "Deaton")])
 def test_derived_functions_carry_the_published_source(key, author):
     entry = dy.DUAL_CATALOGUE[key]
     assert author in entry["source"] and entry["title"]
-    model = BUILDERS[key](2)
+    model = dual_forms.get_form(key).build(2)
     d = dy.cost(model) if model.is_technology else dy.expenditure(model)
     assert d.route == "catalogue" and d.source == entry["source"]
     assert dual_forms.DUAL_CATALOGUE is dy.DUAL_CATALOGUE

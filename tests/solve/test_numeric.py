@@ -203,7 +203,7 @@ def test_rescue_is_limited_and_the_rest_is_reported(monkeypatch, rng):
         got = c(w1=W1, w2=1.0, y=2.0)
     assert np.isfinite(got[:2]).all() and np.isnan(got[2:]).all()
     report = c.solver_report(w1=W1, w2=1.0, y=2.0)
-    assert list(report["converged"]) == [True, True, False, False, False]
+    assert list(report.converged) == [True, True, False, False, False]
 
 
 def test_one_batch_is_solved_once_for_the_value_and_every_demand(monkeypatch):

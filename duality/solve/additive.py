@@ -25,6 +25,7 @@ from typing import Sequence
 import sympy as sp
 
 from ..model.base import Model
+from .result import Unavailable
 
 _q = sp.Symbol("q_", positive=True)
 _t = sp.Symbol("t_", positive=True)
@@ -59,20 +60,22 @@ def _inverse_marginal(phi: sp.Expr, x: sp.Symbol) -> list[sp.Expr]:
             if s.is_real is not False]
 
 
-def candidates(kind: str, model: Model) -> list | str:
+def candidates(kind: str, model: Model) -> list | Unavailable:
     """Worker: candidate (value, demands) pairs of the spending (``kind="spending"``) or
-    utility (``"utility"``) problem of an additive function, or a reason it does not apply."""
+    utility (``"utility"``) problem of an additive function, or :class:`Unavailable` with
+    the reason it does not apply."""
     xs = list(model.quantities)
     parts = split(model.expr, xs)
     if parts is None:
-        return "the function is not a sum of functions of one quantity each"
+        return Unavailable("the function is not a sum of functions of one quantity each")
     const, phis = parts
     prices = list(model.prices)
     inverses = []
     for x, w in zip(xs, prices):
         roots = _inverse_marginal(phis[x], x)
         if len(roots) != 1:
-            return (f"φ'({x}) = q has {len(roots)} closed-form solutions (one is needed)")
+            return Unavailable(f"φ'({x}) = q has {len(roots)} closed-form solutions (one is "
+                               "needed)")
         inverses.append(roots[0].xreplace({_q: w / _t}))
     if kind == "spending":
         eq = sp.Eq(const + sp.Add(*[phis[x].xreplace({x: g}) for x, g in zip(xs, inverses)]),
@@ -82,7 +85,7 @@ def candidates(kind: str, model: Model) -> list | str:
     gap = eq.lhs - eq.rhs
     roots = _solve_for_multiplier(gap)
     if isinstance(roots, str):
-        return roots
+        return Unavailable(roots)
     out = []
     for t in roots:
         if t.is_real is False or t.is_positive is False:

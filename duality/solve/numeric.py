@@ -30,7 +30,7 @@ from ..model.base import Model
 from ..model.lambdas import numpy_function
 from . import batch
 from .domain import CODES, REASONS, code, explain, level_floor, model_domain
-from .result import NumericWarning
+from .result import BatchSolution, NumericWarning
 
 #: First-order conditions must hold to this (relative) accuracy for a point to count.
 KKT_TOL = 1e-9
@@ -330,8 +330,8 @@ class Batch:
     """Solve one problem at every point of a broadcast batch, remembering the last batch.
 
     ``kind`` is ``spending``, ``utility`` or ``profit``.  Calling with a point dict (symbol
-    -> array, as :class:`~duality.solve.result.Derived` passes it) returns a dict with
-    ``value``, ``x`` (one array per quantity), ``y`` (profit only) and ``ok``.
+    -> array, as :class:`~duality.solve.result.Derived` passes it) returns a
+    :class:`~duality.solve.result.BatchSolution`.
     """
 
     def __init__(self, model: Model, kind: str):
@@ -340,20 +340,20 @@ class Batch:
         self._last_key = None
         self._last = None
 
-    def __call__(self, point: dict) -> dict:
+    def __call__(self, point: dict) -> BatchSolution:
         key = tuple((str(k), np.asarray(v).tobytes(), np.shape(v)) for k, v in
                     sorted(point.items(), key=lambda kv: str(kv[0])))
         if key != self._last_key:
             self._last, self._last_key = self._solve(point), key
         out = self._last
-        bad = int((~out["ok"]).sum())
+        bad = int((~out.converged).sum())
         if bad:
-            warnings.warn(f"no numeric solution at {bad} of {out['ok'].size} point(s), "
-                          f"returned as NaN: {explain(out['reason'])}",
+            warnings.warn(f"no numeric solution at {bad} of {out.converged.size} point(s), "
+                          f"returned as NaN: {explain(out.reasons)}",
                           NumericWarning, stacklevel=3)
         return out
 
-    def _solve(self, point: dict) -> dict:
+    def _solve(self, point: dict) -> BatchSolution:
         m = self.model
         missing = [str(s) for s in self.comp.params if s not in point]
         if missing:
@@ -388,12 +388,12 @@ class Batch:
                     F, float(flat[m.output_price][k]), prices[k])
         reason = self._check(flat, prices, params, value, X, Y, ok, lower)
         ys = np.full(ok.size, np.nan) if Y is None else Y
-        return {"value": value.reshape(shape), "x": [X[:, i].reshape(shape)
-                                                     for i in range(X.shape[1])],
-                "y": ys.reshape(shape), "ok": ok.reshape(shape),
-                "reason": reason.reshape(shape),
-                "iterations": res.iterations.reshape(shape),
-                "residual": res.residual.reshape(shape)}
+        return BatchSolution(
+            value=value.reshape(shape),
+            quantities=tuple(X[:, i].reshape(shape) for i in range(X.shape[1])),
+            output=ys.reshape(shape), converged=ok.reshape(shape),
+            iterations=res.iterations.reshape(shape), residual=res.residual.reshape(shape),
+            reasons=reason.reshape(shape))
 
     @property
     def comp_domain(self):
@@ -471,5 +471,5 @@ class Batch:
         reason[~okk & (reason == code("not_converged"))] = code("no_interior_max")
 
 
-__all__ = ["Batch", "REASONS", "CODES", "compile_model", "spending_point", "utility_point", "profit_point",
-           "KKT_TOL", "SOLVER"]
+__all__ = ["Batch", "REASONS", "CODES", "compile_model", "spending_point", "utility_point",
+           "profit_point", "KKT_TOL", "SOLVER"]

@@ -74,8 +74,8 @@ def test_additive_preference_demands_match_the_hand_solution_near_subsistence():
     pt = {s: v for s, v in zip(u.prices, (p1, p2, p3))}
     pt[u.income] = m
     out = b(pt)
-    assert out["ok"].all()
-    X = np.stack(out["x"], axis=1)
+    assert out.converged.all()
+    X = np.stack(out.quantities, axis=1)
     for k in range(len(m)):
         hand = _additive_by_hand(p1[k], p2[k], p3[k], m[k])
         np.testing.assert_allclose(X[k], hand, rtol=1e-8)
@@ -100,8 +100,8 @@ def test_income_below_subsistence_is_a_reason_not_a_number():
     with pytest.warns(dy.NumericWarning, match="does not buy the least bundle"):
         out = b({u.prices[0]: np.array([1.0, 1.0]), u.prices[1]: 1.0, u.prices[2]: 1.0,
                  u.income: np.array([1.5, 3.0])})
-    assert np.isnan(out["value"][0]) and out["ok"][1]
-    assert domain.CODES[out["reason"][0]] == "income_short"
+    assert np.isnan(out.value[0]) and out.converged[1]
+    assert domain.CODES[out.reasons[0]] == "income_short"
 
 
 def test_expenditure_below_the_range_is_a_reason():
@@ -111,8 +111,8 @@ def test_expenditure_below_the_range_is_a_reason():
     b = Batch(t, "spending")
     with pytest.warns(dy.NumericWarning, match="below the lowest value"):
         out = b({t.prices[0]: 1.0, t.prices[1]: 1.0, t.level: np.array([-1.0, 3.0])})
-    assert domain.CODES[out["reason"][0]] == "below_range"
-    assert out["ok"][1]
+    assert domain.CODES[out.reasons[0]] == "below_range"
+    assert out.converged[1]
 
 
 # -- profit: the shut-down option ----------------------------------------------------------
@@ -143,12 +143,12 @@ def test_s_shaped_profit_includes_shut_down(price):
     t = dy.technology(S_SHAPED, ["x1", "x2"])
     b = Batch(t, "profit")
     out = b({t.output_price: price, t.prices[0]: 1.0, t.prices[1]: 1.0})
-    assert out["ok"]
-    assert float(out["value"]) >= 0.0
-    assert float(out["value"]) == pytest.approx(_s_profit_multistart(price, [1, 1]),
+    assert out.converged
+    assert float(out.value) >= 0.0
+    assert float(out.value) == pytest.approx(_s_profit_multistart(price, [1, 1]),
                                                 abs=1e-7)
     if price == 3.0:  # the interior critical point earns −0.487 < 0: shut down
-        assert float(out["y"]) == 0.0 and float(out["x"][0]) == 0.0
+        assert float(out.output) == 0.0 and float(out.quantities[0]) == 0.0
 
 
 def test_profit_without_interior_maximum_is_a_reason():
@@ -156,8 +156,8 @@ def test_profit_without_interior_maximum_is_a_reason():
     b = Batch(t, "profit")
     with pytest.warns(dy.NumericWarning, match="lower bound"):
         out = b({t.output_price: 1.0, t.prices[0]: 1.0, t.prices[1]: 1.0})
-    assert np.isnan(out["value"])
-    assert domain.CODES[int(out["reason"])] == "no_interior_max"
+    assert np.isnan(out.value)
+    assert domain.CODES[int(out.reasons)] == "no_interior_max"
 
 
 def test_reason_codes_cover_every_message():
@@ -225,8 +225,9 @@ def test_a_closed_form_profit_below_shut_down_is_rejected():
 
     t = dy.technology("x1^0.5", ["x1"])
     p, w1 = t.output_price, t.prices[0]
-    good = Solution(p ** 2 / (4 * w1), (p ** 2 / (4 * w1 ** 2),), "symbolic", "by hand")
-    bad = Solution(p - 2 * w1, (p ** 2 / (4 * w1 ** 2),), "symbolic", "wrong")
+    demand = (p ** 2 / (4 * w1 ** 2),)
+    good = Solution(value=p ** 2 / (4 * w1), demands=demand, route="symbolic", method="hand")
+    bad = Solution(value=p - 2 * w1, demands=demand, route="symbolic", method="wrong")
     assert derive._verify_profit(t, good)[0]
     ok, why = derive._verify_profit(t, bad)
     assert not ok and "shut-down" in why

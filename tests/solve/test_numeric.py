@@ -199,7 +199,7 @@ def test_rescue_is_limited_and_the_rest_is_reported(monkeypatch, rng):
                         _fail_everywhere(numeric.batch.solve_spending))
     monkeypatch.setattr(numeric, "RESCUE_LIMIT", 2)
     W1 = rng.uniform(0.5, 3.0, 5)
-    with pytest.warns(dy.NumericWarning, match="did not converge at 3 of 5 point"):
+    with pytest.warns(dy.NumericWarning, match="no numeric solution at 3 of 5 point"):
         got = c(w1=W1, w2=1.0, y=2.0)
     assert np.isfinite(got[:2]).all() and np.isnan(got[2:]).all()
     report = c.solver_report(w1=W1, w2=1.0, y=2.0)

@@ -25,6 +25,7 @@ import warnings
 from pathlib import Path
 
 import click
+import numpy as np
 import pandas as pd
 
 from . import (check as run_checks, conjugate as conj, cost, elasticities, expenditure,
@@ -137,7 +138,9 @@ def _report(model, budget, at, as_json: bool, with_checks: bool = True) -> None:
     el_point = {k: v for k, v in point.items()
                 if k in {str(s) for s in model.prices} | {str(level)}}
     try:
-        table = elasticities(model, budget=budget, **el_point)
+        with np.errstate(all="ignore"), warnings.catch_warnings():
+            warnings.simplefilter("ignore", RuntimeWarning)
+            table = elasticities(model, budget=budget, **el_point)
     except (DualityError, ArithmeticError, ValueError):
         table = None
     if as_json:

@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import importlib.util
 import json
+import os
 import subprocess
 import sys
 import warnings
@@ -52,6 +53,12 @@ class _Fail(click.ClickException):
 
     def show(self, file=None):
         click.echo(f"error: {self.format_message()}", err=True)
+
+
+class _Bug(_Fail):
+    """A failure the package did not foresee, still on one line (exit code 1)."""
+
+    exit_code = 1
 
 
 def _model(formula: str, role: str, quantities: str, params: tuple[str, ...], prices: str | None):
@@ -521,6 +528,8 @@ def _guard(fn) -> None:
     """Run a command body; any error of ours becomes one line and exit code 2."""
     try:
         fn()
+    except click.ClickException:
+        raise
     except DualityError as exc:
         raise _Fail(str(exc).splitlines()[0]) from None
     except OSError as exc:  # unreadable or unwritable files
@@ -528,10 +537,20 @@ def _guard(fn) -> None:
         raise _Fail(f"{exc.strerror or exc}{where}") from None
     except UnicodeDecodeError as exc:
         raise _Fail(f"a file is not text (UTF-8): {exc.reason}") from None
+    except RecursionError:
+        raise _Fail("the input is nested too deeply to read") from None
+    except MemoryError:
+        raise _Fail("not enough memory for this input") from None
     except Exception as exc:  # pandas cannot read a data file
         if type(exc).__module__.startswith("pandas"):
             raise _Fail(f"cannot read the data file: {str(exc).splitlines()[0]}") from None
-        raise
+        if os.environ.get("DUALITY_DEBUG"):
+            raise
+        # a failure the package did not foresee: still one line, never a traceback
+        text = (str(exc).splitlines() or [""])[0][:200]
+        raise _Bug(f"unexpected {type(exc).__name__}: {text} (a defect of duality; set "
+                   "DUALITY_DEBUG=1 to see where it happened, and please report it)") \
+            from None
 
 
 __all__ = ["main", "DEFAULT", "CAUTION"]

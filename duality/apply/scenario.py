@@ -272,8 +272,8 @@ class Scenario:
             what = "the model could not be built"
             if isinstance(exc, FormulaError) and key == "model.formula":
                 what = "the formula could not be read"
-            elif "parameter" in str(exc):
-                key = "model.parameters"
+            else:
+                key = _blamed_key(str(exc), key)
             raise type(exc)(f"{self.where}: key '{key}': {what}: {exc}") from None
         if m.free_params:
             names = ", ".join(str(s) for s in m.free_params)
@@ -321,6 +321,66 @@ class Scenario:
                                f"CSV ({exc})") from None
 
 
+#: what a model-building message is about -> the key of the scenario file to blame
+_BLAME = (
+    (re.compile(r"^parameter '|parameter\(s\)|^the formula cannot take these parameter "
+                r"values|check (the sign of )?its parameters|contradicts its assumption"),
+     "model.parameters"),
+    (re.compile(r"^(input|good) '[^']*' does not appear"), "model.quantities"),
+    (re.compile(r"^price '[^']*' does not appear"), "model.prices"),
+)
+
+
+def _blamed_key(message: str, default: str) -> str:
+    """The scenario key a model-building error is about (``default`` when unsure)."""
+    for pattern, key in _BLAME:
+        if pattern.search(message):
+            return key
+    return default
+
+
+#: deepest nesting of arrays and inline tables read (the TOML reader recurses per level)
+MAX_TOML_DEPTH = 50
+
+
+def _check_nesting(text: str, where: str) -> None:
+    """Refuse deeply nested arrays or inline tables before the TOML reader recurses.
+
+    Brackets inside quoted strings and comments are skipped; ``[[table]]`` headers
+    count as two levels, which is far below the limit.
+    """
+    depth, quote, line = 0, "", 1
+    i, n = 0, len(text)
+    while i < n:
+        c = text[i]
+        if c == "\n":
+            line += 1
+        if quote:
+            if c == "\\" and quote == '"':
+                i += 2
+                continue
+            if text.startswith(quote, i):
+                i += len(quote)
+                quote = ""
+                continue
+        elif c in "\"'":
+            quote = c * 3 if text.startswith(c * 3, i) else c
+            i += len(quote)
+            continue
+        elif c == "#":
+            end = text.find("\n", i)
+            i = n if end < 0 else end
+            continue
+        elif c in "[{":
+            depth += 1
+            if depth > MAX_TOML_DEPTH:
+                raise DualityError(f"{where}: line {line}: arrays or tables nested more "
+                                   f"than {MAX_TOML_DEPTH} levels deep")
+        elif c in "]}":
+            depth = max(0, depth - 1)
+        i += 1
+
+
 # -- reading ------------------------------------------------------------------------------
 def load(path: str | os.PathLike) -> Scenario:
     """Read and validate a scenario file."""
@@ -340,10 +400,14 @@ def load(path: str | os.PathLike) -> Scenario:
 def loads(text: str, path: str | os.PathLike | None = None) -> Scenario:
     """Validate a scenario from TOML text (``path`` is used in messages and for data)."""
     where = str(path) if path is not None else "<scenario text>"
+    text = text.removeprefix("\ufeff")  # a byte-order mark some editors write
+    _check_nesting(text, where)
     try:
         raw = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise DualityError(f"{where}: not valid TOML: {exc}") from None
+    except RecursionError:
+        raise DualityError(f"{where}: arrays or tables nested too deeply") from None
     return from_dict(raw, path=path)
 
 
@@ -527,7 +591,14 @@ class _Validator:
         for key, names in groups:
             for nm in names:
                 if nm in seen:
-                    self.fail(key, f"name {nm!r} is already used in {seen[nm]}; every name "
+                    first = seen[nm]
+                    written = key.removeprefix("model.") in t
+                    if not written:
+                        # a default name (output y, output price p, ...) the user did not
+                        # write: blame the key they wrote
+                        self.fail(first, f"name {nm!r} is also the default name of {key}"
+                                  f"; rename it, or give {key} another name")
+                    self.fail(key, f"name {nm!r} is already used in {first}; every name "
                               "must be distinct")
                 seen[nm] = key
         return spec

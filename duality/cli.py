@@ -36,7 +36,7 @@ from .apply.estimation import fit, log_linear_equation
 from .apply.evaluate import evaluate_file, functions_of
 from .apply.welfare import scenario_table
 from .solve.derive import DEFAULT_BUDGET, duals as derive_duals
-from .errors import DualityError
+from .errors import DualityError, number_file_rows
 from .solve.result import KINDS, Derived
 
 #: The built-in default model: a small decreasing-returns technology.
@@ -419,7 +419,9 @@ def export_cmd(formula, role, quantities, prices, params, at, budget, as_json,
               help="Impose homogeneity in prices by dividing by this price.")
 @click.option("--column", "column_map", multiple=True, metavar="NAME=COLUMN",
               help="Data column for a name (repeatable), e.g. c=cost or y=output.")
-@click.option("--rows", default=None, help="Row range to use, e.g. 1-145 (1-based).")
+@click.option("--rows", default=None,
+              help="Rows of the data file to use, numbered as a spreadsheet shows them "
+                   "(the header is row 1), e.g. 2-146.")
 def estimate_cmd(formula, role, quantities, prices, params, at, budget, as_json,
                  scenario_path, data_path, normalise, column_map, rows):
     """Fit the log-linear equation of the cost function by least squares."""
@@ -436,13 +438,16 @@ def estimate_cmd(formula, role, quantities, prices, params, at, budget, as_json,
             columns[k.strip()] = v.strip()
         if not Path(data_path).exists():
             raise _Fail(f"--data {data_path}: no such file")
-        table = pd.read_csv(data_path)
+        table = number_file_rows(pd.read_csv(data_path))
         if rows:
             try:
                 lo, hi = (int(x) for x in rows.split("-"))
             except ValueError:
-                raise _Fail(f"--rows {rows!r}: expected a range such as 1-145") from None
-            table = table.iloc[lo - 1:hi]
+                raise _Fail(f"--rows {rows!r}: expected a range such as 2-146") from None
+            if not 2 <= lo <= hi:
+                raise _Fail(f"--rows {rows!r}: rows are numbered as a spreadsheet shows the "
+                            "file (the header is row 1, data starts at row 2)")
+            table = table.loc[lo:hi]
         res = fit(eq, table, columns=columns)
         if as_json:
             click.echo(json.dumps({"equation": str(eq.dependent), "regressors":

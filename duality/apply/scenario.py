@@ -65,6 +65,11 @@ Top level
 ``[data]``
     ``file`` (path of a CSV file, relative to the scenario file) and ``[data.columns]``
     (model name -> column name in the file, for names whose column is named otherwise).
+    The library reads the path as given, absolute paths and ``..`` included: a scenario
+    file is the user's own.  The browser app is stricter, since it serves files to a
+    browser: it reads a data file only when it resolves (links followed) inside the
+    scenario's folder or the app's save folder.  Rows of the data are numbered as a
+    spreadsheet shows the file (the header is row 1).
 
 Example
 -------
@@ -129,7 +134,7 @@ from typing import Any, Mapping
 import pandas as pd
 import tomli_w
 
-from ..errors import DualityError, FormulaError
+from ..errors import DualityError, FormulaError, number_file_rows
 from ..model import base as _model, dual_side
 from ..solve import dual_forms
 
@@ -315,7 +320,7 @@ class Scenario:
         if p is None:
             raise DualityError(f"{self.where}: key 'data': this scenario has no data file")
         try:
-            return pd.read_csv(p)
+            return number_file_rows(pd.read_csv(p))
         except (OSError, ValueError) as exc:
             raise DualityError(f"{self.where}: key 'data.file': could not read {p} as "
                                f"CSV ({exc})") from None

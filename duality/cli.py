@@ -20,6 +20,7 @@ from __future__ import annotations
 import importlib.util
 import json
 import os
+import signal
 import subprocess
 import sys
 import warnings
@@ -53,6 +54,22 @@ class _Fail(click.ClickException):
 
     def show(self, file=None):
         click.echo(f"error: {self.format_message()}", err=True)
+
+
+def _exit_cleanly_on_signals() -> None:
+    """Let SIGTERM and SIGHUP end the command as Ctrl+C does: as an exception, so every
+    ``finally`` runs and a half-written temporary file is removed (the default action
+    would end the process on the spot and leave it behind)."""
+    def stop(signum, frame):
+        raise SystemExit(128 + signum)
+
+    for name in ("SIGTERM", "SIGHUP"):
+        sig = getattr(signal, name, None)
+        if sig is not None:
+            try:
+                signal.signal(sig, stop)
+            except (ValueError, OSError):   # not the main thread (e.g. a test runner)
+                pass
 
 
 class _Bug(_Fail):
@@ -232,6 +249,7 @@ def main(ctx: click.Context) -> None:
 
     With no command, shows everything for a built-in default technology
     (y = 2*x1^0.3*x2^0.5)."""
+    _exit_cleanly_on_signals()
     if ctx.invoked_subcommand is None:
         _guard(lambda: _report(_model(DEFAULT["formula"], "technology", DEFAULT["quantities"],
                                       (), None), DEFAULT_BUDGET,

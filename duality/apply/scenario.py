@@ -136,6 +136,7 @@ import tomli_w
 
 from ..errors import DualityError, FormulaError, number_file_rows
 from ..model import base as _model, dual_side
+from ..model.formula import number_problem
 from ..solve import dual_forms
 
 #: export target names accepted in ``exports`` (the exporters arrive separately)
@@ -469,9 +470,12 @@ class _Validator:
     def number(self, value, key: str, *, positive: bool = False) -> float:
         if isinstance(value, bool) or not isinstance(value, numbers.Real):
             self.fail(key, f"expected a number, got {_kind(value)}")
+        problem = number_problem(value)
+        if problem:
+            shown = repr(value) if not isinstance(value, int) or \
+                abs(value).bit_length() < 1000 else f"a number of {len(str(abs(value)))} digits"
+            self.fail(key, f"expected a usable number, got {shown}: {problem}")
         x = float(value)
-        if not math.isfinite(x):
-            self.fail(key, f"expected a finite number, got {x}")
         if positive and not x > 0:
             self.fail(key, f"expected a positive number, got {value!r}")
         return x

@@ -18,7 +18,7 @@ import numpy as np
 import sympy as sp
 
 from ..errors import DualityError, FormulaError, ModelError
-from .formula import parse, substitute
+from .formula import number_problem, parse, substitute
 from .lambdas import numpy_function
 
 ROLES = ("technology", "preference")
@@ -271,10 +271,12 @@ def _check_value(name: str, value: object) -> float | None:
         return None
     if isinstance(value, bool) or not isinstance(value, numbers.Real):
         raise ModelError(f"parameter '{name}' has value {value!r}; a real number is required")
-    v = float(value)
-    if not math.isfinite(v):
-        raise ModelError(f"parameter '{name}' has value {v}; a finite number is required")
-    return v
+    problem = number_problem(value)
+    if problem:
+        shown = f"{float(value):g}" if not isinstance(value, int) or \
+            abs(value).bit_length() < 1000 else f"of {len(str(abs(value)))} digits"
+        raise ModelError(f"parameter '{name}' has value {shown}; {problem}")
+    return float(value)
 
 
 def _build(role: str, formula: str | sp.Expr, quantities: list[str], prices: list[str], *,

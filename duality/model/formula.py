@@ -152,6 +152,20 @@ def _number(src: str) -> sp.Rational:
     return value
 
 
+def number_problem(value) -> str:
+    """Why a plain number is refused as a value ("" when it is usable): not finite, or
+    nonzero outside the range every number of a formula keeps to (about 1e-301..1e301)."""
+    try:
+        x = float(value)
+    except OverflowError:
+        return f"it is too large ({RANGE_TEXT})"
+    if not math.isfinite(x):
+        return "a finite number is required"
+    if x != 0 and not 2.0 ** -MAX_BINARY_EXPONENT <= abs(x) <= 2.0 ** MAX_BINARY_EXPONENT:
+        return f"it is too {'large' if abs(x) > 1 else 'small'} ({RANGE_TEXT})"
+    return ""
+
+
 def _log2(r: sp.Rational) -> float:
     """log2 |r| of a nonzero Rational, for integers of any size."""
     return math.log2(abs(r.p)) - math.log2(r.q)

@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import importlib.util
 import json
+import math
 import os
 import signal
 import subprocess
@@ -38,6 +39,7 @@ from .apply.evaluate import evaluate_file, functions_of
 from .apply.welfare import scenario_table
 from .solve.derive import DEFAULT_BUDGET, duals as derive_duals
 from .errors import DualityError, number_file_rows
+from .model.formula import number_problem
 from .solve.result import KINDS, Derived
 
 #: The built-in default model: a small decreasing-returns technology.
@@ -104,7 +106,27 @@ def _parse_point(text: str) -> dict[str, float]:
             out[k.strip()] = float(v)
         except ValueError:
             raise _Fail(f"--at {item!r}: {v!r} is not a number") from None
+        problem = number_problem(out[k.strip()])
+        if problem:
+            raise _Fail(f"--at {item!r}: {problem}")
     return out
+
+
+def _check_point(model, point: dict[str, float]) -> None:
+    """Prices, output and income must be positive (the utility level may be any number)."""
+    positive = [*model.prices, model.output_price, model.income]
+    if model.is_technology:
+        positive.append(model.level)
+    for s in positive:
+        if s is not None and str(s) in point and not point[str(s)] > 0:
+            raise _Fail(f"--at {s}={point[str(s)]:g}: {s} must be positive")
+
+
+def _budget(ctx, param, value):
+    """--budget: a positive, finite number of seconds."""
+    if value is not None and not (math.isfinite(value) and value > 0):
+        raise _Fail(f"--budget {value:g}: expected a positive number of seconds")
+    return value
 
 
 def _duals(model, budget):
@@ -154,6 +176,7 @@ def _complete_utility(model, duals, point: dict) -> None:
 
 def _report(model, budget, at, as_json: bool, with_checks: bool = True) -> None:
     point = _default_point(model, _parse_point(at or ""))
+    _check_point(model, point)
     duals = _duals(model, budget)
     _complete_utility(model, duals, point)
     records = run_checks(model, budget=budget) if with_checks else []
@@ -229,6 +252,7 @@ _model_options = [
                  help="Point to evaluate at, e.g. 'w1=1,w2=2,y=5,p=4' or 'p1=1,p2=2,m=10' "
                       "(default: prices 1, 2, 3, ...; y=5, p=4 or m=100; u = v(p, m))."),
     click.option("--budget", type=float, default=DEFAULT_BUDGET, show_default=True,
+                 callback=_budget,
                  help="Seconds allowed for symbolic derivation before the numeric route."),
     click.option("--json", "as_json", is_flag=True, help="Print JSON instead of text."),
 ]
@@ -240,8 +264,29 @@ def _with_model_options(fn):
     return fn
 
 
-@click.group(invoke_without_command=True, context_settings={"help_option_names":
-                                                             ["-h", "--help"]})
+class _Group(click.Group):
+    """The command group; a usage error (unknown option, bad value) is one line too."""
+
+    def main(self, *args, standalone_mode: bool = True, **kwargs):
+        if not standalone_mode:
+            return super().main(*args, standalone_mode=False, **kwargs)
+        try:
+            code = super().main(*args, standalone_mode=False, **kwargs)
+        except click.UsageError as exc:
+            hint = f" (see {exc.ctx.command_path} --help)" if exc.ctx is not None else ""
+            click.echo(f"error: {exc.format_message()}{hint}", err=True)
+            sys.exit(2)
+        except click.ClickException as exc:
+            exc.show()
+            sys.exit(exc.exit_code)
+        except click.Abort:
+            click.echo("error: aborted", err=True)
+            sys.exit(1)
+        sys.exit(code if isinstance(code, int) else 0)
+
+
+@click.group(cls=_Group, invoke_without_command=True,
+             context_settings={"help_option_names": ["-h", "--help"]})
 @click.pass_context
 def main(ctx: click.Context) -> None:
     """Derive cost, profit, expenditure and indirect utility functions, their demand
@@ -367,7 +412,7 @@ def _plain(x):
               help="Output file (.csv or .parquet), written atomically.")
 @click.option("--keep", multiple=True, help="Input column to copy to the output "
                                             "(repeatable).")
-@click.option("--chunksize", type=int, default=200_000, show_default=True,
+@click.option("--chunksize", type=click.IntRange(min=1), default=200_000, show_default=True,
               help="Rows per chunk (files larger than memory are fine).")
 def evaluate_cmd(formula, role, quantities, prices, params, at, budget, as_json,
                  scenario_path, data_path, out_path, keep, chunksize):

@@ -195,6 +195,8 @@ def evaluate_file(what, source: str | os.PathLike, target: str | os.PathLike, *,
         raise DualityError(f"input file {source} does not exist")
     if source.resolve() == target.resolve():
         raise DualityError("the output file must differ from the input file")
+    if not target.parent.is_dir():
+        raise DualityError(f"cannot write {target}: folder {target.parent} does not exist")
     kind_in, kind_out = _file_kind(source), _file_kind(target)
     fns = functions_of(what)
     keep = list(keep)

@@ -44,6 +44,10 @@ def list_scenarios(folder: Path = SCENARIO_DIR) -> list[Entry]:
     """Every ``*.toml`` file in ``folder``, sorted by name, with its title or its error."""
     out = []
     for path in sorted(Path(folder).glob("*.toml")):
+        if not _is_inside(path, folder):
+            out.append(Entry(path.name, path, path.stem, f"{path.name}: a link to a file "
+                             "outside this folder; the app does not read it"))
+            continue
         try:
             out.append(Entry(path.name, path, sc.load(path).title))
         except DualityError as exc:

@@ -114,7 +114,7 @@ def test_one_number_range_for_typed_and_computed_numbers():
     ("x1*x2*2^max(10^29, a)", {"a": 0.5}, "exponent of 2**max"),
     ("x1*x2*3^max(10^8, a)", {"a": 0.5}, "exponent of 3**max"),
     ("x1^0.5/(a - 0.5) + x2", {"a": 0.5}, "infinite or undefined"),
-    ("x1^a*x2*exp(a)", {"a": 5000.0}, "exponent"),
+    ("x1^a*x2*exp(a)", {"a": 5000.0}, "argument of exp(a)"),
     ("x1*x2*b^a", {"a": 900.0, "b": 10.0}, "too large"),
 ])
 def test_values_that_blow_a_term_up_are_refused_naming_it(formula, params, words):
@@ -125,6 +125,16 @@ def test_values_that_blow_a_term_up_are_refused_naming_it(formula, params, words
     assert words in line
     assert "with " + ", ".join(f"{k}={v:g}" for k, v in params.items()
                                if k in line.split("with ", 1)[1]) in line
+
+
+def test_a_ces_near_cobb_douglas_keeps_its_large_float_exponent():
+    # rho = -1e-4 gives the exponent 1/rho = -10000 in floating point: usable, not exact
+    m = dy.technology("(a*x1^rho + (1 - a)*x2^rho)^(1/rho)", ["x1", "x2"],
+                      params={"a": 0.4, "rho": -1e-4})
+    f = m.numeric_expr
+    x1, x2 = m.quantities
+    # close to the Cobb-Douglas limit x1^a x2^(1-a) (Arrow et al. 1961; from memory)
+    assert abs(float(f.subs({x1: 2.0, x2: 3.0})) - 2.0 ** 0.4 * 3.0 ** 0.6) < 1e-3
 
 
 def test_substitute_keeps_values_in_bounds():
@@ -207,6 +217,16 @@ def test_fuzz_formulas_with_values_stay_finite_and_bounded(tokens, value):
     (["derive", "-f", "x1*x2", "-q", "x1,,x2,x3"], "x3"),
     (["derive", "-f", ""], "empty"),
     (["derive", "-f", "x" * 5000], "too long"),
+    (["derive", "--nope"], "No such option '--nope'"),
+    (["derive", "--budget", "-5"], "positive number of seconds"),
+    (["derive", "--budget", "nan"], "positive number of seconds"),
+    (["derive", "--at", "w1=-1"], "w1 must be positive"),
+    (["derive", "--at", "w1=1e400"], "finite"),
+    (["derive", "-P", "a=1e-320", "-f", "a*x1*x2"], "too small"),
+    (["evaluate", "--chunksize", "0", "--out", "x.csv"], "--chunksize"),
+    (["evaluate", "--out", "/nonexistent/folder/x.csv", "--data", __file__],
+     "folder /nonexistent/folder does not exist"),
+    (["run", "/nonexistent/s.toml"], "cannot read the scenario file"),
 ])
 def test_cli_refuses_on_one_line_with_exit_code_2(args, words):
     assert words in _cli_refuses(*args)
@@ -357,6 +377,16 @@ def test_an_uploaded_scenario_cannot_point_at_data_outside(path):
         W.read_upload(text.encode(), "up.toml")
     line = _one_line(info.value)
     assert "up.toml" in line and "data.file" in line
+
+
+def test_the_scenario_list_does_not_read_links_to_files_elsewhere(tmp_path):
+    outside = tmp_path / "private.toml"
+    outside.write_text(BAKERY.replace("Kettle Lane bakery", "SECRET TITLE"))
+    folder = tmp_path / "scen"
+    folder.mkdir()
+    (folder / "a.toml").symlink_to(outside)
+    (entry,) = W.list_scenarios(folder)
+    assert entry.error and "SECRET" not in entry.title + entry.error
 
 
 def test_a_data_file_linked_from_outside_is_refused_without_showing_it(tmp_path):

@@ -684,7 +684,11 @@ def _guard(e: sp.Basic, args: list, fail) -> None:
         size = _magnitude(exponent)
         if size is None:
             return
-        if size > MAX_EXPONENT:
+        # an exact exponent is worked out exactly (2**(10**29) never finishes), so it
+        # keeps to the parser's limit; a float exponent (from a parameter value, as in
+        # x**(1/rho) with rho near 0) is evaluated in floating point, and a number it
+        # makes is range-checked once formed
+        if exponent.is_Rational and size > MAX_EXPONENT:
             fail(e, f"the exponent of {{term}} is {size:.4g} (the limit is {MAX_EXPONENT})")
         if base.is_Rational and exponent.is_Rational and _bits(base) * size > MAX_BITS:
             fail(e, f"{{term}} would be a number of about {int(_bits(base) * size)} bits "

@@ -462,3 +462,47 @@ def test_stopping_an_evaluation_leaves_the_old_output_and_no_temporary_file(tmp_
                 proc.kill()
     assert sorted(p.name for p in tmp_path.iterdir()) == \
         ["in.csv", "out_SIGHUP.csv", "out_SIGTERM.csv"]
+
+
+_SAVER = """
+import sys
+from duality.apply import scenario as sc
+s = sc.load(sys.argv[1])
+big = sc.from_dict({**sc.to_dict(s), "description": "x" * 4_000_000})
+while True:
+    sc.save(big, sys.argv[2])
+"""
+
+
+def test_a_save_killed_outright_keeps_the_file_and_the_next_save_clears_its_leftover(
+        tmp_path):
+    # SIGKILL cannot be caught: the target must still hold a whole version, and the
+    # temporary file the killed writer left is removed by the next save of that file
+    target = tmp_path / "bakery.toml"
+    original = SCENARIOS / "kettle_lane_bakery.toml"
+    target.write_text(original.read_text())
+    proc = subprocess.Popen([sys.executable, "-c", _SAVER, str(original), str(target)],
+                            env={**os.environ, "PYTHONPATH": str(ROOT)},
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    try:
+        while proc.poll() is None and not list(tmp_path.glob(".bakery.toml.*.tmp")):
+            time.sleep(0.001)
+        proc.kill()
+        proc.wait(timeout=60)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+    assert proc.returncode == -signal.SIGKILL, proc.stderr.read()
+    kept = sc.load(target)                          # a whole version, old or new
+    assert kept.title.startswith("Kettle Lane")
+    # beside whatever the kill left: a leftover of another ended writer, and the file of
+    # a writer still running (this test's parent process), which must be kept
+    ended = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"],
+                           capture_output=True, text=True, check=True).stdout.strip()
+    (tmp_path / f".bakery.toml.{ended}.abc123.tmp").write_text("half")
+    running = tmp_path / f".bakery.toml.{os.getppid()}.def456.tmp"
+    running.write_text("in progress")
+    sc.save(kept, target)
+    left = sorted(p.name for p in tmp_path.iterdir() if p != running)
+    assert left in (["bakery.toml"], ["bakery.toml", "bakery.toml.bak"]), left
+    assert running.read_text() == "in progress"

@@ -13,7 +13,10 @@ of a built-in default technology.  Commands:
 * ``duality scenarios`` — list the scenario files of a folder
 * ``duality app``       — open the browser app on a scenario (127.0.0.1)
 
-Every bad input ends with a one-line message and a non-zero exit, never a traceback.
+Each command takes only the option groups it uses (the typed model, ``--at``, ``--budget``,
+``--json``, ``--scenario``); an option it would ignore is refused.  Every bad input ends
+with a one-line message and exit code 2 (one :func:`guarded` decorator on each command),
+never a traceback.
 """
 from __future__ import annotations
 
@@ -41,7 +44,6 @@ from .texts import CAUTION
 
 #: The built-in default model: a small decreasing-returns technology.
 DEFAULT = {"formula": "2*x1^0.3*x2^0.5", "role": "technology", "quantities": "x1,x2"}
-
 
 
 class _Fail(click.ClickException):

@@ -30,6 +30,7 @@ from .budget import run_with_budget
 from ..errors import BudgetExceeded, DualityError, NoSolutionError
 from .forms import recognise
 from ..model.base import Model
+from .points import sample_primal_points
 from .result import Derived, Solution
 from ..model.lambdas import numpy_function
 from sympy.solvers.solveset import NonlinearError
@@ -400,24 +401,6 @@ def _exp_of_logs(z):
 
 
 # -- numeric verification of symbolic candidates -----------------------------------------
-def _sample_points(model: Model, k: int = 5, seed: int = 7):
-    """Random parameter values (where free), prices and reachable levels."""
-    rng = np.random.default_rng(seed)
-    comp = _numeric.compile_model(model)
-    out = []
-    for _ in range(k):
-        pv = {s: model.values.get(s, rng.uniform(0.2, 0.6)) for s in comp.params}
-        x = rng.uniform(0.5, 3.0, len(model.quantities))
-        w = rng.uniform(0.5, 3.0, len(model.quantities))
-        F = _numeric._Fns(comp, tuple(pv[s] for s in comp.params))
-        for _ in range(8):  # scale up until the function is defined (e.g. subsistence)
-            if math.isfinite(F.f(x)):
-                break
-            x = 2.0 * x
-        out.append((pv, x, w, F))
-    return out
-
-
 def _lam(args, expr):
     return numpy_function(args, expr)
 
@@ -431,7 +414,8 @@ def _verify_spending(model: Model, value, demands) -> tuple[bool, str]:
         vfn = _lam(args, value)
     except Exception as exc:  # noqa: BLE001
         return False, f"cannot evaluate ({exc})"
-    for pv, xr, w, F in _sample_points(model):
+    for pt in sample_primal_points(model):
+        pv, xr, w, F = pt.params, pt.quantities, pt.prices, pt.fns
         level = F.f(xr)
         if not math.isfinite(level):
             continue
@@ -521,7 +505,8 @@ def _verify_utility(model: Model, v, marsh) -> tuple[bool, str]:
         vfn, dfn = _lam(args, v), _lam(args, sp.Matrix(marsh))
     except Exception as exc:  # noqa: BLE001
         return False, f"cannot evaluate ({exc})"
-    for pv, xr, p, F in _sample_points(model):
+    for pt in sample_primal_points(model):
+        pv, xr, p, F = pt.params, pt.quantities, pt.prices, pt.fns
         income = float(p @ xr)
         x, u = _bundle(dfn, vfn, list(p) + [income] + [pv[s] for s in comp.params])
         where = _where(ps, p, m, income)
@@ -626,7 +611,8 @@ def _verify_profit(model: Model, sol: Solution) -> tuple[bool, str]:
         xfn = _lam(args, sp.Matrix(sol.demands))
     except Exception as exc:  # noqa: BLE001
         return False, f"cannot evaluate ({exc})"
-    for pv, _, w, F in _sample_points(model):
+    for pt in sample_primal_points(model):
+        pv, w, F = pt.params, pt.prices, pt.fns
         price = 2.0
         with np.errstate(all="ignore"):
             x = np.asarray(xfn(price, *w, *[pv[s] for s in comp.params]),

@@ -141,7 +141,7 @@ def _report(model, budget, at, as_json: bool, with_checks: bool = True) -> None:
     point = complete_point(model, point, found)
     records = run_checks(model, budget=budget) if with_checks else []
     table = None
-    level = model.level if model.is_technology else model.income
+    level = model.shifter
     el_point = {k: v for k, v in point.items()
                 if k in {str(s) for s in model.prices} | {str(level)}}
     try:

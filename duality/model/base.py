@@ -117,6 +117,12 @@ class Model:
         return _ROLES[self.role]
 
     @property
+    def shifter(self) -> sp.Symbol | None:
+        """What moves demand besides prices: the output level of a technology, the income
+        of a preference (``role_info.shifter`` names it)."""
+        return self.level if self.is_technology else self.income
+
+    @property
     def given(self) -> Function:
         """The function this model was given as (production or utility function, or a
         dual), with its label and head letters."""

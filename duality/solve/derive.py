@@ -4,8 +4,8 @@ Each dual is found by the first route that works, in order:
 
 1. **catalogue** — the function is recognised (under any symbol names, inside monotone
    outer layers) as a standard form whose closed-form dual is published;
-2. **symbolic** — derived by the engine under a wall-clock budget, in a worker process
-   killed at the deadline.  Routes, cheapest first: the first-order conditions in logs
+2. **symbolic** — derived by the engine within a budget of CPU seconds, in a worker
+   process killed when the budget is used up (:mod:`duality.solve.budget`).  Routes, cheapest first: the first-order conditions in logs
    solved as a linear system in log-quantities (power forms); tangency conditions solved
    for input ratios, then the level constraint (homothetic forms); plain Lagrangian
    ``sympy.solve`` last.  Every symbolic candidate is checked numerically (constraint,
@@ -18,7 +18,6 @@ Every result says which route produced it and why earlier routes stopped.
 from __future__ import annotations
 
 import math
-import time
 from functools import lru_cache
 
 import numpy as np
@@ -26,7 +25,7 @@ import sympy as sp
 
 from . import derive_dual as _dual
 from . import numeric as _numeric
-from .budget import run_with_budget
+from .budget import Budget, run_with_budget
 from ..errors import BudgetExceeded, DualityError, NoSolutionError
 from .forms import recognise
 from ..model.base import Model
@@ -34,7 +33,8 @@ from .result import Derived, Solution
 from ..model.lambdas import numpy_function
 from sympy.solvers.solveset import NonlinearError
 
-#: Default wall-clock budget (seconds) of the symbolic route of one dual.
+#: Default budget (CPU seconds, see :mod:`duality.solve.budget`) of the symbolic route of
+#: one dual.
 DEFAULT_BUDGET = 5.0
 
 SYMBOLIC_METHODS = ("log-linear", "homothetic", "lagrangian")
@@ -257,34 +257,38 @@ def _numeric_allowed(model: Model, notes: list) -> None:
 
 
 def _symbolic(model: Model, budget, notes: list, candidates_fn, verify_fn):
-    """Run the symbolic methods in order within one budget; first verified answer wins."""
-    found = first_verified(SYMBOLIC_METHODS, budget, notes,
-                           lambda method, remaining: run_with_budget(
-                               candidates_fn, method, model, budget=remaining),
+    """Run the symbolic methods in order on one account; first verified answer wins."""
+    found = first_verified(SYMBOLIC_METHODS, Budget.of(budget), notes,
+                           lambda method, account: run_with_budget(
+                               candidates_fn, method, model, budget=account),
                            lambda cand: verify_fn(model, *cand))
     return None if found is None else (found[0], *found[1])
 
 
-def first_verified(methods, budget, notes: list, run, verify, *, deadline=None):
+def first_verified(methods, account: Budget | float | None, notes: list, run, verify):
     """The first candidate of the first method that passes ``verify``, or None.
 
-    ``run(method, remaining_seconds)`` returns a list of candidates or a string saying why
-    the method does not apply (it runs in a worker under the budget); ``verify(candidate)``
-    returns ``(ok, why)``.  Every method that fails, times out or finds nothing leaves a
-    note saying so.  Returns ``(method, candidate)``.
+    ``account`` is the :class:`~duality.solve.budget.Budget` (CPU seconds) every method
+    draws on, one after another.  ``run(method, account)`` returns a list of candidates or
+    a string saying why the method does not apply (it runs in a worker charged to the
+    account); ``verify(candidate)`` returns ``(ok, why)`` and is charged too.  Every
+    method that fails, runs out of budget or finds nothing leaves a note saying so.
+    Returns ``(method, candidate)``.
     """
-    if deadline is None:
-        deadline = None if budget is None else time.monotonic() + float(budget)
+    account = Budget.of(account)
     for method in methods:
-        remaining = None if deadline is None else deadline - time.monotonic()
-        if remaining is not None and remaining <= 0.05:
-            notes.append(f"symbolic route stopped: budget of {budget:g} s used up")
+        if account.exhausted:
+            notes.append(f"symbolic route stopped: budget of {account.total:g} CPU s "
+                         "used up")
             return None
         try:
-            cands = run(method, remaining)
-        except BudgetExceeded:
-            notes.append(f"{method} route did not finish within the budget "
-                         f"({budget:g} s in all)")
+            cands = run(method, account)
+        except BudgetExceeded as exc:
+            if exc.kind == "wall":
+                notes.append(f"{method} route stopped by the wall-clock backstop ({exc})")
+            else:
+                notes.append(f"{method} route did not finish within the budget "
+                             f"({account.total:g} CPU s in all)")
             return None
         except NotImplementedError as exc:
             notes.append(f"{method} route: sympy cannot solve this ({exc})")
@@ -297,7 +301,8 @@ def first_verified(methods, budget, notes: list, run, verify, *, deadline=None):
             continue
         rejected = []
         for cand in cands:
-            ok, why = verify(cand)
+            with account.measure():
+                ok, why = verify(cand)
             if ok:
                 if rejected:
                     notes.append(f"{method} route: {len(rejected)} of {len(cands)} solution "

@@ -5,9 +5,10 @@ lemmas, Roy's identity, the Slutsky equation, symmetry and negative semidefinite
 the substitution matrix, e(p, v(p, m)) = m and v(p, e(p, u)) = u, homogeneity, adding-up,
 monotonicity and curvature of each dual.
 
-Each check is first tried symbolically (the residual simplifies to zero: ``proved``, under
-a per-check time budget in a worker process), then numerically at sampled points
-(``held`` with the largest relative error, or ``failed`` with the counterexample point).
+Each check is evaluated numerically at sampled points (``held`` with the largest relative
+error, or ``failed`` with the counterexample point), and tried symbolically where that can
+succeed (the residual, with the model's parameter values put in exactly, simplifies to zero:
+``proved``; in a worker process within the check's budget of CPU seconds).
 Properties that are inequalities (monotonicity, curvature) are only ever ``held`` or
 ``failed``.  A check that cannot apply (no profit function under constant returns, say)
 is ``not applicable`` with the reason.  Front ends only display these records.
@@ -22,7 +23,7 @@ from typing import Callable, Sequence
 import numpy as np
 import sympy as sp
 
-from ..solve.budget import run_with_budget
+from ..solve.budget import Budget, run_with_budget
 from ..solve.calculus import Fn
 from ..solve.derive import DEFAULT_BUDGET, cost, expenditure, indirect_utility, profit
 from ..solve.numeric import _Fns, compile_model
@@ -32,8 +33,8 @@ from ..solve.result import NumericWarning
 
 STATUSES = ("proved", "held", "failed", "not applicable")
 
-#: Seconds allowed for each symbolic proof attempt (at most the derivation budget).
-PROOF_BUDGET = 2.0
+#: CPU seconds allowed for the proof of each check (out of the budget of ``check()``).
+PROOF_BUDGET = 1.0
 
 #: Relative tolerance of numeric checks by finite-difference depth of the residual.
 TOLERANCE = {0: 1e-8, 1: 1e-5, 2: 1e-3}
@@ -100,18 +101,38 @@ class _Spec:
     domain: Sequence = ()                       # sympy conditions: skip points outside
 
 
-def _is_zero(expr: sp.Expr) -> bool:
-    """Worker: does ``expr`` simplify to zero?"""
+def _exact(expr: sp.Expr) -> sp.Expr:
+    """``expr`` with every float written as the exact decimal it stands for (0.3 -> 3/10)."""
+    floats = expr.atoms(sp.Float)
+    return expr.xreplace({f: sp.Rational(str(f)) for f in floats}) if floats else expr
+
+
+def _powers(e):
+    return sp.powsimp(sp.expand_power_base(e, force=True), force=True)
+
+
+#: Attempts of a proof, cheapest first; each is tried until one gives exactly zero.
+_ATTEMPTS = (
+    _powers,                                                   # products of powers
+    lambda e: sp.expand(_powers(e)),
+    lambda e: sp.cancel(_powers(sp.powdenest(e, force=True))),  # rational functions
+    lambda e: sp.expand(sp.expand_log(e, force=True)),          # sums of logs
+    sp.simplify,
+    lambda e: sp.simplify(_powers(sp.expand_log(e, force=True))),
+    lambda e: sp.simplify(sp.logcombine(sp.powdenest(e, force=True), force=True)),
+    # homogeneity: pull a common positive factor out of sums under powers
+    lambda e: sp.simplify(_powers(sp.factor_terms(sp.expand_power_base(e, force=True)))),
+)
+
+
+def _is_zero(expr: sp.Expr, values: dict | None = None) -> bool:
+    """Worker: does ``expr`` simplify to zero (with ``values`` put in, exactly)?"""
+    if values:
+        expr = expr.xreplace(values)
+    expr = _exact(expr)
     if expr == 0:
         return True
-    for attempt in (lambda e: sp.simplify(e),
-                    lambda e: sp.simplify(sp.powsimp(sp.expand_power_base(
-                        sp.expand_log(e, force=True), force=True), force=True)),
-                    lambda e: sp.simplify(sp.logcombine(sp.powdenest(e, force=True),
-                                                        force=True)),
-                    # homogeneity: pull a common positive factor out of sums under powers
-                    lambda e: sp.simplify(sp.powsimp(sp.expand_power_base(sp.factor_terms(
-                        sp.expand_power_base(e, force=True)), force=True), force=True))):
+    for attempt in _ATTEMPTS:
         try:
             if attempt(expr) == 0:
                 return True
@@ -120,32 +141,70 @@ def _is_zero(expr: sp.Expr) -> bool:
     return False
 
 
-def _run(spec: _Spec, points: list[dict], budget: float | None, names: dict) -> CheckRecord:
-    exprs = getattr(spec, "symbolic_exprs", None) or [r.sym for r in spec.residuals]
-    if spec.symbolic and exprs and all(e is not None for e in exprs):
-        try:
-            proved = all(run_with_budget(_is_zero, e, budget=budget) for e in exprs)
-        except BudgetExceeded:
-            proved = False
-        except Exception:  # noqa: BLE001
-            proved = False
-        if proved:
-            return CheckRecord(spec.name, spec.statement, "proved",
-                               "the residual simplifies to zero symbolically")
-    worst, worst_pt, used = 0.0, None, 0
+def _all_zero(exprs: list, values: dict | None) -> bool:
+    """Worker: every residual of one check simplifies to zero."""
+    return all(_is_zero(e, values) for e in exprs)
+
+
+#: Proofs already found, by residual and parameter values (the same structure proves the
+#: same way every time; a proof that ran out of budget is not remembered).
+_PROVED: dict = {}
+
+
+def _prove(exprs: list, values: dict, account: Budget | None) -> tuple[bool, bool]:
+    """(proved, values_used): try the residuals symbolically within ``account``."""
+    used = bool(values) and any(e.free_symbols & set(values) for e in exprs)
+    key = (tuple(sp.srepr(e) for e in exprs),
+           tuple(sorted((str(k), str(v)) for k, v in values.items())) if used else ())
+    if key in _PROVED:
+        return True, used
+    try:
+        proved = bool(run_with_budget(_all_zero, list(exprs), values if used else None,
+                                      budget=account))
+    except Exception:  # noqa: BLE001 - out of budget or a sympy failure: not a proof
+        return False, used
+    if proved:
+        _PROVED[key] = True
+    return proved, used
+
+
+def _run(spec: _Spec, points: list[dict], budget: Budget | float | None, names: dict,
+         values: dict | None = None) -> CheckRecord:
+    """One check: the numeric pass at ``points``, then a proof where it can succeed.
+
+    ``budget`` is the account of the whole ``check()`` call; each proof attempt may use
+    at most :data:`PROOF_BUDGET` of it, and the numeric pass stops when it is used up.
+    """
+    account = Budget.of(budget)
+    values = values or {}
     tol = TOLERANCE.get(spec.depth, 1e-3)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", NumericWarning)
-        worst, worst_pt, used = _numeric_pass(spec, points)
+        worst, worst_pt, used, stopped = _numeric_pass(spec, points, account)
+    exprs = getattr(spec, "symbolic_exprs", None) or [r.sym for r in spec.residuals]
+    # a residual far from zero somewhere cannot simplify to zero: no proof attempt then
+    hopeless = used > 0 and worst > 1e3 * tol
+    if (spec.symbolic and exprs and all(e is not None for e in exprs) and not hopeless
+            and not account.exhausted):
+        proved, with_values = _prove(exprs, values, account.share(PROOF_BUDGET))
+        if proved:
+            at = " at the model's parameter values" if with_values else ""
+            return CheckRecord(spec.name, spec.statement, "proved",
+                               f"the residual simplifies to zero symbolically{at}",
+                               worst if used else None, used)
     skipped = len(points) - used
-    if skipped and used:
+    if stopped is not None:
+        skipped_note = (f" (the budget of {account.total:g} CPU s was used up before "
+                        f"{len(points) - stopped} of {len(points)} points)")
+    elif skipped and used:
         skipped_note = (f" ({skipped} of {len(points)} sampled points lie outside the "
                         "region where it is defined or could not be computed)")
     else:
         skipped_note = ""
     if used == 0:
-        return CheckRecord(spec.name, spec.statement, "not applicable",
-                           "no sampled point could be evaluated")
+        why = (f"the budget of {account.total:g} CPU s was used up before any point was "
+               "tried" if stopped is not None else "no sampled point could be evaluated")
+        return CheckRecord(spec.name, spec.statement, "not applicable", why)
     where = None if worst_pt is None else {names.get(k, str(k)): float(v)
                                            for k, v in worst_pt.items()}
     if worst <= tol:
@@ -158,20 +217,24 @@ def _run(spec: _Spec, points: list[dict], budget: float | None, names: dict) -> 
                        worst, used, where)
 
 
-def _numeric_pass(spec: _Spec, points: list[dict]):
+def _numeric_pass(spec: _Spec, points: list[dict], account: Budget):
+    """(worst error, its point, points used, points reached when the budget ran out or None)."""
     worst, worst_pt, used = 0.0, None, 0
-    for pt in points:
+    for k, pt in enumerate(points):
+        if account.exhausted:
+            return worst, worst_pt, used, k
         if not _inside(spec.domain, pt):
             continue
         try:
-            if spec.sign_test is not None:
-                viol, scale = spec.sign_test(pt)
-                errs = [viol / max(scale, 1e-300)]
-            else:
-                errs = []
-                for k, r in enumerate(spec.residuals):
-                    s = abs(spec.scale[k](pt)) if k < len(spec.scale) else 1.0
-                    errs.append(abs(r(pt)) / max(s, 1.0 if not spec.scale else 1e-300))
+            with account.measure():
+                if spec.sign_test is not None:
+                    viol, scale = spec.sign_test(pt)
+                    errs = [viol / max(scale, 1e-300)]
+                else:
+                    errs = []
+                    for k2, r in enumerate(spec.residuals):
+                        s = abs(spec.scale[k2](pt)) if k2 < len(spec.scale) else 1.0
+                        errs.append(abs(r(pt)) / max(s, 1.0 if not spec.scale else 1e-300))
         except (DualityError, ArithmeticError, ValueError, KeyError):
             continue
         if any(not math.isfinite(e) for e in errs):
@@ -180,7 +243,7 @@ def _numeric_pass(spec: _Spec, points: list[dict]):
         err = max(errs)
         if err > worst:
             worst, worst_pt = err, pt
-    return worst, worst_pt, used
+    return worst, worst_pt, used, None
 
 
 def _inside(conds, pt) -> bool:
@@ -270,22 +333,33 @@ def check(model: Model, *, budget: float | None = DEFAULT_BUDGET, points: int | 
     Parameters
     ----------
     budget : float or None
-        Wall-clock budget of each derivation and of each symbolic proof attempt.
+        CPU seconds (see :mod:`duality.solve.budget`) for the symbolic route of each
+        derivation, and for the checks themselves — proofs and numeric passes together;
+        each check's proof may use at most :data:`PROOF_BUDGET` of it.  When it is used
+        up, the remaining checks say so in their evidence.  ``None``: no limit.
     points : int, optional
         Number of sampled points (default 20 for closed forms, 6 for numeric duals).
     symbolic : bool
-        Try symbolic proofs first (set False for a quick numeric pass).
+        Try symbolic proofs (set False for a quick numeric pass).
+
+    Notes
+    -----
+    Each check is first evaluated at the sampled points; a proof is then attempted with
+    the model's parameter values put in as exact decimals (0.3 -> 3/10), unless the
+    residual is far from zero somewhere.  Proofs found are remembered for the process, so
+    a second check of a model of the same structure and values is quick.
     """
     if not isinstance(model, Model):
         raise DualityError(f"check needs a model from technology() or preference(), not "
                            f"{type(model).__name__}")
     names = model.symbols
     names = {v: k for k, v in names.items()}
-    proof_budget = None if budget is None else min(budget, PROOF_BUDGET)
     if model.is_technology:
         specs, numeric = _technology_specs(model, budget)
     else:
         specs, numeric = _preference_specs(model, budget)
+    account = Budget(budget)
+    values = {k: sp.Rational(str(float(v))) for k, v in model.values.items()}
     n = points if points is not None else (6 if numeric else 20)
     pts = _sample(model, n, seed)
     out = []
@@ -295,7 +369,7 @@ def check(model: Model, *, budget: float | None = DEFAULT_BUDGET, points: int | 
             continue
         if not symbolic:
             spec.symbolic = False
-        out.append(_run(spec, pts, proof_budget, names))
+        out.append(_run(spec, pts, account, names, values))
     return out
 
 

@@ -38,6 +38,7 @@ from __future__ import annotations
 
 import contextlib
 import ctypes
+import importlib
 import multiprocessing as mp
 import os
 import pickle
@@ -53,8 +54,10 @@ from ..errors import BudgetExceeded
 
 T = TypeVar("T")
 
-#: Modules imported once by the fork server, so workers started from it begin warm.
-FORKSERVER_PRELOAD = ("sympy", "numpy")
+#: Modules a worker imports before its first piece of work (so the import is never charged
+#: to a budget); the fork server imports them once, so workers started from it begin warm.
+#: ``sympy.physics.units`` is imported by the first call of ``sympy.simplify``.
+FORKSERVER_PRELOAD = ("sympy", "numpy", "sympy.physics.units")
 #: The wall-clock backstop of a worker: ``BACKSTOP_FACTOR * budget + BACKSTOP_GRACE`` s.
 BACKSTOP_FACTOR = 20.0
 BACKSTOP_GRACE = 5.0
@@ -474,6 +477,11 @@ def _alive(pid: int) -> bool:
 def _serve(conn, owner: int) -> None:
     """Body of a warm worker: run each piece of work sent, answer, wait for the next."""
     _die_with_owner(owner)
+    for name in FORKSERVER_PRELOAD:  # already there when forked from a warm process
+        try:
+            importlib.import_module(name)
+        except Exception:  # noqa: BLE001 - a missing extra is imported (or not) later
+            pass
     while True:
         try:
             data = conn.recv_bytes()

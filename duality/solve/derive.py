@@ -568,7 +568,7 @@ def _profit_solution(model: Model, budget) -> Solution:
                 conds = ()
             else:
                 conds = (sp.StrictGreaterThan(s, 1),)
-            K = sp.powsimp(sp.simplify(spend.value / y ** s), force=True)
+            K = _neat_free_of(spend.value / y ** s, y)
             ystar = (p / (s * K)) ** (1 / (s - 1))
             # at the optimum K y**s = p y / s, so profit = p y (s - 1) / s
             return _profit_from_supply(model, spend, ystar, notes, conds,
@@ -613,10 +613,22 @@ def _scale_elasticity(c, y, prices):
     """s with c(w, t·y) = t**s c(w, y) when it is a constant, else None."""
     if c.has(sp.Piecewise, sp.Min, sp.Max):
         return None
-    s = sp.simplify(sp.expand_log(sp.log(c), force=True).diff(y) * y)
-    if (s.free_symbols & ({y} | set(prices))):
+    s = sp.expand(sp.expand_log(sp.log(c), force=True).diff(y) * y)
+    if s.free_symbols & ({y} | set(prices)):  # the cheap form may still hide a constant
+        s = sp.simplify(s)
+    if s.free_symbols & ({y} | set(prices)):
         return None
     return s
+
+
+def _neat_free_of(e, y):
+    """``e`` (which does not depend on ``y``) with powers combined; simplified only when
+    the cheap rewrite still shows ``y``.  (``simplify`` costs much, and its first call
+    imports a large part of sympy.)"""
+    cheap = sp.powsimp(sp.expand_power_base(e, force=True), force=True)
+    if y not in cheap.free_symbols:
+        return cheap
+    return sp.powsimp(sp.simplify(e), force=True)
 
 
 def _supply_candidates(c, y, p):

@@ -202,7 +202,7 @@ _model_options = [
                  help="Point to evaluate at, e.g. 'w1=1,w2=2,y=5,p=4' or 'p1=1,p2=2,m=10' "
                       "(default: prices 1, 2, 3, ...; y=5, p=4 or m=100; u = v(p, m))."),
     click.option("--budget", type=float, default=DEFAULT_BUDGET, show_default=True,
-                 help="Seconds allowed for symbolic derivation before the numeric route."),
+                 help="CPU seconds allowed for symbolic derivation before the numeric route."),
     click.option("--json", "as_json", is_flag=True, help="Print JSON instead of text."),
 ]
 

@@ -178,20 +178,24 @@ def _zero_by(attempts, expr, cpu_slice: float | None = None) -> bool:
 CHEAP_SLICE = 0.15
 
 
-def _is_zero(expr: sp.Expr, values: dict | None = None,
-             cpu_slice: float | None = None) -> bool:
+def _is_zero(expr: sp.Expr, values: dict | None = None, cpu_slice: float | None = None,
+             stage: str = "all") -> bool:
     """Worker: does ``expr`` simplify to zero (with ``values`` put in, exactly)?
 
-    Cheap rewrites come first, each within ``cpu_slice`` CPU seconds; ``simplify`` is
-    kept for smooth functions, and kinked ones (min, max, piecewise) are proved branch by
-    branch.
+    ``stage`` ``"cheap"`` tries the cheap rewrites only, each within ``cpu_slice`` CPU
+    seconds; ``"costly"`` only ``simplify`` and its variants (smooth functions); ``"all"``
+    both.  Kinked functions (min, max, piecewise) are proved branch by branch with the
+    cheap rewrites.
     """
     if values:
         expr = expr.xreplace(values)
     expr = _exact(expr)
     if expr == 0:
         return True
+    cheap, costly = stage in ("cheap", "all"), stage in ("costly", "all")
     if expr.has(sp.Piecewise, sp.Min, sp.Max, sp.Heaviside):
+        if not cheap:
+            return False
         try:
             folded = sp.piecewise_fold(expr.rewrite(sp.Piecewise))
         except Exception:  # noqa: BLE001
@@ -199,12 +203,14 @@ def _is_zero(expr: sp.Expr, values: dict | None = None,
         if isinstance(folded, sp.Piecewise):
             return all(_zero_by(_CHEAP, branch, cpu_slice) for branch, _ in folded.args)
         return _zero_by(_CHEAP, folded, cpu_slice)
-    return _zero_by(_CHEAP, expr, cpu_slice) or _zero_by(_COSTLY, expr)
+    return ((cheap and _zero_by(_CHEAP, expr, cpu_slice))
+            or (costly and _zero_by(_COSTLY, expr)))
 
 
-def _all_zero(exprs: list, values: dict | None, cpu_slice: float | None = None) -> bool:
+def _all_zero(exprs: list, values: dict | None, cpu_slice: float | None = None,
+              stage: str = "all") -> bool:
     """Worker: every residual of one check simplifies to zero."""
-    return all(_is_zero(e, values, cpu_slice) for e in exprs)
+    return all(_is_zero(e, values, cpu_slice, stage) for e in exprs)
 
 
 #: Proofs already found, by residual and parameter values (the same structure proves the
@@ -212,7 +218,8 @@ def _all_zero(exprs: list, values: dict | None, cpu_slice: float | None = None) 
 _PROVED: dict = {}
 
 
-def _prove(exprs: list, values: dict, account: Budget | None) -> tuple[bool, bool]:
+def _prove(exprs: list, values: dict, account: Budget | None,
+           stage: str = "all") -> tuple[bool, bool]:
     """(proved, values_used): try the residuals symbolically within ``account``."""
     used = bool(values) and any(e.free_symbols & set(values) for e in exprs)
     key = (tuple(sp.srepr(e) for e in exprs),
@@ -222,7 +229,8 @@ def _prove(exprs: list, values: dict, account: Budget | None) -> tuple[bool, boo
     try:
         in_worker = account is not None and account.remaining is not None
         proved = bool(run_with_budget(_all_zero, list(exprs), values if used else None,
-                                      CHEAP_SLICE if in_worker else None, budget=account))
+                                      CHEAP_SLICE if in_worker else None, stage,
+                                      budget=account))
     except Exception:  # noqa: BLE001 - out of budget or a sympy failure: not a proof
         return False, used
     if proved:
@@ -232,28 +240,40 @@ def _prove(exprs: list, values: dict, account: Budget | None) -> tuple[bool, boo
 
 def _run(spec: _Spec, points: list[dict], budget: Budget | float | None, names: dict,
          values: dict | None = None) -> CheckRecord:
-    """One check: the numeric pass at ``points``, then a proof where it can succeed.
+    """One check: a quick proof, else the numeric pass at ``points`` and, unless the
+    residual is far from zero somewhere, a thorough proof.
 
-    ``budget`` is the account of the whole ``check()`` call; each proof attempt may use
-    at most :data:`PROOF_BUDGET` of it, and the numeric pass stops when it is used up.
+    ``budget`` is the account of the whole ``check()`` call; the proofs of one check may
+    use at most :data:`PROOF_BUDGET` of it, and the numeric pass stops when it is used up.
     """
     account = Budget.of(budget)
     values = values or {}
     tol = TOLERANCE.get(spec.depth, 1e-3)
+    exprs = getattr(spec, "symbolic_exprs", None) or [r.sym for r in spec.residuals]
+    symbolic = bool(spec.symbolic and exprs and all(e is not None for e in exprs))
+    proof = account.share(PROOF_BUDGET)
+
+    def proved(stage):
+        ok, with_values = _prove(exprs, values, proof, stage)
+        if not ok:
+            return None
+        at = " at the model's parameter values" if with_values else ""
+        return CheckRecord(spec.name, spec.statement, "proved",
+                           f"the residual simplifies to zero symbolically{at}")
+
+    if symbolic and not proof.exhausted:
+        rec = proved("cheap")
+        if rec is not None:
+            return rec
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", NumericWarning)
         worst, worst_pt, used, stopped = _numeric_pass(spec, points, account)
-    exprs = getattr(spec, "symbolic_exprs", None) or [r.sym for r in spec.residuals]
-    # a residual far from zero somewhere cannot simplify to zero: no proof attempt then
+    # a residual far from zero somewhere cannot simplify to zero: no thorough proof then
     hopeless = used > 0 and worst > 1e3 * tol
-    if (spec.symbolic and exprs and all(e is not None for e in exprs) and not hopeless
-            and not account.exhausted):
-        proved, with_values = _prove(exprs, values, account.share(PROOF_BUDGET))
-        if proved:
-            at = " at the model's parameter values" if with_values else ""
-            return CheckRecord(spec.name, spec.statement, "proved",
-                               f"the residual simplifies to zero symbolically{at}",
-                               worst if used else None, used)
+    if symbolic and not hopeless and not proof.exhausted:
+        rec = proved("costly")
+        if rec is not None:
+            return rec
     skipped = len(points) - used
     if stopped is not None:
         skipped_note = (f" (the budget of {account.total:g} CPU s was used up before "

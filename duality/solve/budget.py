@@ -452,8 +452,12 @@ def _die_with_owner(owner: int) -> None:
             libc.prctl(1, int(signal.SIGKILL), 0, 0, 0)  # PR_SET_PDEATHSIG = 1
         except Exception:  # noqa: BLE001 - the watchdog below still applies
             pass
+    try:  # Ctrl-C reaches the whole process group: the owner handles it and kills us
+        signal.signal(signal.SIGINT, signal.SIG_IGN)
+    except (ValueError, OSError):
+        pass
     parent = os.getppid()
-    if not _alive(owner) or parent == 1:
+    if not _alive(owner) or (parent == 1 and owner != 1):  # orphaned before we began
         os._exit(1)
 
     def watch():

@@ -14,6 +14,10 @@ Each dual is found by the first route that works, in order:
    (:mod:`duality.solve.numeric`).
 
 Every result says which route produced it and why earlier routes stopped.
+
+``budget`` is the CPU seconds of the symbolic work of one call: a profit or indirect
+utility function draws on what its cost or expenditure function left (recorded with that
+result, so the answer does not depend on whether it was cached).
 """
 from __future__ import annotations
 
@@ -240,12 +244,23 @@ def _spending_solution(model: Model, budget) -> Solution:
                         tuple(notes) + core.notes, tuple(match.conditions) + core.conditions,
                         {"match": match})
     notes.append("not a catalogue form")
-    found = _symbolic(model, budget, notes, _spending_candidates, _verify_spending)
+    account = Budget.of(budget)
+    found = _symbolic(model, account, notes, _spending_candidates, _verify_spending)
+    spent = {"cpu": account.spent}  # what later steps of the same call may not use again
     if found is not None:
         method, value, demands = found
-        return Solution(value, demands, "symbolic", method, None, tuple(notes))
+        return Solution(value, demands, "symbolic", method, None, tuple(notes), (), spent)
     _numeric_allowed(model, notes)
-    return Solution(None, None, "numeric", _numeric.SOLVER, None, tuple(notes))
+    return Solution(None, None, "numeric", _numeric.SOLVER, None, tuple(notes), (), spent)
+
+
+def _left_after(spend: Solution, budget):
+    """The budget of a step that follows the spending problem in one call: what the
+    spending problem's symbolic route left of ``budget`` (its CPU seconds are recorded,
+    so the answer is the same whether the spending problem was solved now or cached)."""
+    if budget is None:
+        return None
+    return max(0.0, float(budget) - spend.extra.get("cpu", 0.0))
 
 
 def _numeric_allowed(model: Model, notes: list) -> None:
@@ -494,7 +509,7 @@ def _indirect_solution(model: Model, budget) -> Solution:
     if spend.route == "symbolic":
         try:
             cands = run_with_budget(_invert_candidates, spend.value, model.level, m,
-                                    budget=budget)
+                                    budget=_left_after(spend, budget))
         except BudgetExceeded:
             cands = []
             notes.append("solving e(p, u) = m for u did not finish within the budget")
@@ -575,7 +590,8 @@ def _profit_solution(model: Model, budget) -> Solution:
                                        "p·y − c(w, y) maximised with c = K(w) y**s, s > 1",
                                        value=p * ystar * (s - 1) / s)
         try:
-            cands = run_with_budget(_supply_candidates, spend.value, y, p, budget=budget)
+            cands = run_with_budget(_supply_candidates, spend.value, y, p,
+                                    budget=_left_after(spend, budget))
         except BudgetExceeded:
             cands = []
             notes.append("solving ∂c/∂y = p for y did not finish within the budget")

@@ -13,7 +13,6 @@ view can show every part that does work.
 """
 from __future__ import annotations
 
-import math
 import re
 from dataclasses import dataclass
 from functools import lru_cache
@@ -25,8 +24,9 @@ import sympy as sp
 import duality as dy
 from duality.solve.derive import DEFAULT_BUDGET, duals
 from duality.errors import DualityError
-from duality.apply.export import TARGETS, export, file_name
+from duality.apply.export import REGISTRY, export, file_name
 from duality.model.base import Model
+from duality.solve.points import complete_point, value_at
 from duality.solve.result import Derived
 
 #: seconds of symbolic work allowed per dual before the numeric route takes over; the
@@ -81,36 +81,6 @@ def point_for(d: Derived, point: dict) -> dict[str, float]:
     return {k: float(v) for k, v in point.items() if k in names}
 
 
-def value_at(d: Derived, point: dict) -> float | None:
-    """``d`` at the point, or None where it cannot be evaluated there."""
-    try:
-        v = float(d(**point_for(d, point)))
-    except (DualityError, ValueError, TypeError, ZeroDivisionError):
-        return None
-    return v if math.isfinite(v) else None
-
-
-def baseline_point(model: Model, found: dict, base: dict) -> dict[str, float]:
-    """The scenario's baseline point, completed with the utility level it reaches.
-
-    For a preference the expenditure function needs a utility level: the one the
-    baseline income buys, v(p, m), unless the scenario gives a level instead.
-    """
-    pt = {k: float(v) for k, v in base.items()}
-    if not model.is_technology:
-        u, m = str(model.level), str(model.income)
-        v, e = found.get("indirect_utility"), found.get("expenditure")
-        if u not in pt and isinstance(v, Derived) and m in pt:
-            val = value_at(v, pt)
-            if val is not None:
-                pt[u] = val
-        if m not in pt and isinstance(e, Derived) and u in pt:
-            val = value_at(e, pt)
-            if val is not None:
-                pt[m] = val
-    return pt
-
-
 def _card(title: str, d: Derived, point: dict, with_demands: bool) -> Card:
     demands: tuple[Card, ...] = ()
     if with_demands and d.demand_factory is not None:
@@ -130,7 +100,7 @@ def cards(model: Model, base: dict) -> tuple[list, dict[str, float]]:
     Returns the cards (:class:`Card` or :class:`Unavailable`) and the completed point.
     """
     found = derive_all(model)
-    pt = baseline_point(model, found, base)
+    pt = complete_point(model, base, found)
     out = [Unavailable(TITLES[kind], d) if isinstance(d, str) else
            _card(TITLES[kind], d, pt, True) for kind, d in found.items()]
     return out, pt
@@ -177,13 +147,9 @@ def latex_of(d: Derived) -> str:
 
 def model_latex(model: Model) -> str:
     """The model as an equation: ``y = f(x)``, ``u = U(x)`` or the given dual."""
+    head = model.given.latex
     if model.is_primal:
-        lhs = tex(model.level)
-        args = _args_tex(model.quantities)
-        head = "f" if model.is_technology else "U"
-        return f"{lhs} = {head}({args}) = {tex(model.expr)}"
-    head = {"cost": "c", "profit": r"\pi", "expenditure": "e",
-            "indirect_utility": "v"}[model.side]
+        return f"{tex(model.level)} = {head}({_args_tex(model.quantities)}) = {tex(model.expr)}"
     return f"{head}({_args_tex(model.dual_args)}) = {tex(model.expr)}"
 
 
@@ -293,7 +259,7 @@ def exports(model: Model, name: str) -> dict[str, tuple[str, str | None, str]]:
     """Every export target: ``{target: (file name, text, "")}``, or
     ``(file name, None, reason)`` for a target that cannot express this model."""
     out = {}
-    for target in TARGETS:
+    for target in (t.name for t in REGISTRY):
         fname = file_name(name, target)
         try:
             out[target] = (fname, export(model, target, name=name), "")

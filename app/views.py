@@ -17,19 +17,14 @@ import streamlit as st
 import duality as dy
 from duality.apply import scenario as sc
 from duality.errors import DualityError
+from duality.texts import CAUTION
 
 from . import analysis as A
 from . import figures as F
 from . import workspace as W
 
-VIEWS = ["Duals", "Elasticities", "Checks", "Figures", "Price scenarios", "Data",
-         "Conjugate", "Export & save"]
 ROUTE_BADGE = {"catalogue": ("catalogue", "green"), "symbolic": ("derived", "blue"),
                "numeric": ("numeric", "orange")}
-CAUTION = ("Results hold only under the assumed functional form and parameter values. "
-           "A cost change, demand response or welfare figure read off this page is as "
-           "good as those assumptions: check them before it informs a policy or pricing "
-           "decision.")
 _CSS = """
 <style>
 .dy-brand {font-size: 1.35rem; font-weight: 700; color: #17877b; letter-spacing: .02em;}
@@ -521,9 +516,12 @@ def view_export_save(model) -> None:
                 st.success(f"saved {path}")
 
 
-RENDER = {"Duals": view_duals, "Elasticities": view_elasticities, "Checks": view_checks,
-          "Figures": view_figures, "Price scenarios": view_scenarios, "Data": view_data,
-          "Conjugate": view_conjugate, "Export & save": view_export_save}
+#: the views, in the order the page offers them: label -> function drawing it (the one
+#: table of views; the first is shown on opening)
+VIEWS = {"Duals": view_duals, "Elasticities": view_elasticities, "Checks": view_checks,
+         "Figures": view_figures, "Price scenarios": view_scenarios, "Data": view_data,
+         "Conjugate": view_conjugate, "Export & save": view_export_save}
+FIRST_VIEW = next(iter(VIEWS))
 
 
 def run() -> None:
@@ -549,10 +547,10 @@ def run() -> None:
         st.error(ss.pop("start_error"))
     if ss.get("edit_error"):
         st.error(f"Edit not applied: {ss.edit_error}")
-    view = st.segmented_control("View", VIEWS, default="Duals", key="view",
-                                label_visibility="collapsed") or "Duals"
+    view = st.segmented_control("View", list(VIEWS), default=FIRST_VIEW, key="view",
+                                label_visibility="collapsed") or FIRST_VIEW
     try:
-        RENDER[view](model)
+        VIEWS[view](model)
     except DualityError as exc:
         st.error(str(exc))
     except Exception as exc:  # noqa: BLE001 - the page shows a message, never a traceback

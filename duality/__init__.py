@@ -13,7 +13,8 @@ keyword values.  Around them: :func:`elasticities`, :func:`shephard`, :func:`hot
 :func:`roy`, :func:`shares`, :func:`allen_uzawa`, :func:`morishima`, :func:`parse`,
 :func:`evaluate` (tables, dask, files).
 
-Results hold only for the assumed functional form and parameter values.
+Results hold only for the assumed functional form and parameter values;
+check them before they inform a policy or pricing decision.
 """
 from __future__ import annotations
 

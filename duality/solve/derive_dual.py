@@ -19,7 +19,8 @@ from .budget import run_with_budget
 from ..errors import BudgetExceeded, NoSolutionError
 from ..model.lambdas import numpy_function
 from ..model.base import Model, _safe_eval
-from .dual_forms import DUAL_CATALOGUE
+from .dual_forms import BY_NAME as DUAL_FORMS
+from .points import sample_points
 from .result import Solution
 
 LEMMA = {"cost": "Shephard's lemma", "expenditure": "Shephard's lemma",
@@ -27,8 +28,8 @@ LEMMA = {"cost": "Shephard's lemma", "expenditure": "Shephard's lemma",
 
 
 def dual_source(model: Model) -> str | None:
-    form = DUAL_CATALOGUE.get(model.form)
-    return None if form is None else form["source"]
+    form = DUAL_FORMS.get(model.form)
+    return None if form is None else form.source
 
 
 def given(model: Model):
@@ -51,17 +52,6 @@ def given(model: Model):
     method = (f"given as a {what}{model.side.replace('_', ' ')} function; demands by "
               f"{LEMMA[model.side]}")
     return Solution(e, demands, route, method, src, (), (), extra)
-
-
-def _sample(model: Model, n: int = 6, seed: int = 3):
-    rng = np.random.default_rng(seed)
-    pts = []
-    for _ in range(n):
-        pt = {s: model.values.get(s, float(rng.uniform(0.2, 0.6))) for s in model.free_params}
-        pt.update({s: v for s, v in model.values.items()})
-        pt.update(zip(model.prices, rng.uniform(0.5, 3.0, len(model.prices))))
-        pts.append(pt)
-    return pts
 
 
 def _fn(expr, syms):
@@ -87,7 +77,7 @@ def invert(model: Model, expr, var, target, budget, notes: list, label: str):
     for cand in cands:
         g = _fn(cand, syms)
         ok = True
-        for pt in _sample(model):
+        for pt in sample_points(model, levels=False):
             pt = dict(pt)
             pt[target] = float(np.random.default_rng(len(pt)).uniform(1.0, 3.0)) \
                 if target.is_positive else 0.7

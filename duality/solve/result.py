@@ -18,15 +18,13 @@ import sympy as sp
 
 from ..errors import DomainError, DualityError
 from ..model.lambdas import numpy_function
+from ..model.roles import DUAL_KINDS, FUNCTIONS
 
 ROUTES = ("catalogue", "symbolic", "numeric")
 
 #: kind -> (label, LaTeX head)
 KINDS: dict[str, tuple[str, str]] = {
-    "cost": ("cost function", "c"),
-    "profit": ("profit function", r"\pi"),
-    "expenditure": ("expenditure function", "e"),
-    "indirect_utility": ("indirect utility function", "v"),
+    **{k: (FUNCTIONS[k].label, FUNCTIONS[k].latex) for k in DUAL_KINDS},
     "conditional_demand": ("conditional input demand", "x"),
     "supply": ("output supply", "y"),
     "factor_demand": ("unconditional input demand", "x"),

@@ -48,10 +48,11 @@ import json
 import sympy as sp
 
 from ...errors import DualityError
+from ...texts import CAUTION
 from ...model.formula import MAX_LENGTH, parse, to_text
 from ...solve.result import Derived
 from ._collect import Collection, Item, construct_name
-from .code import DISCLAIMER, _version
+from .code import _version
 
 FORMAT = "duality-export"
 VERSION = 1
@@ -125,7 +126,7 @@ def model_record(m) -> dict | None:
 def export_json(col: Collection, *, name: str, values: bool = True) -> str:
     doc = {
         "format": FORMAT, "version": VERSION, "duality_version": _version(), "name": name,
-        "disclaimer": DISCLAIMER,
+        "disclaimer": CAUTION,
         "model": model_record(col.model),
         "params": {p.name: v for p, v in col.params.items()},
         "functions": {it.name: function_record(it) for it in col.items},

@@ -590,6 +590,9 @@ def _profit_solution(model: Model, budget) -> Solution:
                                        "p·y − c(w, y) maximised with c = K(w) y**s, s > 1",
                                        value=p * ystar * (s - 1) / s)
         try:
+            if _log_polynomial_degree(spend.value, y) >= 2:
+                raise NotImplementedError("log c is a polynomial of degree 2 or more in "
+                                          "log y, so ∂c/∂y = p has no closed form")
             cands = run_with_budget(_supply_candidates, spend.value, y, p,
                                     budget=_left_after(spend, budget))
         except BudgetExceeded:
@@ -645,6 +648,16 @@ def _neat_free_of(e, y):
     if y not in cheap.free_symbols:
         return cheap
     return sp.powsimp(sp.simplify(e), force=True)
+
+
+def _log_polynomial_degree(c, y) -> int:
+    """Degree of log c as a polynomial in log y (translog: 2), or 0 when it is not one."""
+    z = sp.Symbol("z_", real=True)
+    try:
+        lc = sp.expand_log(sp.log(c), force=True).xreplace({y: sp.exp(z)})
+        return sp.Poly(sp.expand(sp.expand_log(lc, force=True)), z).degree()
+    except Exception:  # noqa: BLE001 - not a polynomial in log y: sympy may still solve it
+        return 0
 
 
 def _supply_candidates(c, y, p):

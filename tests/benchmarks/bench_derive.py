@@ -279,7 +279,6 @@ def _fingerprint(model) -> tuple:
 
 
 def bench_load(hogs: int) -> None:
-    models = {key: _bench_model for key in list(CATALOGUE_CASES) + list(FLEXIBLE_CASES)}
     extra = {
         "homothetic, not catalogue": ("technology", "(x1^0.3*x2^0.5)^2 + 3*x1^0.3*x2^0.5",
                                       ["x1", "x2"], {}),
@@ -289,7 +288,8 @@ def bench_load(hogs: int) -> None:
     print()
     print(f"4. Same answer idle and loaded ({hogs} CPU-bound processes beside it): route, "
           "notes and check statuses")
-    build = {**{k: (lambda k=k: _bench_model(k)) for k in models},
+    build = {**{k: (lambda k=k: _bench_model(k))
+                for k in list(CATALOGUE_CASES) + list(FLEXIBLE_CASES)},
              **{k: (lambda v=v: _model(*v)) for k, v in extra.items()}}
     idle = {k: _fingerprint(make()) for k, make in build.items()}
     procs = [subprocess.Popen([sys.executable, "-c", "while True: pass"])

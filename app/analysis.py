@@ -27,7 +27,7 @@ from duality.errors import DualityError
 from duality.apply.export import REGISTRY, export, file_name
 from duality.model.base import Model
 from duality.solve.points import complete_point, value_at
-from duality.solve.result import Derived
+from duality.solve.result import Derived, Unavailable
 
 #: seconds of symbolic work allowed per dual before the numeric route takes over; the
 #: library's default, so the app, the exports and the checks share one cached derivation
@@ -55,7 +55,7 @@ class Card:
 
 
 @dataclass(frozen=True)
-class Unavailable:
+class UnavailableCard:
     """A dual the model does not have, with the reason."""
 
     title: str
@@ -69,9 +69,9 @@ TITLES = {"cost": "Cost function", "profit": "Profit function",
 
 
 @lru_cache(maxsize=64)
-def derive_all(model: Model) -> dict[str, Derived | str]:
-    """Each dual of ``model`` (:func:`duality.solve.derive.duals`, cached here with its compiled
-    functions); a dual that does not exist maps to the reason, as text."""
+def derive_all(model: Model) -> dict[str, Derived | Unavailable]:
+    """Each dual of ``model`` (:func:`duality.solve.derive.duals`, cached here with its
+    compiled functions); a dual that does not exist maps to :class:`Unavailable`."""
     return duals(model, budget=BUDGET)
 
 
@@ -97,11 +97,11 @@ def _card(title: str, d: Derived, point: dict, with_demands: bool) -> Card:
 def cards(model: Model, base: dict) -> tuple[list, dict[str, float]]:
     """Display cards for every dual (with its demands) at the baseline point.
 
-    Returns the cards (:class:`Card` or :class:`Unavailable`) and the completed point.
+    Returns the cards (:class:`Card` or :class:`UnavailableCard`) and the completed point.
     """
     found = derive_all(model)
     pt = complete_point(model, base, found)
-    out = [Unavailable(TITLES[kind], d) if isinstance(d, str) else
+    out = [UnavailableCard(TITLES[kind], d.reason) if isinstance(d, Unavailable) else
            _card(TITLES[kind], d, pt, True) for kind, d in found.items()]
     return out, pt
 
@@ -154,14 +154,15 @@ def model_latex(model: Model) -> str:
 
 
 # -- elasticities -------------------------------------------------------------------------
-def elasticity_tables(model: Model, point: dict) -> dict[str, pd.DataFrame] | str:
-    """Elasticity matrices at ``point`` as labelled DataFrames, or the reason there are
-    none.  Keys: ``shares``, ``price``, (``compensated``), ``level``, ``allen_uzawa``,
-    ``morishima``; plus ``meta`` (route, returns to scale, notes)."""
+def elasticity_tables(model: Model, point: dict) -> dict[str, pd.DataFrame] | Unavailable:
+    """Elasticity matrices at ``point`` as labelled DataFrames, or :class:`Unavailable`
+    with the reason there are none.  Keys: ``shares``, ``price``, (``compensated``),
+    ``level``, ``allen_uzawa``, ``morishima``; plus ``meta`` (route, returns to scale,
+    notes)."""
     try:
         tab = _elasticities(model, tuple(sorted(point.items())))
     except DualityError as exc:
-        return str(exc)
+        return Unavailable(str(exc))
     names = list(tab.names)
     lvl = "output elasticity" if tab.role == "technology" else "income elasticity"
     out = {"shares": pd.DataFrame({"share": tab.shares, lvl: tab.level}, index=names),
@@ -211,14 +212,15 @@ def checks_frame(records) -> pd.DataFrame:
 
 
 # -- price scenarios ----------------------------------------------------------------------
-def welfare(scenario) -> pd.DataFrame | str:
-    """The scenario's comparison table (variants against the baseline)."""
+def welfare(scenario) -> pd.DataFrame | Unavailable:
+    """The scenario's comparison table (variants against the baseline), or
+    :class:`Unavailable` with the reason there is none."""
     if not scenario.variants:
-        return "the scenario has no price variants; add one to compare"
+        return Unavailable("the scenario has no price variants; add one to compare")
     try:
         return dy.scenario_table(scenario)
     except DualityError as exc:
-        return str(exc)
+        return Unavailable(str(exc))
 
 
 #: measures drawn as welfare bars, by role
@@ -255,16 +257,16 @@ def export_name(title: str) -> str:
 
 
 @lru_cache(maxsize=64)
-def exports(model: Model, name: str) -> dict[str, tuple[str, str | None, str]]:
-    """Every export target: ``{target: (file name, text, "")}``, or
-    ``(file name, None, reason)`` for a target that cannot express this model."""
+def exports(model: Model, name: str) -> dict[str, tuple[str, str | Unavailable]]:
+    """Every export target: ``{target: (file name, text)}``, the text being
+    :class:`Unavailable` with the reason for a target that cannot express this model."""
     out = {}
     for target in (t.name for t in REGISTRY):
         fname = file_name(name, target)
         try:
-            out[target] = (fname, export(model, target, name=name), "")
+            out[target] = (fname, export(model, target, name=name))
         except DualityError as exc:
-            out[target] = (fname, None, str(exc))
+            out[target] = (fname, Unavailable(str(exc)))
     return out
 
 

@@ -200,7 +200,7 @@ def _badge(route: str) -> None:
 
 
 def _card(card) -> None:
-    if isinstance(card, A.Unavailable):
+    if isinstance(card, A.UnavailableCard):
         st.subheader(card.title)
         st.info(f"Not available: {card.reason}")
         return
@@ -256,8 +256,8 @@ def view_duals(model) -> None:
 def view_elasticities(model) -> None:
     _cards, pt = _derive(model)
     tabs = A.elasticity_tables(model, pt)
-    if isinstance(tabs, str):
-        st.info(f"No elasticities: {tabs}")
+    if isinstance(tabs, dy.Unavailable):
+        st.info(f"No elasticities: {tabs.reason}")
         return
     st.caption("at the baseline: " + ", ".join(f"{k} = {v:.4g}" for k, v in pt.items()))
     left, right = st.columns([2, 3])
@@ -357,8 +357,8 @@ def view_scenarios(model) -> None:
     ss = st.session_state
     _variant_editor()
     table = A.welfare(ss.scenario)
-    if isinstance(table, str):
-        st.info(table)
+    if isinstance(table, dy.Unavailable):
+        st.info(table.reason)
         return
     for name, v in ss.scenario.variants.items():
         st.markdown(f"**{name}** — {v.description or ''}")
@@ -418,9 +418,9 @@ def view_data(model) -> None:
         return
     s = rep.summary
     c = st.columns(3)
-    c[0].metric("rows", s["n_rows"])
-    c[1].metric("monotonicity violations", s["monotonicity"]["count"])
-    c[2].metric("curvature violations", s["curvature"]["count"])
+    c[0].metric("rows", s.n_rows)
+    c[1].metric("monotonicity violations", s.monotonicity.count)
+    c[2].metric("curvature violations", s.curvature.count)
     st.dataframe(rep.rows)
     with st.expander("full report"):
         st.text(rep.as_text())
@@ -482,11 +482,11 @@ def view_export_save(model) -> None:
         st.markdown("**Exports** of every derived function with closed form")
         with st.spinner("Printing the exports…"):
             exports = A.exports(model, name)
-        for target, (fname, text, reason) in exports.items():
-            if text is None:
-                st.button(f"{target}: not available", disabled=True, help=reason,
+        for target, (fname, text) in exports.items():
+            if isinstance(text, dy.Unavailable):
+                st.button(f"{target}: not available", disabled=True, help=text.reason,
                           key=f"ex_off_{target}")
-                st.caption(reason)
+                st.caption(text.reason)
             else:
                 st.download_button(f"{target} — {fname}", text, file_name=fname,
                                    key=f"ex_{target}", mime="text/plain")

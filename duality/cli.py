@@ -36,7 +36,7 @@ from .apply.welfare import scenario_table
 from .solve.derive import DEFAULT_BUDGET, duals as derive_duals
 from .errors import DualityError
 from .solve.points import complete_point, default_point, value_at
-from .solve.result import KINDS
+from .solve.result import KINDS, Unavailable
 from .texts import CAUTION
 
 #: The built-in default model: a small decreasing-returns technology.
@@ -149,8 +149,8 @@ def _report(model, budget, at, as_json: bool, with_checks: bool = True) -> None:
     if as_json:
         out = {"model": model.describe(), "caution": CAUTION, "duals": {}, "checks": []}
         for title, d in duals:
-            if isinstance(d, str):
-                out["duals"][title] = {"exists": False, "reason": d}
+            if isinstance(d, Unavailable):
+                out["duals"][title] = {"exists": False, "reason": d.reason}
                 continue
             out["duals"][title] = {
                 "expr": None if d.expr is None else str(d.expr), "route": d.route,
@@ -169,8 +169,8 @@ def _report(model, budget, at, as_json: bool, with_checks: bool = True) -> None:
     click.echo(f"evaluated at: {', '.join(f'{k}={v:g}' for k, v in point.items())}")
     for title, d in duals:
         click.echo("")
-        if isinstance(d, str):
-            click.echo(f"{title}: does not exist — {d}")
+        if isinstance(d, Unavailable):
+            click.echo(f"{title}: does not exist — {d.reason}")
             continue
         click.echo(d.summary())
         v = value_at(d, point)

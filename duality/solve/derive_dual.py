@@ -32,26 +32,27 @@ def dual_source(model: Model) -> str | None:
     return None if form is None else form.source
 
 
-def given(model: Model):
+def given(model: Model) -> Solution:
     """Solution of the function the model was given as, demands by its lemma."""
     e = model.expr
     ps = list(model.prices)
     if model.side in ("cost", "expenditure"):
         demands = tuple(sp.diff(e, p) for p in ps)
-        extra = {}
+        supply = None
     elif model.side == "profit":
         demands = tuple(-sp.diff(e, w) for w in ps)
-        extra = {"supply": sp.diff(e, model.output_price)}
+        supply = sp.diff(e, model.output_price)
     else:
         vm = sp.diff(e, model.income)
         demands = tuple(-sp.diff(e, p) / vm for p in ps)
-        extra = {}
+        supply = None
     src = dual_source(model)
     route = "catalogue" if src else "symbolic"
     what = model.form.replace("_", " ") + " " if model.form else ""
     method = (f"given as a {what}{model.side.replace('_', ' ')} function; demands by "
               f"{LEMMA[model.side]}")
-    return Solution(e, demands, route, method, src, (), (), extra)
+    return Solution(value=e, demands=demands, route=route, method=method, source=src,
+                    supply=supply)
 
 
 def _fn(expr, syms):

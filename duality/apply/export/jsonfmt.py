@@ -176,10 +176,11 @@ def load_function(fname: str, rec: dict) -> Derived:
     args = tuple(table[a] for a in rec["args"])
     params = {table[k]: float(v) for k, v in (rec.get("params") or {}).items()}
     route = rec.get("route", "symbolic")
-    return Derived(rec.get("kind", "cost"), args, expr, route, rec.get("method", ""),
-                   params, rec.get("source"), tuple(rec.get("notes", ())), tuple(conditions),
-                   rec.get("name", ""),
-                   frozenset(table[a] for a in rec.get("positive_args", ())))
+    return Derived(kind=rec.get("kind", "cost"), args=args, expr=expr, route=route,
+                   method=rec.get("method", ""), params=params, source=rec.get("source"),
+                   notes=tuple(rec.get("notes", ())), conditions=tuple(conditions),
+                   name=rec.get("name", ""),
+                   positive_args=frozenset(table[a] for a in rec.get("positive_args", ())))
 
 
 def load_json(text: str) -> dict:

@@ -241,8 +241,8 @@ def _prove(exprs: list, values: dict, account: Budget | None,
 
 def _run(spec: _Spec, points: list[dict], budget: Budget | float | None, names: dict,
          values: dict | None = None) -> CheckRecord:
-    """One check: a quick proof, else the numeric pass at ``points`` and, unless the
-    residual is far from zero somewhere, a thorough proof.
+    """One check: a proof unless a quick look finds the residual far from zero at a
+    sampled point, else the numeric pass at ``points``.
 
     ``budget`` is the account of the whole ``check()`` call; the proofs of one check may
     use at most :data:`PROOF_BUDGET` of it, and the numeric pass stops when it is used up.
@@ -262,19 +262,16 @@ def _run(spec: _Spec, points: list[dict], budget: Budget | float | None, names: 
         return CheckRecord(spec.name, spec.statement, "proved",
                            f"the residual simplifies to zero symbolically{at}")
 
-    if symbolic and not proof.exhausted:
-        rec = proved("cheap")
+    # a residual clearly non-zero at a sampled point cannot simplify to zero
+    with account.measure():
+        hopeless = symbolic and _clearly_nonzero(spec, points, values)
+    if symbolic and not hopeless and not proof.exhausted:
+        rec = proved("all")
         if rec is not None:
             return rec
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", NumericWarning)
         worst, worst_pt, used, stopped = _numeric_pass(spec, points, account)
-    # a residual far from zero somewhere cannot simplify to zero: no thorough proof then
-    hopeless = used > 0 and worst > 1e3 * tol
-    if symbolic and not hopeless and not proof.exhausted:
-        rec = proved("costly")
-        if rec is not None:
-            return rec
     skipped = len(points) - used
     if stopped is not None:
         skipped_note = (f" (the budget of {account.total:g} CPU s was used up before "
@@ -298,6 +295,31 @@ def _run(spec: _Spec, points: list[dict], budget: Budget | float | None, names: 
     return CheckRecord(spec.name, spec.statement, "failed",
                        f"fails at {at}: relative error {worst:.3g} (tolerance {tol:g})",
                        worst, used, where)
+
+
+def _clearly_nonzero(spec: _Spec, points: list[dict], values: dict) -> bool:
+    """A quick look before any proof: is a residual far from zero (relative to its own
+    terms) at the first sampled point inside the domain?  Exact sympy evaluation at that
+    point; no compiled functions.  False whenever it cannot tell."""
+    exprs = [r.sym for r in spec.residuals]
+    if not exprs or any(e is None for e in exprs):
+        return False
+    for pt in points:
+        if not _inside(spec.domain, pt):
+            continue
+        at = {k: sp.Float(v) for k, v in pt.items()}
+        at.update({k: v for k, v in values.items() if k not in at})
+        for e in exprs:
+            try:
+                terms = [complex(sp.N(t.xreplace(at))) for t in sp.Add.make_args(e)]
+            except (TypeError, ValueError, ArithmeticError):
+                return False  # symbols left, or not a number there
+            if not all(math.isfinite(abs(t)) for t in terms):
+                continue
+            if abs(sum(terms)) > 1e-6 * max(abs(t) for t in terms):
+                return True
+        return False
+    return False
 
 
 def _numeric_pass(spec: _Spec, points: list[dict], account: Budget):

@@ -231,7 +231,7 @@ point_option = click.option(
 #: how long symbolic work may take
 budget_option = click.option(
     "--budget", type=float, default=DEFAULT_BUDGET, show_default=True,
-    help="Seconds allowed for symbolic derivation before the numeric route.")
+    help="CPU seconds allowed for symbolic derivation before the numeric route.")
 #: JSON instead of text
 json_option = click.option("--json", "as_json", is_flag=True,
                            help="Print JSON instead of text.")

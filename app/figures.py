@@ -54,7 +54,7 @@ def _primal_fn(model: Model):
         article = "an" if side[0] in "aeiou" else "a"
         raise DualityError(f"the model was given as {article} {side} function, so there is "
                            "no production or utility function to draw its level curve from")
-    expr = model.expr.xreplace(model.values)
+    expr = model.numeric_expr
     if expr.free_symbols - set(model.quantities):
         missing = ", ".join(sorted(map(str, expr.free_symbols - set(model.quantities))))
         raise DualityError(f"parameter(s) {missing} need values to draw the level curve")

@@ -16,7 +16,7 @@ import streamlit as st
 
 import duality as dy
 from duality.apply import scenario as sc
-from duality.errors import DualityError
+from duality.errors import DualityError, number_file_rows
 from duality.texts import CAUTION
 
 from . import analysis as A
@@ -381,7 +381,7 @@ def view_data(model) -> None:
                           key="data_upload")
     if up is not None:
         try:
-            data = pd.read_csv(up)
+            data = number_file_rows(pd.read_csv(up))
             where = up.name
         except (ValueError, UnicodeDecodeError) as exc:
             st.error(f"{up.name}: cannot be read as CSV ({exc})")
@@ -392,7 +392,7 @@ def view_data(model) -> None:
         return
     elif scen.data is not None:
         try:
-            data = scen.read_data()
+            data = W.read_data(scen, _save_dir())
             columns = dict(scen.data.columns)
             where = scen.data.file
         except DualityError as exc:

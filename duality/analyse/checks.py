@@ -30,7 +30,7 @@ from ..solve.budget import Budget, run_with_budget
 from ..solve.calculus import Fn
 from ..solve.derive import DEFAULT_BUDGET, cost, expenditure, indirect_utility, profit
 from ..solve.points import sample_points, sample_primal_points
-from ..errors import BudgetExceeded, DualityError, NoSolutionError
+from ..errors import DualityError, NoSolutionError
 from ..model.base import Model
 from ..solve.result import NumericWarning
 

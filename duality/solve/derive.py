@@ -35,6 +35,7 @@ from .forms import recognise
 from ..model.base import Model
 from .points import sample_primal_points
 from .result import Derived, Evaluators, Solution, Unavailable
+from ..model.formula import substitute
 from ..model.lambdas import numpy_function
 from sympy.solvers.solveset import NonlinearError
 
@@ -560,16 +561,16 @@ def _profit_solution(model: Model, budget) -> Solution:
         s = _scale_elasticity(spend.value, y, ws)
         if s is None and model.values:
             # with the parameter values in, terms such as gyy·log y may vanish
-            s = _scale_elasticity(spend.value.xreplace(model.values), y, ws)
+            s = _scale_elasticity(substitute(spend.value, model.values), y, ws)
         if s is not None:
             # c = K(w) y**s: profit exists iff s > 1 (decreasing returns, RTS = 1/s < 1)
-            sv = s.xreplace(model.values)
+            sv = substitute(s, model.values)
             if sv.is_number:
                 if float(sv) <= 1 + 1e-12:
                     kind = "constant" if abs(float(sv) - 1) <= 1e-12 else "increasing"
                     raise NoSolutionError(
                         f"no profit function: the technology has {kind} returns to scale "
-                        f"(returns to scale {1 / float(sv):.4g}, so cost grows like "
+                        f"(returns to scale {_rts_text(float(sv))}, so cost grows like "
                         f"y**{float(sv):.4g}). Profit p·y − c(w, y) is then unbounded when "
                         "p is above unit cost and maximal at y = 0 when it is below, so "
                         "there is no finite supply; a profit function needs decreasing "
@@ -685,6 +686,11 @@ def _verify_profit(model: Model, sol: Solution) -> tuple[bool, str]:
     return True, ""
 
 
+def _rts_text(s: float) -> str:
+    """Returns to scale 1/s as text (unbounded when cost does not grow with output)."""
+    return f"{1 / s:.4g}" if s > 0 else "unbounded"
+
+
 def _check_returns_numerically(model: Model) -> None:
     """Refuse profit early when f(t x) >= t f(x) for t > 1 at sampled points (IRS/CRS)."""
     comp = _numeric.compile_model(model)
@@ -694,7 +700,7 @@ def _check_returns_numerically(model: Model) -> None:
     for _ in range(8):
         x = rng.uniform(0.5, 3.0, len(model.quantities))
         a, b = F.f(x), F.f(4.0 * x)
-        if a > 0 and math.isfinite(b):
+        if a > 0 and b > 0 and math.isfinite(a) and math.isfinite(b):
             ratios.append(math.log(b / a) / math.log(4.0))
     if ratios and min(ratios) >= 1 - 1e-9:
         kind = "constant" if max(ratios) < 1 + 1e-9 else "increasing"

@@ -95,8 +95,7 @@ def level_curve(model: Model, dual: Derived, point: dict, pair: tuple[str, str] 
     spend = wi * xi0 + wj * xj0
     line_x = np.linspace(0.0, spend / wi, 50)
     line_y = (spend - wi * line_x) / wj
-    what = "isoquant" if model.is_technology else "indifference curve"
-    line = "isocost line" if model.is_technology else "budget line"
+    what, line = model.role_info.level_curve, model.role_info.price_line
     fig = go.Figure()
     ok = np.isfinite(xj)
     fig.add_trace(go.Scatter(x=xi[ok], y=xj[ok], mode="lines", name=f"{what} ({level:.4g})",

@@ -13,7 +13,10 @@ of a built-in default technology.  Commands:
 * ``duality scenarios`` — list the scenario files of a folder
 * ``duality app``       — open the browser app on a scenario (127.0.0.1)
 
-Every bad input ends with a one-line message and a non-zero exit, never a traceback.
+Each command takes only the option groups it uses (the typed model, ``--at``, ``--budget``,
+``--json``, ``--scenario``); an option it would ignore is refused.  Every bad input ends
+with a one-line message and exit code 2 (one :func:`guarded` decorator on each command),
+never a traceback.
 """
 from __future__ import annotations
 
@@ -42,12 +45,11 @@ from .solve.derive import DEFAULT_BUDGET, duals as derive_duals
 from .errors import DualityError, number_file_rows
 from .model.formula import number_problem
 from .solve.points import complete_point, default_point, value_at
-from .solve.result import KINDS, Derived, Unavailable
+from .solve.result import KINDS, Unavailable
 from .texts import CAUTION
 
 #: The built-in default model: a small decreasing-returns technology.
 DEFAULT = {"formula": "2*x1^0.3*x2^0.5", "role": "technology", "quantities": "x1,x2"}
-
 
 
 class _Fail(click.ClickException):
@@ -201,7 +203,7 @@ def _report(model, budget, at, as_json: bool, with_checks: bool = True) -> None:
     point = complete_point(model, point, found)
     records = run_checks(model, budget=budget) if with_checks else []
     table = None
-    level = model.level if model.is_technology else model.income
+    level = model.shifter
     el_point = {k: v for k, v in point.items()
                 if k in {str(s) for s in model.prices} | {str(level)}}
     try:
@@ -293,7 +295,7 @@ point_option = click.option(
 #: how long symbolic work may take
 budget_option = click.option(
     "--budget", type=float, default=DEFAULT_BUDGET, show_default=True, callback=_budget,
-    help="Seconds allowed for symbolic derivation before the numeric route.")
+    help="CPU seconds allowed for symbolic derivation before the numeric route.")
 #: JSON instead of text
 json_option = click.option("--json", "as_json", is_flag=True,
                            help="Print JSON instead of text.")

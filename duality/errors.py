@@ -53,7 +53,25 @@ class DomainError(DualityError):
 
 
 class BudgetExceeded(DualityError):
-    """Symbolic work did not finish within its wall-clock budget."""
+    """Work did not finish within its budget (CPU seconds of the work itself).
+
+    ``kind`` says which limit stopped it: ``"cpu"`` (the work used its CPU seconds),
+    ``"wall"`` (the wall-clock backstop fired, e.g. the work was blocked), or ``"spent"``
+    (nothing was left in the budget when the work would have started).  ``seconds`` is
+    the budget that applied, when known.
+    """
+
+    def __init__(self, message: str, *, kind: str = "cpu", seconds: float | None = None):
+        self.kind = kind
+        self.seconds = seconds
+        super().__init__(message)
+
+    def __reduce__(self):
+        return (_budget_exceeded, (str(self), self.kind, self.seconds))
+
+
+def _budget_exceeded(message: str, kind: str, seconds: float | None) -> BudgetExceeded:
+    return BudgetExceeded(message, kind=kind, seconds=seconds)
 
 
 # -- row numbers in messages ------------------------------------------------------------

@@ -121,7 +121,6 @@ Python API: :func:`load`, :func:`loads`, :func:`dumps`, :func:`save`, :func:`fro
 """
 from __future__ import annotations
 
-import math
 import numbers
 import os
 import re
@@ -135,6 +134,7 @@ import tomli_w
 
 from ..errors import DualityError, FormulaError, number_file_rows
 from ..model import base as _model, dual_side
+from ..model.roles import ROLES as ROLE_WORDS
 from ..model.formula import number_problem
 from ..solve import dual_forms
 from .export import NAMES as EXPORT_NAMES
@@ -249,25 +249,17 @@ class Scenario:
                     kw.update(utility=spec.utility, income=spec.income)
                 m = builder(prices, **kw)
             elif spec.side == "primal":
-                qs, ps = list(spec.quantities), list(spec.prices)
-                if spec.role == "technology":
-                    m = _model.technology(spec.formula, qs, ps, output=spec.output,
-                                          output_price=spec.output_price,
-                                          params=dict(spec.parameters), name=self.title)
-                else:
-                    m = _model.preference(spec.formula, qs, ps, income=spec.income,
-                                          utility=spec.utility, params=dict(spec.parameters),
-                                          name=self.title)
+                # the role's level names are the builders' keywords (output, output_price
+                # or utility, income)
+                build = _model.technology if spec.role == "technology" else _model.preference
+                m = build(spec.formula, list(spec.quantities), list(spec.prices),
+                          **spec.level_names, params=dict(spec.parameters), name=self.title)
             else:
-                fn = dual_side.BUILDERS[spec.side]
                 qs = None if spec.quantities is None else list(spec.quantities)
-                if spec.role == "technology":
-                    m = fn(spec.formula, list(spec.prices), qs, output=spec.output,
-                           output_price=spec.output_price, params=dict(spec.parameters),
-                           name=self.title)
-                else:
-                    m = fn(spec.formula, list(spec.prices), qs, income=spec.income,
-                           utility=spec.utility, params=dict(spec.parameters), name=self.title)
+                m = dual_side.BUILDERS[spec.side](spec.formula, list(spec.prices), qs,
+                                                  **spec.level_names,
+                                                  params=dict(spec.parameters),
+                                                  name=self.title)
         except DualityError as exc:
             what = "the model could not be built"
             if isinstance(exc, FormulaError) and key == "model.formula":
@@ -558,7 +550,7 @@ class _Validator:
             quantities = self.names(t["quantities"], "model.quantities")
         elif side == "primal":
             self.fail("model.quantities", "missing required key: the list of "
-                      + ("input" if role == "technology" else "good") + " names")
+                      + ROLE_WORDS[role].quantity + " names")
         if "prices" in t:
             prices = self.names(t["prices"], "model.prices")
         elif form is None:

@@ -10,7 +10,7 @@ from __future__ import annotations
 import math
 import numbers
 import re
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from functools import cached_property
 from typing import Iterable, Mapping, Sequence
 
@@ -80,7 +80,6 @@ class Model:
     text: str = ""
     name: str = ""
     form: str = ""
-    _key: tuple = field(default=(), repr=False, compare=False)
 
     # -- derived views --------------------------------------------------------------
     @property
@@ -116,6 +115,12 @@ class Model:
         """The role in words: primal function, duals, level, quantity, level curve
         (:mod:`duality.model.roles`)."""
         return _ROLES[self.role]
+
+    @property
+    def shifter(self) -> sp.Symbol | None:
+        """What moves demand besides prices: the output level of a technology, the income
+        of a preference (``role_info.shifter`` names it)."""
+        return self.level if self.is_technology else self.income
 
     @property
     def given(self) -> Function:
@@ -156,11 +161,33 @@ class Model:
                       income=None if self.income is None else str(self.income),
                       params=params, assume=None, name=self.name)
 
+    @property
+    def identity(self) -> tuple:
+        """What the model is, as a tuple: two models are equal (and share cached results)
+        exactly when these agree, however they were built.  The formula's text and the
+        label are left out; symbols count with their assumptions."""
+        key = self.__dict__.get("_identity")
+        if key is None:
+            def rep(s):
+                return None if s is None else sp.srepr(s)
+            key = (self.role, self.side, self.form, sp.srepr(self.expr),
+                   tuple(map(rep, self.quantities)), tuple(map(rep, self.prices)),
+                   rep(self.level), rep(self.output_price), rep(self.income),
+                   tuple((p.name, rep(p.symbol), None if p.value is None else float(p.value))
+                         for p in self.params))
+            object.__setattr__(self, "_identity", key)  # frozen: computed once
+        return key
+
     def __hash__(self) -> int:
-        return hash(self._key)
+        return hash(self.identity)
 
     def __eq__(self, other: object) -> bool:
-        return isinstance(other, Model) and self._key == other._key
+        return isinstance(other, Model) and self.identity == other.identity
+
+    def __getstate__(self) -> dict:
+        state = dict(self.__dict__)
+        state.pop("_identity", None)
+        return state
 
     @property
     def is_primal(self) -> bool:
@@ -324,8 +351,6 @@ def _build(role: str, formula: str | sp.Expr, quantities: list[str], prices: lis
         income=sp.Symbol(income, positive=True) if income else None,
         params=tuple(Parameter(k, psyms[k], values[k]) for k in values),
         text=text, name=name,
-        _key=(role, sp.srepr(expr), tuple(quantities), tuple(prices), level, output_price,
-              income, tuple((k, values[k], str(psyms[k].assumptions0)) for k in values)),
     )
     _check_monotone(model)
     return model
@@ -518,9 +543,6 @@ def _build_dual(side: str, formula, prices, quantities, *, level: str,
         output_price=out_p, income=inc,
         params=tuple(Parameter(k, psyms[k], values[k]) for k in values),
         text=text, name=name, form=form,
-        _key=(role, side, form, sp.srepr(expr), tuple(quantities), tuple(prices), level,
-              output_price, income,
-              tuple((k, values[k], str(psyms[k].assumptions0)) for k in values)),
     )
     _check_finite(model, what)
     return model

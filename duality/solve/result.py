@@ -390,6 +390,9 @@ class Solution:
         The catalogue match a catalogue solution came from (reused for the other dual).
     evaluators : Evaluators or None
         Numeric functions when the solution is numeric but not from the batched solver.
+    spent : float
+        CPU seconds its symbolic route used (a later step of the same call, such as the
+        supply of a profit problem, gets only what is left of the call's budget).
     """
 
     value: sp.Expr | None
@@ -402,6 +405,7 @@ class Solution:
     supply: sp.Expr | None = None
     match: Match | None = None
     evaluators: Evaluators | None = None
+    spent: float = 0.0
 
 
 @dataclass(frozen=True, kw_only=True)

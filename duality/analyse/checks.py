@@ -29,9 +29,8 @@ import sympy as sp
 from ..solve.budget import Budget, run_with_budget
 from ..solve.calculus import Fn
 from ..solve.derive import DEFAULT_BUDGET, cost, expenditure, indirect_utility, profit
-from ..solve.numeric import _Fns, compile_model
-from ..solve.points import sample_points
-from ..errors import BudgetExceeded, DualityError, NoSolutionError
+from ..solve.points import sample_points, sample_primal_points
+from ..errors import DualityError, NoSolutionError
 from ..model.base import Model
 from ..solve.result import NumericWarning
 
@@ -383,28 +382,19 @@ def _sample(model: Model, n: int, seed: int) -> list[dict]:
     """Points with prices in [0.5, 3] and reachable levels; parameter values included."""
     if not model.is_primal:
         return _sample_dual(model, n, seed)
-    rng = np.random.default_rng(seed)
-    comp = compile_model(model)
     pts = []
-    for _ in range(n):
-        pv = {s: model.values.get(s, float(rng.uniform(0.2, 0.6))) for s in comp.params}
-        F = _Fns(comp, tuple(pv[s] for s in comp.params))
-        x = rng.uniform(0.5, 3.0, len(model.quantities))
-        level = F.f(x)
-        for _ in range(8):  # e.g. Stone–Geary: scale up until above subsistence
-            if math.isfinite(level):
-                break
-            x = 2.0 * x
-            level = F.f(x)
-        pt = {**pv}
-        prices = rng.uniform(0.5, 3.0, len(model.prices))
-        pt.update(zip(model.prices, prices))
+    for smp in sample_primal_points(model, n, seed,
+                                    output_price=model.output_price is not None):
+        x = smp.quantities
+        level = smp.fns.f(x)
+        pt = {**smp.params}
+        pt.update(zip(model.prices, smp.prices))
         if math.isfinite(level):
             pt[model.level] = level
         if model.income is not None:
-            pt[model.income] = float(prices @ x)
-        if model.output_price is not None:
-            pt[model.output_price] = float(rng.uniform(1.0, 3.0))
+            pt[model.income] = float(smp.prices @ x)
+        if smp.output_price is not None:
+            pt[model.output_price] = smp.output_price
         pts.append(pt)
     return pts
 

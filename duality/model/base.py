@@ -11,13 +11,14 @@ import math
 import numbers
 import re
 from dataclasses import dataclass
+from functools import cached_property
 from typing import Iterable, Mapping, Sequence
 
 import numpy as np
 import sympy as sp
 
-from ..errors import DualityError, ModelError
-from .formula import parse
+from ..errors import DualityError, FormulaError, ModelError
+from .formula import number_problem, parse, substitute
 from .lambdas import numpy_function
 from .roles import DUAL_KINDS, FUNCTIONS, ROLE_OF, ROLES as _ROLES, Function, Role
 
@@ -116,15 +117,26 @@ class Model:
         return _ROLES[self.role]
 
     @property
+    def shifter(self) -> sp.Symbol | None:
+        """What moves demand besides prices: the output level of a technology, the income
+        of a preference (``role_info.shifter`` names it)."""
+        return self.level if self.is_technology else self.income
+
+    @property
     def given(self) -> Function:
         """The function this model was given as (production or utility function, or a
         dual), with its label and head letters."""
         return FUNCTIONS[self.role_info.primal if self.is_primal else self.side]
 
-    @property
+    @cached_property
     def numeric_expr(self) -> sp.Expr:
-        """The function with every parameter value substituted."""
-        return self.expr.xreplace(self.values)
+        """The function with every parameter value substituted (size-checked: a term
+        that would grow without bound or divide by zero raises ModelError)."""
+        try:
+            return substitute(self.expr, self.values)
+        except FormulaError as exc:
+            raise ModelError(f"the formula cannot take these parameter values: "
+                             f"{exc.reason}") from None
 
     def with_values(self, **values: float) -> "Model":
         """A copy with some parameter values replaced (new object; this one unchanged)."""
@@ -290,10 +302,12 @@ def _check_value(name: str, value: object) -> float | None:
         return None
     if isinstance(value, bool) or not isinstance(value, numbers.Real):
         raise ModelError(f"parameter '{name}' has value {value!r}; a real number is required")
-    v = float(value)
-    if not math.isfinite(v):
-        raise ModelError(f"parameter '{name}' has value {v}; a finite number is required")
-    return v
+    problem = number_problem(value)
+    if problem:
+        shown = f"{float(value):g}" if not isinstance(value, int) or \
+            abs(value).bit_length() < 1000 else f"of {len(str(abs(value)))} digits"
+        raise ModelError(f"parameter '{name}' has value {shown}; {problem}")
+    return float(value)
 
 
 def _build(role: str, formula: str | sp.Expr, quantities: list[str], prices: list[str], *,
@@ -400,13 +414,14 @@ def _check_monotone(model: Model) -> None:
     n = len(model.quantities)
     rng = np.random.default_rng(0)
     points = [np.full(n, v) for v in (1.0, 2.0, 5.0, 10.0)] + list(rng.uniform(1, 10, (4, n)))
-    any_real, values = False, set()
+    any_real, values, overflow = False, [], False
     for x in points:
         base = _safe_eval(fn, x)
         if base is None:
+            overflow = overflow or _overflows(fn, x)
             continue
         any_real = True
-        values.add(base)
+        values.append(base)
         for i in range(n):
             h = 1e-6 * x[i]
             up = x.copy()
@@ -419,13 +434,33 @@ def _check_monotone(model: Model) -> None:
                     f"the {what} decreases in {model.quantities[i]} at {where}; it must be "
                     "non-decreasing in every quantity (check the sign of its parameters)")
     if not any_real:
+        if overflow:
+            raise ModelError("the formula overflows: its values are beyond the range of "
+                             "floating-point numbers (about 1e308) at the quantity points "
+                             "tried (all quantities 1, 2, 5, 10 and random points in "
+                             "[1, 10]); rescale its constants")
         raise ModelError("the formula has no real, finite value at any quantity point tried "
                          "(all quantities 1, 2, 5, 10 and random points in [1, 10])")
-    if len(values) == 1:
+    spread = max(values) - min(values)
+    if spread <= 1e-12 * max(1.0, max(abs(v) for v in values)):
+        # the same value everywhere (up to rounding, as in log(x1*x2) - log(x1) - log(x2))
         what = model.given.label
-        raise ModelError(f"the {what} takes the same value ({values.pop():g}) at every "
+        shown = 0.0 if abs(values[0]) < 1e-12 else values[0]
+        raise ModelError(f"the {what} takes the same value ({shown:g}) at every "
                          "quantity point tried (all quantities 1, 2, 5, 10 and random points "
                          "in [1, 10]); no quantity changes it (check its parameters)")
+
+
+def _overflows(fn, x) -> bool:
+    """Whether ``fn`` at ``x`` is infinite or raises an overflow (not merely undefined)."""
+    with np.errstate(all="ignore"):
+        try:
+            v = complex(fn(*x))
+        except OverflowError:
+            return True
+        except (ArithmeticError, ValueError, TypeError):
+            return False
+    return math.isinf(v.real) or math.isinf(v.imag)
 
 
 def _safe_eval(fn, x) -> float | None:

@@ -33,7 +33,9 @@ from .budget import Budget, run_with_budget
 from ..errors import BudgetExceeded, DualityError, NoSolutionError
 from .forms import recognise
 from ..model.base import Model
+from .points import sample_primal_points
 from .result import Derived, Evaluators, Solution, Unavailable
+from ..model.formula import substitute
 from ..model.lambdas import numpy_function
 from sympy.solvers.solveset import NonlinearError
 
@@ -428,24 +430,6 @@ def _exp_of_logs(z):
 
 
 # -- numeric verification of symbolic candidates -----------------------------------------
-def _sample_points(model: Model, k: int = 5, seed: int = 7):
-    """Random parameter values (where free), prices and reachable levels."""
-    rng = np.random.default_rng(seed)
-    comp = _numeric.compile_model(model)
-    out = []
-    for _ in range(k):
-        pv = {s: model.values.get(s, rng.uniform(0.2, 0.6)) for s in comp.params}
-        x = rng.uniform(0.5, 3.0, len(model.quantities))
-        w = rng.uniform(0.5, 3.0, len(model.quantities))
-        F = _numeric._Fns(comp, tuple(pv[s] for s in comp.params))
-        for _ in range(8):  # scale up until the function is defined (e.g. subsistence)
-            if math.isfinite(F.f(x)):
-                break
-            x = 2.0 * x
-        out.append((pv, x, w, F))
-    return out
-
-
 def _lam(args, expr):
     return numpy_function(args, expr)
 
@@ -459,7 +443,8 @@ def _verify_spending(model: Model, value, demands) -> tuple[bool, str]:
         vfn = _lam(args, value)
     except Exception as exc:  # noqa: BLE001
         return False, f"cannot evaluate ({exc})"
-    for pv, xr, w, F in _sample_points(model):
+    for pt in sample_primal_points(model):
+        pv, xr, w, F = pt.params, pt.quantities, pt.prices, pt.fns
         level = F.f(xr)
         if not math.isfinite(level):
             continue
@@ -550,7 +535,8 @@ def _verify_utility(model: Model, v, marsh) -> tuple[bool, str]:
         vfn, dfn = _lam(args, v), _lam(args, sp.Matrix(marsh))
     except Exception as exc:  # noqa: BLE001
         return False, f"cannot evaluate ({exc})"
-    for pv, xr, p, F in _sample_points(model):
+    for pt in sample_primal_points(model):
+        pv, xr, p, F = pt.params, pt.quantities, pt.prices, pt.fns
         income = float(p @ xr)
         x, u = _bundle(dfn, vfn, list(p) + [income] + [pv[s] for s in comp.params])
         where = _where(ps, p, m, income)
@@ -575,16 +561,16 @@ def _profit_solution(model: Model, budget) -> Solution:
         s = _scale_elasticity(spend.value, y, ws)
         if s is None and model.values:
             # with the parameter values in, terms such as gyy·log y may vanish
-            s = _scale_elasticity(spend.value.xreplace(model.values), y, ws)
+            s = _scale_elasticity(substitute(spend.value, model.values), y, ws)
         if s is not None:
             # c = K(w) y**s: profit exists iff s > 1 (decreasing returns, RTS = 1/s < 1)
-            sv = s.xreplace(model.values)
+            sv = substitute(s, model.values)
             if sv.is_number:
                 if float(sv) <= 1 + 1e-12:
                     kind = "constant" if abs(float(sv) - 1) <= 1e-12 else "increasing"
                     raise NoSolutionError(
                         f"no profit function: the technology has {kind} returns to scale "
-                        f"(returns to scale {1 / float(sv):.4g}, so cost grows like "
+                        f"(returns to scale {_rts_text(float(sv))}, so cost grows like "
                         f"y**{float(sv):.4g}). Profit p·y − c(w, y) is then unbounded when "
                         "p is above unit cost and maximal at y = 0 when it is below, so "
                         "there is no finite supply; a profit function needs decreasing "
@@ -682,7 +668,8 @@ def _verify_profit(model: Model, sol: Solution) -> tuple[bool, str]:
         xfn = _lam(args, sp.Matrix(sol.demands))
     except Exception as exc:  # noqa: BLE001
         return False, f"cannot evaluate ({exc})"
-    for pv, _, w, F in _sample_points(model):
+    for pt in sample_primal_points(model):
+        pv, w, F = pt.params, pt.prices, pt.fns
         price = 2.0
         with np.errstate(all="ignore"):
             x = np.asarray(xfn(price, *w, *[pv[s] for s in comp.params]),
@@ -699,6 +686,11 @@ def _verify_profit(model: Model, sol: Solution) -> tuple[bool, str]:
     return True, ""
 
 
+def _rts_text(s: float) -> str:
+    """Returns to scale 1/s as text (unbounded when cost does not grow with output)."""
+    return f"{1 / s:.4g}" if s > 0 else "unbounded"
+
+
 def _check_returns_numerically(model: Model) -> None:
     """Refuse profit early when f(t x) >= t f(x) for t > 1 at sampled points (IRS/CRS)."""
     comp = _numeric.compile_model(model)
@@ -708,7 +700,7 @@ def _check_returns_numerically(model: Model) -> None:
     for _ in range(8):
         x = rng.uniform(0.5, 3.0, len(model.quantities))
         a, b = F.f(x), F.f(4.0 * x)
-        if a > 0 and math.isfinite(b):
+        if a > 0 and b > 0 and math.isfinite(a) and math.isfinite(b):
             ratios.append(math.log(b / a) / math.log(4.0))
     if ratios and min(ratios) >= 1 - 1e-9:
         kind = "constant" if max(ratios) < 1 + 1e-9 else "increasing"

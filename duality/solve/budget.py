@@ -332,6 +332,8 @@ class _Worker:
         ctx = mp.get_context(method)
         if method == "forkserver":
             _preload(ctx)
+        else:  # import once here, so that no forked worker pays for it again
+            _import_preload()
         self.conn, child = ctx.Pipe()
         target = _serve if job is None else _serve_once
         extra = () if job is None else job
@@ -481,11 +483,7 @@ def _alive(pid: int) -> bool:
 def _serve(conn, owner: int) -> None:
     """Body of a warm worker: run each piece of work sent, answer, wait for the next."""
     _die_with_owner(owner)
-    for name in FORKSERVER_PRELOAD:  # already there when forked from a warm process
-        try:
-            importlib.import_module(name)
-        except Exception:  # noqa: BLE001 - a missing extra is imported (or not) later
-            pass
+    _import_preload()  # already done when forked from a warm process
     while True:
         try:
             data = conn.recv_bytes()
@@ -546,6 +544,15 @@ def _main_hidden(method: str, hide: bool):
         finally:
             if real is not None:
                 sys.modules["__main__"] = real
+
+
+def _import_preload() -> None:
+    for name in FORKSERVER_PRELOAD:
+        if name not in sys.modules:
+            try:
+                importlib.import_module(name)
+            except Exception:  # noqa: BLE001 - a missing extra is imported (or not) later
+                pass
 
 
 def _preload(ctx) -> None:

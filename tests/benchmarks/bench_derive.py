@@ -271,9 +271,9 @@ def _fingerprint(model) -> tuple:
     clear_cache()
     budget_mod.shutdown_workers()
     out = []
-    for kind, dual in dy.duals(model).items():
-        out.append((kind, dual) if isinstance(dual, str) else
-                   (kind, dual.route, dual.method, dual.notes))
+    for kind, dual in derive.duals(model).items():
+        out.append((kind, dual.route, dual.method, dual.notes) if dual else
+                   (kind, str(dual)))
     out.append(tuple((r.name, r.status) for r in dy.check(model)))
     return tuple(out)
 

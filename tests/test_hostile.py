@@ -287,8 +287,7 @@ def test_scenario_mutations_name_the_key(label, mutate, words, tmp_path):
 
 
 # ----------------------------------------------------------------------------- data files
-def _frame(n=40):
-    rng = np.random.default_rng(7)
+def _frame(rng, n=40):
     return pd.DataFrame({"w1": rng.uniform(1, 2, n), "w2": rng.uniform(1, 2, n),
                          "y": rng.uniform(1, 3, n)})
 
@@ -300,9 +299,9 @@ def _frame(n=40):
     ("w2", "abc", "is not numeric: row 12 holds 'abc'"),
 ])
 def test_data_errors_name_the_column_and_the_row_as_a_spreadsheet_shows_it(
-        tmp_path, suffix, column, value, words):
+        tmp_path, suffix, column, value, words, rng):
     # data position 10 is file row 12: the header is row 1 (common practice, no source)
-    frame = _frame().astype({column: object})
+    frame = _frame(rng).astype({column: object})
     frame.loc[10, column] = value
     src = tmp_path / f"prices{suffix}"
     if suffix == ".csv":
@@ -318,8 +317,8 @@ def test_data_errors_name_the_column_and_the_row_as_a_spreadsheet_shows_it(
     assert sorted(p.name for p in tmp_path.iterdir()) == [src.name]   # nothing left
 
 
-def test_cli_estimate_rows_are_file_rows(tmp_path):
-    frame = _frame().assign(c=lambda d: d.w1 ** 0.4 * d.w2 ** 0.6 * d.y)
+def test_cli_estimate_rows_are_file_rows(tmp_path, rng):
+    frame = _frame(rng).assign(c=lambda d: d.w1 ** 0.4 * d.w2 ** 0.6 * d.y)
     frame.loc[5, "c"] = -1.0                       # file row 7
     src = tmp_path / "d.csv"
     frame.to_csv(src, index=False)
@@ -427,11 +426,10 @@ def test_hostile_uploads(data, words):
 
 
 # ----------------------------------------------------------------------------- stopping
-def test_stopping_an_evaluation_leaves_the_old_output_and_no_temporary_file(tmp_path):
+def test_stopping_an_evaluation_leaves_the_old_output_and_no_temporary_file(tmp_path, rng):
     # wait for each command's temporary file to appear (an event, not a time), then stop
     # the process the way a service manager (SIGTERM) or a closed terminal (SIGHUP) does
     n = 40_000
-    rng = np.random.default_rng(1)
     pd.DataFrame({"w1": rng.uniform(1, 2, n), "w2": rng.uniform(1, 2, n),
                   "y": rng.uniform(1, 3, n)}).to_csv(tmp_path / "in.csv", index=False)
     runs = {}

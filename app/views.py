@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import math
 import os
+import re
 from pathlib import Path
 
 import numpy as np
@@ -42,6 +43,10 @@ _CSS = """
 
 
 # -- state --------------------------------------------------------------------------------
+# The scenario in use lives in the session (``raw``, where it came from, the version last
+# loaded or saved); widgets only propose edits to it, through callbacks.  While it differs
+# from the loaded version it is also kept as a draft file in the save folder, named in the
+# page address (``?draft=…``), so a reload of the page finds the edits again.
 def _save_dir() -> Path:
     return Path(os.environ.get("DUALITY_APP_SAVE_DIR", W.SCENARIO_DIR))
 
@@ -51,19 +56,45 @@ def _start_file() -> Path:
     return Path(given) if given else W.SCENARIO_DIR / W.DEFAULT_SCENARIO
 
 
-def _use(raw: dict, origin: Path | None, label: str) -> None:
+def _use(raw: dict, origin: Path | None, label: str, loaded: dict | None = None) -> None:
     """Make ``raw`` the scenario in use (new widget keys, so inputs show its values)."""
     ss = st.session_state
-    ss.raw, ss.origin, ss.label, ss.loaded = raw, origin, label, raw
+    ss.raw, ss.origin, ss.label = raw, origin, label
+    ss.loaded = raw if loaded is None else loaded
     if origin is not None or label == "typed formula":
         ss.pop("uploaded", None)   # the same file may be uploaded again later
     ss.generation = ss.get("generation", 0) + 1
-    ss.pop("edit_error", None)
+    for key in ("edit_error", "pending", "pick_error"):
+        ss.pop(key, None)
+
+
+def _restore_draft() -> bool:
+    """Take up the draft named in the page address, if any (after a reload)."""
+    ss = st.session_state
+    draft_id = st.query_params.get("draft")
+    if not draft_id:
+        return False
+    try:
+        raw, origin, label = W.read_draft(_save_dir(), draft_id)
+    except DualityError as exc:
+        ss.start_error = f"The unsaved edits of this page were not restored: {exc}"
+        del st.query_params["draft"]
+        return False
+    try:
+        loaded = W.read_file(origin)[0] if origin is not None else {}
+    except DualityError:
+        loaded = {}    # the file it came from is gone or changed: everything is unsaved
+    _use(raw, origin, label, loaded=loaded)
+    ss.draft_id, ss.draft_kept = draft_id, raw
+    ss.restored = True
+    return True
 
 
 def _init() -> None:
     ss = st.session_state
     if "raw" in ss:
+        return
+    if _restore_draft():
         return
     path = _start_file()
     try:
@@ -75,12 +106,93 @@ def _init() -> None:
         _use(raw, origin, W.DEFAULT_SCENARIO)
 
 
+def _unsaved() -> bool:
+    ss = st.session_state
+    return ss.raw != ss.loaded
+
+
+def _keep_draft() -> None:
+    """Write the draft when the scenario has unsaved edits; drop it when it has none."""
+    ss = st.session_state
+    folder = _save_dir()
+    if not _unsaved():
+        if ss.get("draft_id"):
+            W.drop_draft(folder, ss.draft_id)
+            ss.pop("draft_kept", None)
+            if st.query_params.get("draft") == ss.draft_id:
+                del st.query_params["draft"]
+        return
+    if ss.get("draft_kept") is ss.raw or ss.get("draft_kept") == ss.raw:
+        return
+    ss.draft_id = ss.get("draft_id") or W.new_draft_id()
+    try:
+        W.write_draft(folder, ss.draft_id, ss.raw, ss.origin, ss.label)
+    except DualityError as exc:
+        st.sidebar.warning(plain(f"Edits are not kept across a page reload: {exc}"))
+        return
+    ss.draft_kept = ss.raw
+    st.query_params["draft"] = ss.draft_id
+
+
+def _switch(raw: dict, origin: Path | None, label: str) -> None:
+    """Use another scenario; with unsaved edits, ask first (see :func:`_ask_to_switch`)."""
+    ss = st.session_state
+    if _unsaved():
+        ss.pending = (raw, origin, label)
+        return
+    _use(raw, origin, label)
+
+
+def _confirm_switch() -> None:
+    ss = st.session_state
+    raw, origin, label = ss.pop("pending")
+    ss.loaded = ss.raw         # the edits are dropped: no draft to keep
+    _keep_draft()
+    _use(raw, origin, label)
+
+
+def _cancel_switch() -> None:
+    ss = st.session_state
+    ss.pop("pending", None)
+    ss.pick = ss.picked = _pick_id(ss.origin) or ss.get("picked")
+
+
+def _ask_to_switch() -> None:
+    ss = st.session_state
+    if not ss.get("pending"):
+        return
+    side = st.sidebar
+    side.warning(plain(f"{ss.label} has unsaved edits. Open {ss.pending[2]} and drop "
+                       "them, or keep editing (save them under Export & save)."))
+    c = side.columns(2)
+    c[0].button("Drop edits, open", key="switch_go", on_click=_confirm_switch)
+    c[1].button("Keep editing", key="switch_stay", on_click=_cancel_switch)
+
+
 # -- sidebar ------------------------------------------------------------------------------
+def _entries() -> list[W.Entry]:
+    """The demo scenarios, then the saved ones when the save folder is another folder."""
+    entries = W.list_scenarios()
+    folder = _save_dir()
+    if folder.is_dir() and folder.resolve() != W.SCENARIO_DIR.resolve():
+        entries += [W.Entry(f"saved: {e.name}", e.path, f"{e.title} (saved)", e.error)
+                    for e in W.list_scenarios(folder)]
+    return entries
+
+
+def _pick_id(origin: Path | None) -> str | None:
+    """The picker's entry for the file ``origin`` (None when it is not listed)."""
+    if origin is None:
+        return None
+    where = Path(origin).resolve()
+    return next((e.name for e in _entries() if e.path.resolve() == where), None)
+
+
 def _load_pick(entries) -> None:
-    """Load the demo scenario just chosen in the picker (edits of the previous one are
-    dropped; save them first)."""
+    """Open the scenario just chosen in the picker (asking first if there are edits)."""
     ss = st.session_state
     entry = next(e for e in entries if e.name == ss.pick)
+    ss.picked = ss.pick    # the picker's own state goes while another source is shown
     ss.pop("pick_error", None)
     if entry.error:
         ss.pick_error = entry.error
@@ -90,7 +202,20 @@ def _load_pick(entries) -> None:
     except DualityError as exc:
         ss.pick_error = str(exc)
         return
-    _use(raw, origin, entry.name)
+    _switch(raw, origin, entry.path.name)
+
+
+def _source_changed() -> None:
+    """Back to the picker from an upload or a typed model: open the picked scenario."""
+    ss = st.session_state
+    if ss.source != "Demo scenario":
+        return
+    entries = _entries()
+    ss.pick = ss.get("picked") or W.DEFAULT_SCENARIO
+    if ss.pick not in {e.name for e in entries}:
+        ss.pick = W.DEFAULT_SCENARIO
+    if _pick_id(ss.origin) != ss.pick:
+        _load_pick(entries)
 
 
 def _source_picker() -> None:
@@ -100,29 +225,29 @@ def _source_picker() -> None:
     side.caption("From a production or utility function to its duals, demands, "
                  "elasticities and checks.")
     how = side.radio("Model from", ["Demo scenario", "Upload a scenario", "Type a formula"],
-                     key="source", horizontal=False)
+                     key="source", horizontal=False, on_change=_source_changed)
     if how == "Demo scenario":
-        entries = W.list_scenarios()
+        entries = _entries()
         names = [e.name for e in entries]
         labels = {e.name: (e.title if not e.error else f"{e.name} (does not load)")
                   for e in entries}
-        if "pick" not in ss:
-            start = ss.origin.name if ss.get("origin") is not None else W.DEFAULT_SCENARIO
-            ss.pick = start if start in names else names[0]
+        if ss.get("pick") not in names:
+            start = _pick_id(ss.get("origin")) or ss.get("picked")
+            ss.pick = start if start in names else W.DEFAULT_SCENARIO
         side.selectbox("Scenario", names, format_func=labels.get, key="pick",
                        on_change=_load_pick, args=(entries,))
         if ss.get("pick_error"):
-            side.error(ss.pick_error)
+            side.error(plain(ss.pick_error))
     elif how == "Upload a scenario":
         up = side.file_uploader("Scenario file (.toml)", type=["toml"], key="upload")
         if up is not None and ss.get("uploaded") != (up.name, up.size):
             try:
                 raw = W.read_upload(up.getvalue(), up.name)
             except DualityError as exc:
-                side.error(str(exc))
+                side.error(plain(str(exc)))
             else:
                 ss.uploaded = (up.name, up.size)
-                _use(raw, None, up.name)
+                _switch(raw, None, up.name)
                 st.rerun()
     else:
         with side.form("typed"):
@@ -142,16 +267,11 @@ def _source_picker() -> None:
                 ss.typed_error = str(exc)
             else:
                 ss.pop("typed_error", None)
-                _use(raw, None, "typed formula")
+                _switch(raw, None, "typed formula")
                 st.rerun()
         if ss.get("typed_error"):
-            side.error(ss.typed_error)
-
-
-def _number(label: str, value: float, key: str, positive: bool = True):
-    return st.sidebar.number_input(label, value=float(value), key=key, format="%g",
-                                   min_value=1e-12 if positive else None,
-                                   step=_step(value))
+            side.error(plain(ss.typed_error))
+    _ask_to_switch()
 
 
 def _step(v: float) -> float:
@@ -161,41 +281,95 @@ def _step(v: float) -> float:
     return float(10 ** (math.floor(math.log10(v)) - 1))
 
 
-def _editors() -> dict:
-    """Inputs for parameters, baseline prices and output or income; the edited scenario
-    dictionary (validated) or the previous one with the error kept for display."""
+def _edit(key: str, what: str, name: str | None, label: str) -> None:
+    """Apply the number just entered in the box ``key`` to the scenario in use.
+
+    A value the model refuses leaves the scenario as it was, puts the box back to the
+    value in use and keeps the message for display.
+    """
+    ss = st.session_state
+    value = float(ss[key])
+    change = {what: {name: value}} if name is not None else {what: value}
+    cand = W.edited(ss.raw, **change)
+    try:
+        W.build(cand, ss.origin).build_model()
+    except DualityError as exc:
+        ss.edit_error = f"{label} = {value:g}: {exc}"
+        ss[key] = _current(what, name)
+        return
+    ss.pop("edit_error", None)
+    ss.raw = cand
+
+
+def _current(what: str, name: str | None) -> float:
+    raw = st.session_state.raw
+    if what == "parameters":
+        return float(raw["model"]["parameters"][name])
+    if what == "prices":
+        return float(raw["baseline"]["prices"][name])
+    return float(raw["baseline"][what])
+
+
+def _number(label: str, key: str, what: str, name: str | None = None,
+            positive: bool = True) -> None:
+    ss = st.session_state
+    value = _current(what, name)
+    if key not in ss:
+        ss[key] = value     # the box starts at the value in use (kept in the session)
+    st.sidebar.number_input(label, key=key, format="%g",
+                            min_value=1e-12 if positive else None, step=_step(value),
+                            on_change=_edit, args=(key, what, name, label))
+
+
+def _editors() -> None:
+    """Inputs for parameters, baseline prices and output or income; each edit is applied
+    by :func:`_edit` before the page runs."""
     ss = st.session_state
     raw, g = ss.raw, ss.generation
     side = st.sidebar
     params = raw["model"].get("parameters", {})
-    new_params, new_prices = {}, {}
     if params:
         side.markdown("**Parameters**")
-        for name, val in params.items():
-            new_params[name] = _number(name, val, f"par:{g}:{name}", positive=False)
+        for name in params:
+            _number(name, f"par:{g}:{name}", "parameters", name, positive=False)
     side.markdown("**Baseline**")
-    for name, val in raw["baseline"].get("prices", {}).items():
-        new_prices[name] = _number(f"price {name}", val, f"pr:{g}:{name}")
+    for name in raw["baseline"].get("prices", {}):
+        _number(f"price {name}", f"pr:{g}:{name}", "prices", name)
     base = raw["baseline"]
-    out = inc = None
     if "output" in base:
-        out = _number("output", base["output"], f"out:{g}")
+        _number("output", f"out:{g}", "output")
     if "income" in base:
-        inc = _number("income", base["income"], f"inc:{g}")
+        _number("income", f"inc:{g}", "income")
     if "utility" in base:
         side.caption(f"utility level {base['utility']:g}")
-    cand = W.edited(raw, parameters=new_params, prices=new_prices, output=out, income=inc)
-    if cand == raw:
-        ss.pop("edit_error", None)
-        return raw
-    try:
-        W.build(cand, ss.origin).build_model()
-    except DualityError as exc:
-        ss.edit_error = str(exc)
-        return raw
-    ss.pop("edit_error", None)
-    ss.raw = cand
-    return cand
+
+
+def _status() -> None:
+    """Which scenario is in use and whether it has unsaved edits (in the container
+    opened by the caller)."""
+    ss = st.session_state
+    if not _unsaved():
+        st.caption(plain(f"In use: {ss.label}"))
+        return
+    st.caption(plain(f"In use: {ss.label} — edited, not saved"))
+    st.caption("The edits are kept as a draft and survive a reload of the page; "
+               "save them under Export & save.")
+
+
+_MARKDOWN = re.compile(r"([\\`*_{}\[\]()#+\-.!|~<>$:])")
+
+
+def plain(text: str) -> str:
+    """``text`` for a Streamlit message box, shown as written (no Markdown, no LaTeX).
+
+    The first line is escaped; further lines (a formula with a caret under the place of
+    a problem) go into a code block, which keeps their spacing.
+    """
+    first, _, rest = str(text).partition("\n")
+    out = _MARKDOWN.sub(r"\\\1", first)
+    if rest.strip("\n"):
+        out += "\n\n```text\n" + rest.replace("```", "` ` `") + "\n```"
+    return out
 
 
 # -- views --------------------------------------------------------------------------------
@@ -207,7 +381,7 @@ def _badge(route: str) -> None:
 def _card(card) -> None:
     if isinstance(card, A.Unavailable):
         st.subheader(card.title)
-        st.info(f"Not available: {card.reason}")
+        st.info(plain(f"Not available: {card.reason}"))
         return
     head = st.columns([4, 1])
     head[0].subheader(card.title)
@@ -262,7 +436,7 @@ def view_elasticities(model) -> None:
     _cards, pt = _derive(model)
     tabs = A.elasticity_tables(model, pt)
     if isinstance(tabs, str):
-        st.info(f"No elasticities: {tabs}")
+        st.info(plain(f"No elasticities: {tabs}"))
         return
     st.caption("at the baseline: " + ", ".join(f"{k} = {v:.4g}" for k, v in pt.items()))
     left, right = st.columns([2, 3])
@@ -300,7 +474,7 @@ def view_checks(model) -> None:
                          icon=STATUS_ICONS.get(r.status, ":material/remove:")):
             if r.statement:
                 st.latex(r.statement)
-            st.write(r.evidence)
+            st.text(r.evidence)
             if r.max_error is not None:
                 st.caption(f"largest error {r.max_error:.3g} at {r.points} points")
             if r.counterexample:
@@ -334,26 +508,34 @@ def _figure(build, key: str) -> None:
     try:
         fig = build()
     except DualityError as exc:
-        st.info(str(exc))
+        st.info(plain(str(exc)))
         return
     st.plotly_chart(fig, key=key)
 
 
 def _variant_editor() -> None:
-    """An editable table of the variants; valid edits replace the scenario's variants."""
+    """An editable table of the variants; valid edits replace the scenario's variants.
+
+    The table's edits are held by the editor relative to the table it was given; when
+    the editor was not on the page in the previous run (another view was shown), it
+    starts again from the scenario's current variants, so earlier edits stay.
+    """
     ss = st.session_state
-    key = f"var_base:{ss.generation}"
-    if key not in ss:  # the editor's edits are relative to the table it was first given
-        ss[key] = W.variants_frame(ss.raw)
-    with st.expander("Edit the variants (one row each; empty cells keep the baseline)"):
-        edited = st.data_editor(ss[key], num_rows="dynamic", key=f"var_ed:{ss.generation}")
+    g = ss.generation
+    key, base = f"var_ed:{g}", f"var_base:{g}"
+    if key not in ss or base not in ss:
+        ss[base] = W.variants_frame(ss.raw)
+    edited_before = ss.raw.get("variants") != ss.loaded.get("variants")
+    with st.expander("Edit the variants (one row each; empty cells keep the baseline)",
+                     expanded=edited_before):
+        edited = st.data_editor(ss[base], num_rows="dynamic", key=key)
     if edited.equals(W.variants_frame(ss.raw)):
         return
     try:
         new = W.with_variants(ss.raw, edited)
         scenario = W.build(new, ss.origin)
     except DualityError as exc:
-        st.error(f"Variants not applied: {exc}")
+        st.error(plain(f"Variants not applied: {exc}"))
         return
     ss.raw, ss.scenario = new, scenario
 
@@ -363,7 +545,7 @@ def view_scenarios(model) -> None:
     _variant_editor()
     table = A.welfare(ss.scenario)
     if isinstance(table, str):
-        st.info(table)
+        st.info(plain(table))
         return
     for name, v in ss.scenario.variants.items():
         st.markdown(f"**{name}** — {v.description or ''}")
@@ -385,13 +567,13 @@ def view_data(model) -> None:
     up = st.file_uploader("Data file (.csv): one row per observation; columns named as the "
                           "model's prices and " + ("output" if model.is_technology
                                                     else "income"), type=["csv"],
-                          key="data_upload")
+                          key=f"data_upload:{ss.generation}")
     if up is not None:
         try:
             data = pd.read_csv(up)
             where = up.name
         except (ValueError, UnicodeDecodeError) as exc:
-            st.error(f"{up.name}: cannot be read as CSV ({exc})")
+            st.error(plain(f"{up.name}: cannot be read as CSV ({exc})"))
             return
     elif scen.data is not None and ss.origin is None:
         st.info(f"This scenario names the data file {scen.data.file}, which is not "
@@ -403,7 +585,7 @@ def view_data(model) -> None:
             columns = dict(scen.data.columns)
             where = scen.data.file
         except DualityError as exc:
-            st.error(str(exc))
+            st.error(plain(str(exc)))
             return
     if data is None:
         st.info("This scenario has no data file; upload one to check regularity at every "
@@ -419,7 +601,7 @@ def view_data(model) -> None:
         with st.spinner("Checking every row…"):
             rep = A.regularity(model, data, columns)
     except DualityError as exc:
-        st.error(str(exc))
+        st.error(plain(str(exc)))
         return
     s = rep.summary
     c = st.columns(3)
@@ -437,7 +619,7 @@ def _numeric_rows(main, data: pd.DataFrame, columns: dict) -> None:
     cols = {n: columns.get(n, n) for n in names}
     missing = [f"{n} (column {c})" for n, c in cols.items() if c not in data.columns]
     if missing:
-        st.error("the data file lacks " + ", ".join(missing))
+        st.error(plain("the data file lacks " + ", ".join(missing)))
         return
     bar = st.progress(0.0, text=f"numeric {main.label} at every row")
     out = np.empty(len(data))
@@ -467,13 +649,13 @@ def view_conjugate(model) -> None:
     try:
         fig = F.conjugate_envelope(formula, var.strip(), lo, hi)
     except DualityError as exc:
-        st.error(str(exc))
+        st.error(plain(str(exc)))
         return
     st.plotly_chart(fig, key="fig_conj")
     try:
         conj = A.closed_conjugate(formula, var.strip())
     except DualityError as exc:
-        st.caption(f"closed form: none ({exc})")
+        st.caption(plain(f"closed form: none ({exc})"))
         return
     if conj is not None:
         st.latex(conj)
@@ -481,7 +663,7 @@ def view_conjugate(model) -> None:
 
 def view_export_save(model) -> None:
     ss = st.session_state
-    name = A.export_name(ss.scenario.title)
+    name = A.export_name(ss.origin.stem if ss.origin is not None else ss.scenario.title)
     left, right = st.columns(2)
     with left:
         st.markdown("**Exports** of every derived function with closed form")
@@ -491,7 +673,7 @@ def view_export_save(model) -> None:
             if text is None:
                 st.button(f"{target}: not available", disabled=True, help=reason,
                           key=f"ex_off_{target}")
-                st.caption(reason)
+                st.caption(plain(reason))
             else:
                 st.download_button(f"{target} — {fname}", text, file_name=fname,
                                    key=f"ex_{target}", mime="text/plain")
@@ -505,25 +687,55 @@ def view_export_save(model) -> None:
         try:
             plan = W.plan_save(fname, _save_dir(), ss.origin)
         except DualityError as exc:
-            st.error(str(exc))
+            st.error(plain(str(exc)))
             return
         st.caption(plan.message)
         ok = True
         if plan.needs_confirmation:
             ok = st.checkbox("Replace the existing file", key="save_confirm")
-        if st.button("Save scenario", key="save_go", disabled=not ok):
-            try:
-                path = W.save(ss.raw, plan, confirmed=ok)
-            except (DualityError, OSError) as exc:
-                st.error(f"not saved: {exc}")
-            else:
-                ss.origin, ss.label, ss.loaded = path, path.name, ss.raw
-                st.success(f"saved {path}")
+        st.button("Save scenario", key="save_go", disabled=not ok, on_click=_save,
+                  args=(plan, ok))
+        kind, text = ss.pop("save_result", (None, ""))
+        if kind == "saved":
+            st.success(plain(text))
+        elif kind:
+            st.error(plain(text))
+
+
+def _save(plan: W.SavePlan, confirmed: bool) -> None:
+    """Write the scenario in use as planned; it then counts as that file, unedited, and
+    the picker shows it."""
+    ss = st.session_state
+    try:
+        path = W.save(ss.raw, plan, confirmed=confirmed, origin=ss.origin)
+    except (DualityError, OSError) as exc:
+        ss.save_result = ("error", f"not saved: {exc}")
+        return
+    try:   # as written: a data file is now named from the new folder
+        ss.raw, ss.origin = W.read_file(path)
+    except DualityError as exc:
+        ss.save_result = ("error", f"saved {path}, but it does not read back: {exc}")
+        return
+    ss.label, ss.loaded = path.name, ss.raw
+    ss.save_result = ("saved", f"saved {path}")
+    pick = _pick_id(path)
+    if pick is not None:
+        ss.picked = pick
+        if ss.get("source", "Demo scenario") == "Demo scenario":
+            ss.pick = pick
 
 
 RENDER = {"Duals": view_duals, "Elasticities": view_elasticities, "Checks": view_checks,
           "Figures": view_figures, "Price scenarios": view_scenarios, "Data": view_data,
           "Conjugate": view_conjugate, "Export & save": view_export_save}
+
+
+def _view_changed() -> None:
+    """A click on the view already chosen deselects it: keep showing that view."""
+    ss = st.session_state
+    if ss.view is None:
+        ss.view = ss.get("last_view", VIEWS[0])
+    ss.last_view = ss.view
 
 
 def run() -> None:
@@ -532,31 +744,45 @@ def run() -> None:
     _init()
     ss = st.session_state
     _source_picker()
-    raw = _editors()
-    in_use = st.sidebar.empty()   # filled last: a view may still edit the scenario
+    _editors()
+    status = st.sidebar.container()   # filled last: a view may still edit the scenario
     try:
-        ss.scenario = W.build(raw, ss.origin)
+        _page()
+    finally:
+        _keep_draft()
+        with status:
+            _status()
+
+
+def _page() -> None:
+    ss = st.session_state
+    try:
+        ss.scenario = W.build(ss.raw, ss.origin)
         model = ss.scenario.build_model()
     except DualityError as exc:
-        st.error(str(exc))
+        st.error(plain(str(exc)))
         return
     st.title(ss.scenario.title)
     if ss.scenario.description:
-        st.caption(ss.scenario.description)
+        st.caption(plain(ss.scenario.description))
     st.markdown(f'<div class="dy-caution"><b>Caution.</b> {CAUTION}</div>',
                 unsafe_allow_html=True)
     if ss.get("start_error"):
-        st.error(ss.pop("start_error"))
+        st.error(plain(ss.pop("start_error")))
+    if ss.pop("restored", False):
+        st.info(plain(f"Restored the unsaved edits of {ss.label} (kept as a draft when "
+                      "the page was left)."))
     if ss.get("edit_error"):
-        st.error(f"Edit not applied: {ss.edit_error}")
-    view = st.segmented_control("View", VIEWS, default="Duals", key="view",
-                                label_visibility="collapsed") or "Duals"
+        st.error(plain(f"Edit not applied: {ss.edit_error}"))
+    if "view" not in ss:
+        ss.view = VIEWS[0]
+    view = st.segmented_control("View", VIEWS, key="view", on_change=_view_changed,
+                                label_visibility="collapsed") or VIEWS[0]
     try:
         RENDER[view](model)
     except DualityError as exc:
-        st.error(str(exc))
+        st.error(plain(str(exc)))
     except Exception as exc:  # noqa: BLE001 - the page shows a message, never a traceback
-        st.error(f"This view stopped on an unexpected problem ({type(exc).__name__}: "
-                 f"{exc}). The other views still work; please report it with the scenario.")
-    in_use.caption(f"In use: {ss.label}"
-                   + (" — edited, not saved" if ss.raw != ss.loaded else ""))
+        st.error(plain(f"This view stopped on an unexpected problem ({type(exc).__name__}: "
+                       f"{exc}). The other views still work; please report it with the "
+                       "scenario."))

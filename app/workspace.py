@@ -9,9 +9,12 @@ functions, and tests call them directly.
 from __future__ import annotations
 
 import copy
+import json
 import math
 import os
 import re
+import secrets
+import tempfile
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -264,9 +267,91 @@ def plan_save(file_name: str, folder: Path, origin: Path | None) -> SavePlan:
     return SavePlan(path, False, False, f"saves a new file {name}")
 
 
-def save(raw: dict, plan: SavePlan, confirmed: bool = False) -> Path:
-    """Write the scenario as planned (atomic; previous version kept as ``.bak``)."""
+def save(raw: dict, plan: SavePlan, confirmed: bool = False,
+         origin: Path | None = None) -> Path:
+    """Write the scenario as planned (atomic; previous version kept as ``.bak``).
+
+    ``origin`` is the file the scenario came from: a data file it names is found from
+    there and named from the new folder in the saved file
+    (:func:`duality.apply.scenario.rebased`).
+    """
     if plan.needs_confirmation and not confirmed:
         raise DualityError(plan.message)
-    scenario = build(raw, path=plan.path)
+    scenario = build(raw, path=origin)
     return sc.save(scenario, plan.path, backup=True)
+
+
+# -- drafts -------------------------------------------------------------------------------
+#: the folder, inside the save folder, that holds the drafts of unsaved edits
+DRAFTS = ".drafts"
+_DRAFT_ID = re.compile(r"[0-9a-f]{16}")
+
+
+def new_draft_id() -> str:
+    """A fresh name for a draft (random, so two browser tabs never share one)."""
+    return secrets.token_hex(8)
+
+
+def draft_path(folder: Path, draft_id: str) -> Path:
+    """Where the draft ``draft_id`` lives under the save ``folder``."""
+    if not _DRAFT_ID.fullmatch(draft_id or ""):
+        raise DualityError(f"draft {draft_id!r}: not a draft name (16 hexadecimal digits)")
+    return Path(folder) / DRAFTS / f"{draft_id}.json"
+
+
+def write_draft(folder: Path, draft_id: str, raw: dict, origin: Path | None,
+                label: str) -> Path:
+    """Keep the edited scenario ``raw`` (with where it came from) as a draft, atomically.
+
+    The text goes to a temporary file beside the draft and replaces it in one step
+    (``os.replace``), so a draft on disk is always a whole one.
+    """
+    path = draft_path(folder, draft_id)
+    text = json.dumps({"origin": None if origin is None else str(origin), "label": label,
+                       "scenario": raw}, indent=1)
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+        fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    except OSError as exc:
+        raise DualityError(f"{path.parent}: cannot keep a draft there "
+                           f"({exc.strerror or exc})") from None
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(text)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    except BaseException as exc:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        if isinstance(exc, OSError):
+            raise DualityError(f"{path}: cannot keep the draft ({exc.strerror or exc})") \
+                from None
+        raise
+    return path
+
+
+def read_draft(folder: Path, draft_id: str) -> tuple[dict, Path | None, str]:
+    """The draft's scenario (validated), the file it came from and its label."""
+    path = draft_path(folder, draft_id)
+    try:
+        saved = json.loads(path.read_text(encoding="utf-8"))
+        raw, label = saved["scenario"], str(saved["label"])
+        origin = Path(saved["origin"]) if saved.get("origin") else None
+    except FileNotFoundError:
+        raise DualityError(f"{path}: the draft is gone (saved or discarded since)") \
+            from None
+    except (OSError, ValueError, KeyError, TypeError) as exc:
+        raise DualityError(f"{path}: not a readable draft ({exc})") from None
+    build(raw, origin)
+    return raw, origin, label
+
+
+def drop_draft(folder: Path, draft_id: str) -> None:
+    """Remove a draft (after its edits were saved or discarded); absent is fine."""
+    try:
+        draft_path(folder, draft_id).unlink()
+    except FileNotFoundError:
+        pass

@@ -122,7 +122,7 @@ import os
 import re
 import tempfile
 import tomllib
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any, Mapping
 
@@ -686,17 +686,42 @@ def _write_and_sync(fd: int, data: bytes) -> None:
     os.fsync(fd)
 
 
+def rebased(s: Scenario, target: str | os.PathLike) -> Scenario:
+    """``s`` with its data file named relative to ``target``'s folder.
+
+    The ``[data]`` file is relative to the scenario file, so a scenario written into
+    another folder must name it from there: the path becomes relative to the new folder
+    (absolute where no relative path exists, e.g. another drive).  Where the same
+    relative path already names a file from the new folder (the data was copied along),
+    it is kept.  A scenario without a
+    path (typed or uploaded) or with an absolute data path is returned unchanged.
+    """
+    if s.data is None or s.path is None or Path(s.data.file).is_absolute():
+        return s
+    source = Path(s.path).resolve().parent / s.data.file
+    folder = Path(target).resolve().parent
+    if folder == Path(s.path).resolve().parent or (folder / s.data.file).is_file():
+        return s
+    try:
+        file = Path(os.path.relpath(source, folder)).as_posix()
+    except ValueError:   # no relative path between drives
+        file = source.as_posix()
+    return replace(s, data=replace(s.data, file=file))
+
+
 def save(s: Scenario, path: str | os.PathLike | None = None, *, backup: bool = True) -> Path:
     """Write the scenario atomically and return the path written.
 
     The text goes to a temporary file in the same folder, is flushed to disk, then
     replaces the target in one step (``os.replace``).  The previous version is kept as
-    ``<name>.bak`` (e.g. ``bakery.toml.bak``) when ``backup`` is true.  If anything fails
+    ``<name>.bak`` (e.g. ``bakery.toml.bak``) when ``backup`` is true.  A data file keeps
+    resolving when the scenario goes to another folder (see :func:`rebased`).  If anything fails
     part-way, the original file is untouched and the temporary file is removed.
     """
     target = Path(path) if path is not None else s.path
     if target is None:
         raise DualityError("save: no path given and the scenario has none")
+    s = rebased(s, target)
     data = dumps(s).encode("utf-8")
     folder = target.parent if str(target.parent) else Path(".")
     try:
@@ -758,4 +783,4 @@ def _sync_dir(folder: Path) -> None:
 
 
 __all__ = ["Scenario", "ModelSpec", "Baseline", "Variant", "DataSpec", "load", "loads",
-           "dumps", "save", "from_dict", "to_dict", "EXPORT_TARGETS", "FORMS"]
+           "rebased", "dumps", "save", "from_dict", "to_dict", "EXPORT_TARGETS", "FORMS"]

@@ -325,6 +325,21 @@ def test_save_uses_scenario_path_by_default(tmp_path):
         sc.save(sc.loads(BASE))
 
 
+def test_a_scenario_with_a_data_file_saves_into_any_folder(tmp_path):
+    """The data file still resolves from the new folder (relative path rewritten)."""
+    src = SCENARIOS / "saltmere_household.toml"
+    s = sc.load(src)
+    n = len(s.read_data())
+    for folder in (tmp_path / "saves", tmp_path / "saves" / "deeper", tmp_path):
+        folder.mkdir(parents=True, exist_ok=True)
+        saved = sc.save(s, folder / "copy.toml")
+        again = sc.load(saved)
+        assert again.data_path().resolve() == s.data_path().resolve()
+        assert len(again.read_data()) == n
+        assert not Path(again.data.file).is_absolute()
+    assert sc.rebased(s, src) is s      # same folder: unchanged
+
+
 @pytest.mark.parametrize("fail_at", ["write", "replace-all", "replace-target"])
 def test_interrupted_save_loses_nothing(tmp_path, monkeypatch, fail_at):
     path = write(tmp_path, BASE)

@@ -357,19 +357,22 @@ def _status() -> None:
 
 
 _MARKDOWN = re.compile(r"([\\`*_{}\[\]()#+\-.!|~<>$:])")
+_CARET = re.compile(r"^\s*\^+\s*$", re.MULTILINE)
 
 
 def plain(text: str) -> str:
     """``text`` for a Streamlit message box, shown as written (no Markdown, no LaTeX).
 
-    The first line is escaped; further lines (a formula with a caret under the place of
-    a problem) go into a code block, which keeps their spacing.
+    Markdown characters are escaped.  A message that points at a place in a formula (a
+    line holding only a caret ``^``) keeps its later lines in a code block, so the caret
+    stays under the place; other line breaks are kept as breaks.
     """
-    first, _, rest = str(text).partition("\n")
-    out = _MARKDOWN.sub(r"\\\1", first)
-    if rest.strip("\n"):
-        out += "\n\n```text\n" + rest.replace("```", "` ` `") + "\n```"
-    return out
+    text = str(text)
+    first, _, rest = text.partition("\n")
+    if rest and _CARET.search(rest):
+        return (_MARKDOWN.sub(r"\\\1", first) + "\n\n```text\n"
+                + rest.strip("\n").replace("```", "` ` `") + "\n```")
+    return "  \n".join(_MARKDOWN.sub(r"\\\1", line) for line in text.split("\n"))
 
 
 # -- views --------------------------------------------------------------------------------
@@ -395,7 +398,7 @@ def _card(card) -> None:
     if card.source:
         st.markdown(f'<div class="dy-prov">source: {card.source}</div>',
                     unsafe_allow_html=True)
-    st.metric("value at the baseline", A.fmt(card.value))
+    st.metric(f"{card.title} at the baseline", A.fmt(card.value))
     for c in card.conditions:
         st.latex(r"\text{valid where } " + c)
     if card.demands:
@@ -764,7 +767,7 @@ def _page() -> None:
         return
     st.title(ss.scenario.title)
     if ss.scenario.description:
-        st.caption(plain(ss.scenario.description))
+        st.caption(plain(" ".join(ss.scenario.description.split())))
     st.markdown(f'<div class="dy-caution"><b>Caution.</b> {CAUTION}</div>',
                 unsafe_allow_html=True)
     if ss.get("start_error"):

@@ -30,7 +30,8 @@ def _captions(at):
 
 
 def _metric(at):
-    return float(next(m.value for m in at.metric if m.label == "value at the baseline"))
+    return float(next(m.value for m in at.metric
+                      if m.label == "Cost function at the baseline"))
 
 
 def _pottery_cost(A):
@@ -154,3 +155,4 @@ def test_plain_keeps_markdown_characters_literal():
     assert V.plain("__import__ and 9**9**9 cost $5") == \
         r"\_\_import\_\_ and 9\*\*9\*\*9 cost \$5"
     assert V.plain("one\n  two\n  ^").endswith("```text\n  two\n  ^\n```")
+    assert V.plain("a_b\nc") == "a\\_b  \nc"       # other line breaks stay breaks

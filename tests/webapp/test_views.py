@@ -57,7 +57,7 @@ def test_opens_on_the_default_scenario_with_the_caution(app):
     assert any(t.strip("$\n ").startswith(r"\mathrm{bowls} = f(") for t in tex)
     assert any(r"c(w_{\mathrm{clay}}" in t for t in tex)
     assert "closed form from the catalogue" in text and "Varian" in text
-    value = float(_metric(app, "value at the baseline")[0])
+    value = float(_metric(app, "Cost function at the baseline")[0])
     assert value == float(f"{_pottery_cost():.6g}")
 
 
@@ -72,23 +72,23 @@ def test_switching_scenario_shows_its_duals(app):
 
 
 def test_editing_a_parameter_changes_the_dual(app):
-    before = _metric(app, "value at the baseline")[0]
+    before = _metric(app, "Cost function at the baseline")[0]
     assert "In use: pottery_workshop.toml" in _markdown(app)
     app.number_input(key="par:1:A").set_value(2.4).run()
     assert "In use: pottery_workshop.toml — edited, not saved" in _markdown(app)
-    after = _metric(app, "value at the baseline")[0]
+    after = _metric(app, "Cost function at the baseline")[0]
     assert before != after
     assert float(after) == float(f"{_pottery_cost(A=2.4):.6g}")
 
 
 def test_an_invalid_edit_is_named_and_the_last_valid_model_stays(app):
-    before = _metric(app, "value at the baseline")
+    before = _metric(app, "Cost function at the baseline")
     for bad, message in [(-1.0, "decreases in clay"), (0.0, "same value (0)")]:
         app.number_input(key="par:1:A").set_value(bad).run()
         assert not app.exception
         (err,) = _errors(app)
         assert err.startswith("Edit not applied") and message in err
-        assert _metric(app, "value at the baseline") == before
+        assert _metric(app, "Cost function at the baseline") == before
         assert app.number_input(key="par:1:A").value == 1.8   # the box shows the value in use
     app.number_input(key="par:1:A").set_value(2.0).run()
     assert not app.error
@@ -218,7 +218,7 @@ def test_numeric_fallback_is_shown_as_numeric(app):
     text = _markdown(app)
     assert "numeric (no closed form found)" in text
     assert any(r"\text{(numeric only)}" in t for t in _latex(app))
-    value = _metric(app, "value at the baseline")[0]
+    value = _metric(app, "Cost function at the baseline")[0]
     assert value != "—" and float(value) > 0
 
 

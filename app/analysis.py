@@ -218,6 +218,14 @@ def _elasticities(model: Model, items: tuple):
     return dy.elasticities(model, budget=BUDGET, **{k: v for k, v in items if k in names})
 
 
+#: axis titles of each matrix's heat map: (rows, columns)
+ELASTICITY_AXES = {
+    "price": ("demand for (row i)", "price that changes (column j)"),
+    "compensated": ("demand for (row i)", "price that changes (column j)"),
+    "allen_uzawa": ("quantity i", "quantity j"),
+    "morishima": ("price that changes (row i)", "ratio x_j / x_i (column j)"),
+}
+
 ELASTICITY_TITLES = {
     "price": "own- and cross-price elasticities",
     "compensated": "compensated (Hicksian) price elasticities",
@@ -235,13 +243,34 @@ def checks(model: Model, symbolic: bool = True) -> tuple:
 
 
 def checks_frame(records) -> pd.DataFrame:
+    """One row per check; a missing number is NaN (shown as a dash, never 'None')."""
     rows = []
     for r in records:
         rows.append({"check": r.name, "status": r.status, "evidence": r.evidence,
-                     "largest error": r.max_error, "points": r.points or None,
-                     "counterexample": "" if not r.counterexample else
-                     ", ".join(f"{k}={v:.4g}" for k, v in r.counterexample.items())})
+                     "largest error": np.nan if r.max_error is None else r.max_error,
+                     "points": r.points or np.nan,
+                     "counterexample": ", ".join(
+                         f"{k} = {_short(v)}" for k, v in
+                         counterexample_frame(r.counterexample)["value"].items())})
     return pd.DataFrame(rows)
+
+
+def counterexample_frame(point) -> pd.DataFrame:
+    """A check's counterexample as a small table: one row per name (nested entries
+    named ``outer.inner``), one ``value`` column."""
+    if not point:
+        return pd.DataFrame({"value": []})
+    flat = pd.json_normalize(point, sep=".").iloc[0]
+    frame = flat.to_frame("value")
+    frame.index.name = "name"
+    return frame
+
+
+def _short(v) -> str:
+    try:
+        return f"{float(v):.4g}"
+    except (TypeError, ValueError):
+        return str(v)
 
 
 # -- price scenarios ----------------------------------------------------------------------
@@ -263,12 +292,17 @@ WELFARE_MEASURES = {
 }
 
 
+#: what a bar's measure is, where its name alone does not say it
+BAR_LABELS = {"profit": "maximum profit (output chosen at the variant's prices)",
+              "total cost": "total cost (at the variant's output)"}
+
+
 def welfare_bars_data(table: pd.DataFrame, role: str) -> pd.DataFrame:
     """Variant × measure changes for the bar chart (long format)."""
     rows = []
     for (variant, measure), row in table.iterrows():
         if measure in WELFARE_MEASURES[role] and pd.notna(row["change"]):
-            rows.append({"variant": variant, "measure": measure,
+            rows.append({"variant": variant, "measure": BAR_LABELS.get(measure, measure),
                          "change": float(row["change"])})
     return pd.DataFrame(rows, columns=["variant", "measure", "change"])
 

@@ -21,8 +21,10 @@ import plotly.graph_objects as go
 import sympy as sp
 from plotly.subplots import make_subplots
 
+import duality as dy
 from duality.errors import DualityError
 from duality.model.base import Model
+from duality.model.formula import parse
 from duality.solve.result import Derived
 
 #: the app's palette: slate ink, a teal for the primal, an ochre for the dual side
@@ -165,13 +167,25 @@ def cost_curves(cost: Derived, point: dict, n: int = 120) -> go.Figure:
                                                         "marginal cost"))
     fig.add_trace(go.Scatter(x=ys, y=tc, name="total cost c(w, y)",
                              line=dict(color=PRIMAL, width=3)), 1, 1)
-    fig.add_trace(go.Scatter(x=ys, y=tc / ys, name="average cost c/y",
+    fig.add_trace(go.Scatter(x=ys, y=steady(tc / ys), name="average cost c/y",
                              line=dict(color=DUAL, width=2)), 1, 2)
-    fig.add_trace(go.Scatter(x=ys, y=mc, name="marginal cost ∂c/∂y",
+    fig.add_trace(go.Scatter(x=ys, y=steady(mc), name="marginal cost ∂c/∂y",
                              line=dict(color=ACCENT, width=2, dash="dot")), 1, 2)
     fig.add_vline(x=y0, line=dict(color=MUTED, dash="dash"))
-    fig.update_xaxes(title=str(y))
+    fig.update_xaxes(title=f"output {y}")
+    fig.update_yaxes(title="cost", row=1, col=1)
+    fig.update_yaxes(title="cost per unit of output", row=1, col=2)
     return _finish(fig, "Cost against output at the chosen input prices")
+
+
+def steady(values: np.ndarray, rel: float = 1e-9) -> np.ndarray:
+    """``values``, or their mean where they differ only by rounding (relative spread at
+    most ``rel``): a constant curve is drawn flat, not as noise on a magnified axis."""
+    v = np.asarray(values, dtype=float)
+    finite = v[np.isfinite(v)]
+    if finite.size and np.ptp(finite) <= rel * np.abs(finite).max():
+        return np.where(np.isfinite(v), finite.mean(), v)
+    return v
 
 
 def demand_curves(dual: Derived, point: dict, n: int = 81) -> go.Figure:
@@ -195,7 +209,8 @@ def demand_curves(dual: Derived, point: dict, n: int = 81) -> go.Figure:
                                  line=dict(color=SERIES[k % len(SERIES)], width=3)), r, c)
         fig.add_trace(go.Scatter(x=[base[p]], y=[x[mid]], mode="markers", showlegend=False,
                                  marker=dict(color=INK, size=9)), r, c)
-        fig.update_xaxes(title=p, type="log", row=r, col=c)
+        fig.update_xaxes(title=f"price {p} (log scale)", type="log", row=r, col=c)
+        fig.update_yaxes(title=f"quantity {q}", row=r, col=c)
     kind = {"cost": "Conditional", "profit": "Unconditional", "expenditure": "Hicksian",
             "indirect_utility": "Marshallian"}.get(dual.kind, "")
     return _finish(fig, f"{kind} demands against their own prices")
@@ -210,9 +225,6 @@ def conjugate_envelope(formula: str, var: str = "x", lower: float = -3.0,
     [lower, upper] by the linear-time discrete transform; each drawn line
     ``s x − f*(s)`` supports f from below, and together they trace its convex envelope.
     """
-    import duality as dy
-    from duality.model.formula import parse
-
     if not lower < upper:
         raise DualityError(f"the interval needs lower < upper (got {lower:g}, {upper:g})")
     expr = parse(formula)
@@ -257,8 +269,10 @@ def conjugate_envelope(formula: str, var: str = "x", lower: float = -3.0,
     return _finish(fig, "Legendre–Fenchel conjugate as the envelope of supporting lines")
 
 
-def elasticity_heatmap(matrix: pd.DataFrame, title: str) -> go.Figure:
-    """A heat map of an elasticity matrix (rows and columns labelled by quantity)."""
+def elasticity_heatmap(matrix: pd.DataFrame, title: str, rows: str = "row",
+                       columns: str = "column") -> go.Figure:
+    """A heat map of an elasticity matrix (rows and columns labelled by quantity;
+    ``rows`` and ``columns`` title the axes)."""
     vals = matrix.to_numpy(dtype=float)
     finite = vals[np.isfinite(vals)]
     bound = float(np.abs(finite).max()) if finite.size else 1.0
@@ -267,7 +281,8 @@ def elasticity_heatmap(matrix: pd.DataFrame, title: str) -> go.Figure:
                                zmin=-bound, zmax=bound, text=text, texttemplate="%{text}",
                                colorscale=[[0.0, ACCENT], [0.5, "#f4f1ea"], [1.0, PRIMAL]],
                                colorbar=dict(title="elasticity")))
-    fig.update_yaxes(autorange="reversed")
+    fig.update_yaxes(autorange="reversed", title=rows)
+    fig.update_xaxes(title=columns, side="bottom")
     return _finish(fig, title)
 
 

@@ -455,8 +455,9 @@ def view_elasticities(model) -> None:
         st.dataframe(tabs[which].style.format("{:.4f}"))
         if which == "morishima":
             st.caption("row i: the price that changes; column j: the ratio x_j / x_i")
-        st.plotly_chart(F.elasticity_heatmap(tabs[which], A.ELASTICITY_TITLES[which]
-                                             .capitalize()), key="el_heat")
+        st.plotly_chart(F.elasticity_heatmap(tabs[which],
+                                             A.ELASTICITY_TITLES[which].capitalize(),
+                                             *A.ELASTICITY_AXES[which]), key="el_heat")
 
 
 #: check status → a mark from the icon font Streamlit ships (no colour-emoji font needed)
@@ -481,8 +482,15 @@ def view_checks(model) -> None:
             if r.max_error is not None:
                 st.caption(f"largest error {r.max_error:.3g} at {r.points} points")
             if r.counterexample:
-                st.write("counterexample:", r.counterexample)
-    st.dataframe(A.checks_frame(recs), hide_index=True)
+                st.caption("counterexample: the point where it fails")
+                st.dataframe(A.counterexample_frame(r.counterexample)
+                             .style.format(_number_text, na_rep="—"))
+    st.dataframe(A.checks_frame(recs).style.format(
+        {"largest error": "{:.3g}", "points": "{:.0f}"}, na_rep="—"), hide_index=True)
+
+
+def _number_text(v) -> str:
+    return f"{v:.6g}" if isinstance(v, (int, float)) and not isinstance(v, bool) else str(v)
 
 
 def view_figures(model) -> None:
@@ -560,7 +568,8 @@ def view_scenarios(model) -> None:
                                    "Welfare change per variant (CV, EV, ΔCS)", axis),
             "fig_welfare")
     flat = table.reset_index(names=["scenario variant", "measure"])
-    st.dataframe(flat, hide_index=True)
+    st.dataframe(flat.style.format({c: "{:,.6g}" for c in ("baseline", "variant", "change")},
+                                   na_rep="—"), hide_index=True)
 
 
 def view_data(model) -> None:

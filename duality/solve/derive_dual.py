@@ -47,9 +47,10 @@ def given(model: Model):
         extra = {}
     src = dual_source(model)
     route = "catalogue" if src else "symbolic"
-    what = model.form.replace("_", " ") + " " if model.form else ""
-    method = (f"given as a {what}{model.side.replace('_', ' ')} function; demands by "
-              f"{LEMMA[model.side]}")
+    what = (DUAL_CATALOGUE[model.form]["title"] if model.form in DUAL_CATALOGUE
+            else f"{model.side.replace('_', ' ')} function")
+    article = "an" if what[0].lower() in "aeiou" else "a"
+    method = f"given as {article} {what}; demands by {LEMMA[model.side]}"
     return Solution(e, demands, route, method, src, (), (), extra)
 
 

@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import threading
 import warnings
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -250,3 +251,17 @@ def test_a_near_miss_of_a_catalogue_form_falls_through_instead_of_failing():
     e = dy.expenditure(p, budget=1)
     assert e.route == "numeric"
     assert np.isfinite(e(p1=1.0, p2=2.0, u=10.0))
+
+
+@pytest.mark.parametrize("scenario, kind, method", [
+    ("ferry_operator_translog.toml", "cost",
+     "given as a translog cost function; demands by Shephard's lemma"),
+    ("orchard_village_aids.toml", "expenditure",
+     "given as an Almost Ideal expenditure function; demands by Shephard's lemma"),
+])
+def test_a_given_dual_names_its_form_once(scenario, kind, method):
+    """The method of a model given on the dual side reads as a sentence (common practice,
+    no source: Shephard's lemma gives the demands of a cost or expenditure function)."""
+    path = Path(__file__).resolve().parents[2] / "scenarios" / scenario
+    model = dy.load_scenario(path).build_model()
+    assert derive.duals(model)[kind].method == method

@@ -200,3 +200,49 @@ def test_welfare_bars_without_measures_is_an_error():
     import pandas as pd
     with pytest.raises(DualityError, match="no welfare"):
         F.welfare_bars(pd.DataFrame(columns=["variant", "measure", "change"]))
+
+
+def test_constant_returns_cost_curves_are_flat_not_rounding_noise():
+    """Under constant returns average and marginal cost are both c(w, 1), constant in
+    output (Varian 1992, ch. 5, from memory): the curves are drawn exactly flat."""
+    m = dy.technology("x1^0.5*x2^0.5", ["x1", "x2"])
+    cost = dy.cost(m)
+    fig = F.cost_curves(cost, {"w1": 0.7, "w2": 1.3, "y": 3.0})
+    unit = 2 * (0.7 * 1.3) ** 0.5               # c(w, 1) = 2 sqrt(w1 w2)
+    for trace in fig.data[1:]:
+        assert np.unique(trace.y).size == 1
+        assert trace.y[0] == pytest.approx(unit, rel=1e-12)
+    assert fig.layout.yaxis.title.text == "cost"
+    assert fig.layout.yaxis2.title.text == "cost per unit of output"
+    assert fig.layout.xaxis.title.text.startswith("output")
+
+
+def test_steady_keeps_a_curve_that_really_varies():
+    v = np.array([1.0, 1.0 + 1e-6, 1.0 + 2e-6])
+    np.testing.assert_array_equal(F.steady(v), v)
+    noisy = np.array([19.44358305165849998, 19.443583051658501, 19.4435830516585])
+    assert np.unique(F.steady(noisy)).size == 1
+
+
+def test_every_figure_titles_its_axes(pottery):
+    s, m, duals, pt = pottery
+    tabs = A.elasticity_tables(m, pt)
+    heat = F.elasticity_heatmap(tabs["price"], "Price", *A.ELASTICITY_AXES["price"])
+    assert heat.layout.yaxis.title.text == "demand for (row i)"
+    assert heat.layout.xaxis.title.text == "price that changes (column j)"
+    dem = F.demand_curves(duals["cost"], pt)
+    assert dem.layout.xaxis.title.text == "price w_clay (log scale)"
+    assert dem.layout.yaxis.title.text == "quantity clay"
+
+
+def test_the_profit_bar_says_what_it_measures():
+    s = dy.load_scenario(SCENARIOS / "pottery_workshop.toml")
+    bars = A.welfare_bars_data(A.welfare(s), "technology")
+    assert set(bars["measure"]) == {A.BAR_LABELS["profit"], A.BAR_LABELS["total cost"]}
+
+
+def test_a_counterexample_is_a_small_table():
+    frame = A.counterexample_frame({"w1": 0.5, "y": 2.0, "detail": {"lhs": 1.0, "rhs": 3.0}})
+    assert list(frame.index) == ["w1", "y", "detail.lhs", "detail.rhs"]
+    assert list(frame["value"]) == [0.5, 2.0, 1.0, 3.0]
+    assert A.counterexample_frame(None).empty

@@ -158,7 +158,7 @@ def tex(expr) -> str:
     """LaTeX with an explicit product dot and upright multi-letter names (names here are
     often words: A·clay^0.3, w_clay)."""
     names = {s: _symbol_tex(s) for s in getattr(expr, "free_symbols", ())}
-    return sp.latex(expr, mul_symbol="dot", symbol_names=names)
+    return sp.latex(expr, mul_symbol="dot", symbol_names=names, ln_notation=True)
 
 
 def _args_tex(args) -> str:
@@ -166,13 +166,53 @@ def _args_tex(args) -> str:
 
 
 def latex_of(d: Derived) -> str:
-    """``head(args) = closed form`` of a derived function, or a note that it is numeric."""
+    """``head(args) = closed form`` of a derived function, or a note that it is numeric.
+
+    Numeric constants built from roots and powers print as decimals (six figures), a
+    function of the form ``exp(…)`` prints in log form, ``ln c(…) = …``, and a long sum
+    is broken over lines.
+    """
     if d.expr is None:
         return d.latex()
     head = d.latex().split("(", 1)[0]
     if d.name and head == sp.latex(sp.Symbol(d.name)):
         head = tex(sp.Symbol(d.name))
-    return f"{head}({_args_tex(d.args)}) = {tex(d.expr)}"
+    lhs, expr = f"{head}({_args_tex(d.args)})", decimals(d.expr)
+    if expr.func is sp.exp:
+        lhs, expr = rf"\ln {lhs}", expr.args[0]
+    return broken(lhs, expr)
+
+
+def decimals(expr, digits: int = 6):
+    """``expr`` with every numeric part that is not a plain fraction (a root, a power of
+    a number, a logarithm of one) replaced by its decimal value; symbols, parameters and
+    fractional exponents stay as they are."""
+    return expr.replace(lambda e: e.is_number and not e.is_Atom and not e.is_Rational,
+                        lambda e: sp.Float(e.evalf(digits + 9), digits))
+
+
+#: rough width of one displayed line, in characters of LaTeX source
+LINE = 180
+
+
+def broken(lhs: str, expr) -> str:
+    """``lhs = expr`` in LaTeX; a long sum goes over several aligned lines, one break
+    between terms."""
+    full = f"{lhs} = {tex(expr)}"
+    if len(full) <= LINE or not expr.is_Add:
+        return full
+    lines, cur = [], ""
+    for k, term in enumerate(expr.as_ordered_terms()):
+        neg = term.could_extract_minus_sign()
+        piece = ("- " if neg else "+ " if k else "") + tex(-term if neg else term)
+        if cur and len(cur) + len(piece) > LINE:
+            lines.append(cur)
+            cur = piece
+        else:
+            cur = f"{cur} {piece}".strip()
+    lines.append(cur)
+    return (r"\begin{aligned} " + lhs + " &= " + r" \\ &\quad ".join(lines)
+            + r" \end{aligned}")
 
 
 def model_latex(model: Model) -> str:

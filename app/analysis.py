@@ -347,6 +347,44 @@ def welfare_bars_data(table: pd.DataFrame, role: str) -> pd.DataFrame:
     return pd.DataFrame(rows, columns=["variant", "measure", "change"])
 
 
+# -- comparison ---------------------------------------------------------------------------
+def key_values(scenario) -> dict[tuple[str, str], float]:
+    """The numbers a comparison shows for one scenario, keyed by (section, item): each
+    dual and its demands at the baseline, own-price elasticities, and every price
+    variant's figures."""
+    model = scenario.build_model()
+    found, pt = cards(model, scenario.points()[0])
+    out: dict[tuple[str, str], float] = {}
+    for c in found:
+        if isinstance(c, Unavailable):
+            continue
+        out[("at the baseline", c.title)] = c.value
+        for d in c.demands:
+            out[("at the baseline", f"{c.title}: demand {d.title}")] = d.value
+    tabs = elasticity_tables(model, pt)
+    if not isinstance(tabs, str):
+        for q in tabs["price"].index:
+            out[("own-price elasticity", q)] = float(tabs["price"].loc[q, q])
+    table = welfare(scenario)
+    if not isinstance(table, str):
+        for (variant, measure), row in table.iterrows():
+            out[("price scenarios", f"{variant}: {measure}")] = float(row["variant"])
+    return out
+
+
+def comparison(first, second, names: tuple[str, str]) -> pd.DataFrame:
+    """Two scenarios side by side: columns ``section``, ``item``, one per scenario
+    (``names``) and ``difference`` (first − second; NaN where either lacks the item)."""
+    a, b = key_values(first), key_values(second)
+    keys = list(a) + [k for k in b if k not in a]
+    frame = pd.DataFrame([{"section": k[0], "item": k[1],
+                           names[0]: a.get(k), names[1]: b.get(k)} for k in keys],
+                         columns=["section", "item", *names])
+    frame[list(names)] = frame[list(names)].astype(float)
+    frame["difference"] = frame[names[0]] - frame[names[1]]
+    return frame
+
+
 # -- regularity ---------------------------------------------------------------------------
 def regularity(model: Model, data: pd.DataFrame, columns: dict | None = None):
     """Regularity report over ``data`` (library report object)."""

@@ -11,7 +11,8 @@ exist for the model (no production function given, fewer than two quantities...)
 - :func:`conjugate_envelope`: a one-variable function, its conjugate, and the supporting
   lines whose upper envelope is the convex envelope of the function;
 - :func:`elasticity_heatmap`: a matrix of elasticities;
-- :func:`welfare_bars`: welfare or cost changes per price variant.
+- :func:`welfare_bars`: welfare or cost changes per price variant;
+- :func:`comparison_bars`: two scenarios' numbers side by side.
 """
 from __future__ import annotations
 
@@ -301,3 +302,20 @@ def welfare_bars(data: pd.DataFrame, title: str = "Change per variant",
     fig.update_layout(barmode="group")
     fig.update_yaxes(title=axis)
     return _finish(fig, title)
+
+
+def comparison_bars(frame: pd.DataFrame, names: tuple[str, str],
+                    section: str = "at the baseline") -> go.Figure:
+    """Grouped horizontal bars of one section of :func:`app.analysis.comparison`: each
+    item's value in the two scenarios."""
+    part = frame[frame["section"] == section].dropna(subset=list(names), how="all")
+    if part.empty:
+        raise DualityError(f"nothing to compare under {section!r}")
+    fig = go.Figure()
+    for k, name in enumerate(names):
+        fig.add_trace(go.Bar(y=part["item"], x=part[name], name=name, orientation="h",
+                             marker_color=(PRIMAL, DUAL)[k]))
+    fig.update_layout(barmode="group", height=120 + 40 * len(part))
+    fig.update_yaxes(title="", autorange="reversed")
+    fig.update_xaxes(title=f"value {section}")
+    return _finish(fig, f"Side by side, {section}")

@@ -24,7 +24,7 @@ from . import figures as F
 from . import workspace as W
 
 VIEWS = ["Duals", "Elasticities", "Checks", "Figures", "Price scenarios", "Data",
-         "Conjugate", "Export & save"]
+         "Compare", "Conjugate", "Export & save"]
 ROUTE_BADGE = {"catalogue": ("catalogue", "green"), "symbolic": ("derived", "blue"),
                "numeric": ("numeric", "orange")}
 CAUTION = ("Results hold only under the assumed functional form and parameter values. "
@@ -737,9 +737,41 @@ def _save(plan: W.SavePlan, confirmed: bool) -> None:
             ss.pick = pick
 
 
+def view_compare(model) -> None:
+    """The scenario in use beside its version as loaded (before the edits) or beside
+    another scenario."""
+    ss = st.session_state
+    against = st.radio("Compare with", ["the scenario before the edits", "another scenario"],
+                       horizontal=True, key="cmp_with")
+    if against == "another scenario":
+        entries = [e for e in _entries() if not e.error]
+        pick = st.selectbox("Scenario", [e.name for e in entries], key="cmp_pick",
+                            format_func={e.name: e.title for e in entries}.get)
+        entry = next(e for e in entries if e.name == pick)
+        other, other_name = sc.load(entry.path), f"{entry.path.stem}"
+    else:
+        if not ss.loaded:
+            st.info(plain("This scenario has no saved version to compare with (it was "
+                          "restored from a draft whose file is gone)."))
+            return
+        other, other_name = W.build(ss.loaded, ss.origin), "before the edits"
+        if not _unsaved():
+            st.caption("No edits yet: both columns are the same; edit a parameter, a "
+                       "price or a variant to see the difference.")
+    names = ("in use", other_name if other_name != "in use" else "other")
+    with st.spinner("Evaluating both scenarios…"):
+        frame = A.comparison(ss.scenario, other, names)
+    _figure(lambda: F.comparison_bars(frame, names), "fig_compare")
+    for section, part in frame.groupby("section", sort=False):
+        st.markdown(f"**{section.capitalize()}**")
+        st.dataframe(part.drop(columns="section").style.format(
+            {c: "{:,.6g}" for c in (*names, "difference")}, na_rep="—"), hide_index=True)
+
+
 RENDER = {"Duals": view_duals, "Elasticities": view_elasticities, "Checks": view_checks,
           "Figures": view_figures, "Price scenarios": view_scenarios, "Data": view_data,
-          "Conjugate": view_conjugate, "Export & save": view_export_save}
+          "Compare": view_compare, "Conjugate": view_conjugate,
+          "Export & save": view_export_save}
 
 
 def _view_changed() -> None:

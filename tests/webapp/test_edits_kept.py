@@ -156,3 +156,34 @@ def test_plain_keeps_markdown_characters_literal():
         r"\_\_import\_\_ and 9\*\*9\*\*9 cost \$5"
     assert V.plain("one\n  two\n  ^").endswith("```text\n  two\n  ^\n```")
     assert V.plain("a_b\nc") == "a\\_b  \nc"       # other line breaks stay breaks
+
+
+def test_compare_puts_the_edited_scenario_beside_the_loaded_one(app):
+    app.number_input(key="par:1:A").set_value(2.4).run()
+    app.segmented_control(key="view").set_value("Compare").run()
+    frames = [d.value for d in _ok(app).dataframe]
+    base = next(f for f in frames if "Cost function" in set(f["item"]))
+    row = base[base["item"] == "Cost function"].iloc[0]
+    assert abs(row["in use"] / _pottery_cost(2.4) - 1) < 1e-9
+    assert abs(row["before the edits"] / _pottery_cost(1.8) - 1) < 1e-9
+    assert abs(row["difference"] - (_pottery_cost(2.4) - _pottery_cost(1.8))) < 1e-6
+    # Cobb–Douglas: the own-price elasticity of a conditional demand is a_i/r - 1, the
+    # same for any A (Varian 1992, ch. 4, from memory): no difference there
+    own = next(f for f in frames if "clay" in set(f["item"]))
+    clay = own[own["item"] == "clay"].iloc[0]
+    assert abs(clay["in use"] - (0.3 / 0.9 - 1)) < 1e-9 and abs(clay["difference"]) < 1e-12
+    assert len(app.get("plotly_chart")) == 1
+
+
+def test_compare_with_another_scenario(app):
+    app.segmented_control(key="view").set_value("Compare").run()
+    app.radio(key="cmp_with").set_value("another scenario").run()
+    app.selectbox(key="cmp_pick").set_value("kettle_lane_bakery.toml").run()
+    frames = [d.value for d in _ok(app).dataframe]
+    base = next(f for f in frames if "Cost function" in set(f["item"]))
+    assert list(base.columns) == ["item", "in use", "kettle_lane_bakery", "difference"]
+    row = base[base["item"] == "Cost function"].iloc[0]
+    assert abs(row["in use"] / _pottery_cost(1.8) - 1) < 1e-9
+    # the bakery's cost as its file writes it, y^1.25 (a w1^0.5 + (1 - a) w2^0.5)^2
+    bakery = 8.0 ** 1.25 * (0.7 * 1.0 ** 0.5 + 0.3 * 2.0 ** 0.5) ** 2
+    assert abs(row["kettle_lane_bakery"] / bakery - 1) < 1e-9

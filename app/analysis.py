@@ -24,6 +24,8 @@ import sympy as sp
 
 import duality as dy
 from duality.solve.derive import DEFAULT_BUDGET, duals
+from duality.analyse import theory
+from duality.analyse.restrictions import check_values, describe_violation, impose
 from duality.errors import DualityError
 from duality.apply.export import TARGETS, export, file_name
 from duality.model.base import Model
@@ -311,6 +313,57 @@ def _short(v) -> str:
         return f"{float(v):.4g}"
     except (TypeError, ValueError):
         return str(v)
+
+
+# -- theory restrictions -----------------------------------------------------------------
+_RESTRICTIONS: dict = {}
+
+
+def _restrictions(model: Model) -> list:
+    """The model's theory restrictions, derived once per formula (not per value)."""
+    key = (model.side, model.expr, tuple(model.prices), tuple(model.param_symbols))
+    if key not in _RESTRICTIONS:
+        try:
+            _RESTRICTIONS[key] = theory.restrictions(model)
+        except DualityError:
+            _RESTRICTIONS[key] = []
+    return _RESTRICTIONS[key]
+
+
+@dataclass(frozen=True)
+class Broken:
+    """Theory restrictions the parameter values break, and the values that impose them
+    (dependent parameters replaced, the others kept)."""
+
+    messages: tuple[str, ...]
+    imposed: dict
+
+
+@lru_cache(maxsize=256)
+def broken_restrictions(model: Model) -> Broken | None:
+    """The restrictions (homogeneity, adding-up, symmetry) of a model given on the dual
+    side that its parameter values break, or None when they hold or do not apply."""
+    if model.is_primal or model.free_params:
+        return None
+    rs = _restrictions(model)
+    if not rs:
+        return None
+    known = {s.name for r in rs for s in tuple(r.parameters) + r.symbols}
+    values = {p.name: p.value for p in model.params if p.name in known}
+    bad = check_values(rs, values, tol=1e-8)
+    if not bad:
+        return None
+    imposed: dict = {}
+    linear = [r for r in rs if r.linear]
+    if linear:
+        try:
+            _reduced, mapping, _kept = impose(model.expr, linear, list(model.param_symbols))
+        except DualityError:
+            mapping = {}
+        at = {p.symbol: p.value for p in model.params}
+        # twelve figures: the sums of decimal parameters carry rounding noise otherwise
+        imposed = {str(p): float(f"{float(e.xreplace(at)):.12g}") for p, e in mapping.items()}
+    return Broken(tuple(describe_violation(r, res) for r, res in bad), imposed)
 
 
 # -- price scenarios ----------------------------------------------------------------------

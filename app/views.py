@@ -774,6 +774,30 @@ RENDER = {"Duals": view_duals, "Elasticities": view_elasticities, "Checks": view
           "Export & save": view_export_save}
 
 
+def _restriction_warning(model) -> None:
+    """On every view: the theory restrictions the parameter values break, with a button
+    that imposes them (dependent parameters replaced, the formula unchanged)."""
+    broken = A.broken_restrictions(model)
+    if broken is None:
+        return
+    lines = [f"These parameter values break {len(broken.messages)} theory restriction(s) "
+             f"of the {model.side.replace('_', ' ')} function; demands and welfare "
+             "figures may not be consistent:", *broken.messages]
+    st.warning(plain("\n".join(lines)))
+    if broken.imposed:
+        change = ", ".join(f"{k} = {v:.6g}" for k, v in broken.imposed.items())
+        st.button(f"Impose the restrictions ({change})", key="impose",
+                  on_click=_impose, args=(broken.imposed,))
+
+
+def _impose(values: dict) -> None:
+    ss = st.session_state
+    ss.raw = W.edited(ss.raw, parameters=values)
+    for name, value in values.items():
+        ss[f"par:{ss.generation}:{name}"] = value     # the boxes show the new values
+    ss.pop("edit_error", None)
+
+
 def _view_changed() -> None:
     """A click on the view already chosen deselects it: keep showing that view."""
     ss = st.session_state
@@ -818,6 +842,7 @@ def _page() -> None:
                       "the page was left)."))
     if ss.get("edit_error"):
         st.error(plain(f"Edit not applied: {ss.edit_error}"))
+    _restriction_warning(model)
     if "view" not in ss:
         ss.view = VIEWS[0]
     view = st.segmented_control("View", VIEWS, key="view", on_change=_view_changed,

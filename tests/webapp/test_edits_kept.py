@@ -187,3 +187,21 @@ def test_compare_with_another_scenario(app):
     # the bakery's cost as its file writes it, y^1.25 (a w1^0.5 + (1 - a) w2^0.5)^2
     bakery = 8.0 ** 1.25 * (0.7 * 1.0 ** 0.5 + 0.3 * 2.0 ** 0.5) ** 2
     assert abs(row["kettle_lane_bakery"] / bakery - 1) < 1e-9
+
+
+def test_broken_restrictions_are_named_on_every_view_and_can_be_imposed(app):
+    """Translog cost: homogeneity of degree 1 in prices needs a1 + a2 + a3 = 1 and each
+    row of g summing to 0 (Christensen, Jorgenson and Lau 1973, from memory)."""
+    app.selectbox(key="pick").set_value("ferry_operator_translog.toml").run()
+    assert not _ok(app).warning
+    app.number_input(key="par:2:a1").set_value(0.6).run()
+    for view in ("Duals", "Elasticities"):
+        app.segmented_control(key="view").set_value(view).run()
+        (warning,) = [_plain(w.value) for w in _ok(app).warning]
+        assert "break 1 theory restriction" in warning and "a1 + a2 + a3" in warning
+    app.button(key="impose").click().run()
+    assert not _ok(app).warning
+    values = app.session_state["raw"]["model"]["parameters"]
+    assert abs(values["a1"] + values["a2"] + values["a3"] - 1) < 1e-12
+    assert values["a1"] == 0.6
+    assert app.number_input(key="par:2:a3").value == values["a3"]

@@ -317,3 +317,47 @@ def test_a_malicious_or_broken_formula_gets_a_clear_message(page, formula, messa
     page.get_by_text(message, exact=False).first.wait_for()
     page.get_by_role("heading", name=re.compile("Brackenford")).wait_for()
     assert not Path("/tmp/owned").exists()
+
+
+def test_clicking_the_chosen_view_keeps_it(page):
+    from playwright.sync_api import expect
+
+    choose_view(page, "Elasticities")
+    choose_view(page, "Elasticities")          # a second click used to deselect it
+    expect(page.get_by_role("radio", name="Elasticities", exact=True)).to_be_checked()
+    page.get_by_text("Shares and output elasticities").wait_for()
+
+
+def test_a_refused_formula_is_shown_as_written(page):
+    page.get_by_text("Type a formula").click()
+    page.get_by_role("textbox", name="Formula").fill("9**9**9*x1*x2")
+    page.get_by_role("button", name="Use this model").click()
+    alert = page.locator('[data-testid="stAlert"]').filter(has_text="exponent")
+    alert.locator("code").filter(has_text="9**9**9*x1*x2").wait_for()
+    lines = alert.locator("code").inner_text().split("\n")
+    assert "9**9**9*x1*x2" in lines[0] and lines[1].strip() == "^"
+    assert lines[1].index("^") == lines[0].index("9")   # the caret under the place
+
+
+def test_opening_another_scenario_with_unsaved_edits_asks_first(page):
+    from playwright.sync_api import expect
+
+    set_number(page, "A", 2.4)
+    wait_for_metric(page, _pottery_cost(2.4))
+    page.locator('[data-testid="stSidebar"] [data-testid="stSelectbox"]').first.click()
+    page.get_by_role("option", name=re.compile("Saltmere")).click()
+    page.get_by_text("has unsaved edits").wait_for()
+    expect(page.get_by_role("heading", name=re.compile("Brackenford"))).to_be_visible()
+    page.get_by_role("button", name="Keep editing").click()
+    wait_idle(page)
+    assert wait_for_metric(page, _pottery_cost(2.4)) == pytest.approx(_pottery_cost(2.4),
+                                                                      rel=1e-5)
+    expect(page.get_by_text("has unsaved edits")).to_have_count(0)
+
+
+def test_compare_shows_the_edit_beside_the_loaded_version(page):
+    set_number(page, "A", 2.4)
+    wait_for_metric(page, _pottery_cost(2.4))
+    choose_view(page, "Compare")
+    page.get_by_text("Side by side, at the baseline").wait_for()
+    page.get_by_text("Own-price elasticity").wait_for()

@@ -366,6 +366,19 @@ def broken_restrictions(model: Model) -> Broken | None:
     return Broken(tuple(describe_violation(r, res) for r, res in bad), imposed)
 
 
+# -- recovery -----------------------------------------------------------------------------
+@lru_cache(maxsize=16)
+def recovered(model: Model, point: tuple):
+    """The technology or preference behind a cost or expenditure function
+    (:func:`duality.recover`, numeric route), over price ratios w_i/w_1 within a factor
+    of three of those at ``point`` (sorted items): flexible forms are regular only near
+    their data, and the recovery must not range over prices where they are not."""
+    pt = dict(point)
+    ps = [str(p) for p in model.prices]
+    ratios = [pt[p] / pt[ps[0]] for p in ps[1:]]
+    return dy.recover(model, budget=0, price_ratios=(min(ratios) / 3, max(ratios) * 3))
+
+
 # -- price scenarios ----------------------------------------------------------------------
 def welfare(scenario) -> pd.DataFrame | str:
     """The scenario's comparison table (variants against the baseline)."""

@@ -88,27 +88,62 @@ def level_curve(model: Model, dual: Derived, point: dict, pair: tuple[str, str] 
     xstar = _demand_values(dual, point)
     level = float(np.asarray(f(*[xstar[q] for q in qs])))
     i, j = qs.index(pair[0]), qs.index(pair[1])
-    prices = [str(p) for p in model.prices]
-    wi, wj = point[prices[i]], point[prices[j]]
     xi0, xj0 = xstar[pair[0]], xstar[pair[1]]
     xi = np.geomspace(xi0 / 6.0, xi0 * 6.0, n)
     xj = _solve_level(f, qs, xstar, i, j, xi, level, xj0)
+    return _level_figure(model, point, pair, xstar, xi, xj, level, recovered=False)
+
+
+def recovered_level_curve(model: Model, recovered, dual: Derived, point: dict,
+                          n: int = 80) -> go.Figure:
+    """The isoquant or indifference curve of the technology or preference recovered from
+    a cost or expenditure function (``recovered``: :func:`duality.recover`), through the
+    bundle the dual's demands give at ``point``, in the plane of the first two quantities
+    (the others at that bundle); marked as recovered."""
+    qs = [str(q) for q in model.quantities]
+    if len(qs) < 2:
+        raise DualityError("a level curve needs at least two quantities")
+    xstar = _demand_values(dual, point)
+    level = float(point[str(model.level)])
+    other = {q: xstar[q] for q in qs[2:]} or None
+    pts = np.asarray(recovered.isoquant(level, n=n, other=other), dtype=float)
+    return _level_figure(model, point, tuple(qs[:2]), xstar, pts[:, 0], pts[:, 1], level,
+                         recovered=True)
+
+
+def _level_figure(model: Model, point: dict, pair: tuple, xstar: dict, xi: np.ndarray,
+                  xj: np.ndarray, level: float, recovered: bool) -> go.Figure:
+    """The level curve (points ``xi``, ``xj``) with the isocost or budget line through
+    the optimal bundle ``xstar`` and the bundle marked."""
+    qs = [str(q) for q in model.quantities]
+    i, j = qs.index(pair[0]), qs.index(pair[1])
+    prices = [str(p) for p in model.prices]
+    wi, wj = point[prices[i]], point[prices[j]]
+    xi0, xj0 = xstar[pair[0]], xstar[pair[1]]
     spend = wi * xi0 + wj * xj0
     line_x = np.linspace(0.0, spend / wi, 50)
     line_y = (spend - wi * line_x) / wj
     what = "isoquant" if model.is_technology else "indifference curve"
     line = "isocost line" if model.is_technology else "budget line"
+    source = "cost" if model.is_technology else "expenditure"
+    name = f"{what} ({level:.4g})" + (f", recovered from the {source} function"
+                                      if recovered else "")
     fig = go.Figure()
-    ok = np.isfinite(xj)
-    fig.add_trace(go.Scatter(x=xi[ok], y=xj[ok], mode="lines", name=f"{what} ({level:.4g})",
-                             line=dict(color=PRIMAL, width=3)))
+    ok = np.isfinite(xi) & np.isfinite(xj)
+    fig.add_trace(go.Scatter(x=xi[ok], y=xj[ok], mode="lines", name=name,
+                             line=dict(color=PRIMAL, width=3, dash="dot" if recovered
+                                       else "solid")))
     fig.add_trace(go.Scatter(x=line_x, y=line_y, mode="lines", name=line,
                              line=dict(color=DUAL, width=2, dash="dash")))
     fig.add_trace(go.Scatter(x=[xi0], y=[xj0], mode="markers", name="optimal bundle",
                              marker=dict(color=ACCENT, size=12, symbol="diamond")))
-    fig.update_xaxes(title=pair[0], range=[0, 2.2 * xi0])
-    fig.update_yaxes(title=pair[1], range=[0, 2.2 * xj0])
-    return _finish(fig, f"{what.capitalize()} and {line} at the chosen prices")
+    fig.update_xaxes(title=f"quantity {pair[0]}", range=[0, 2.2 * xi0])
+    fig.update_yaxes(title=f"quantity {pair[1]}", range=[0, 2.2 * xj0])
+    title = f"{what.capitalize()} and {line} at the chosen prices"
+    if recovered:
+        title = (f"Recovered {what} (from the {source} function) and {line} at the "
+                 "chosen prices")
+    return _finish(fig, title)
 
 
 def _solve_level(f, qs, xstar, i, j, xi, level, xj0, iters: int = 80) -> np.ndarray:

@@ -501,7 +501,14 @@ def view_figures(model) -> None:
     else:
         dual, level_dual = duals.get("indirect_utility"), duals.get("expenditure")
     qs = [str(q) for q in model.quantities]
-    if isinstance(level_dual, dy.Derived) and len(qs) >= 2:
+    if not model.is_primal and isinstance(level_dual, dy.Derived) and len(qs) >= 2:
+        with st.spinner("Recovering the " + ("technology" if model.is_technology
+                                             else "preference") + " behind the "
+                        + level_dual.label + "…"):
+            _figure(lambda: F.recovered_level_curve(
+                model, A.recovered(model, tuple(sorted(pt.items()))), level_dual, pt),
+                "fig_level")
+    elif isinstance(level_dual, dy.Derived) and len(qs) >= 2:
         pair = qs[:2]
         if len(qs) > 2:
             c1, c2 = st.columns(2)

@@ -205,3 +205,9 @@ def test_broken_restrictions_are_named_on_every_view_and_can_be_imposed(app):
     assert abs(values["a1"] + values["a2"] + values["a3"] - 1) < 1e-12
     assert values["a1"] == 0.6
     assert app.number_input(key="par:2:a3").value == values["a3"]
+
+
+def test_a_dual_side_model_draws_its_recovered_level_curve(app):
+    app.selectbox(key="pick").set_value("kettle_lane_bakery.toml").run()
+    app.segmented_control(key="view").set_value("Figures").run()
+    assert not _ok(app).info and len(app.get("plotly_chart")) == 3

@@ -246,3 +246,21 @@ def test_a_counterexample_is_a_small_table():
     assert list(frame.index) == ["w1", "y", "detail.lhs", "detail.rhs"]
     assert list(frame["value"]) == [0.5, 2.0, 1.0, 3.0]
     assert A.counterexample_frame(None).empty
+
+
+@pytest.mark.parametrize("name", ["kettle_lane_bakery.toml", "orchard_village_aids.toml"])
+def test_a_recovered_level_curve_is_supported_by_the_isocost_line(name):
+    """Every bundle on the level curve costs at least c(w, y) at the baseline prices, and
+    the cheapest is the cost minimum itself (definition of the cost / expenditure
+    function, Varian 1992, ch. 4 and 7, from memory)."""
+    s, m, duals, pt = _scenario(name)
+    dual = duals["cost" if m.is_technology else "expenditure"]
+    rec = A.recovered(m, tuple(sorted(pt.items())))
+    fig = F.recovered_level_curve(m, rec, dual, pt)
+    curve = fig.data[0]
+    assert "recovered" in curve.name and "Recovered" in fig.layout.title.text
+    ps = [str(p) for p in m.prices]
+    spend = np.asarray(curve.x) * pt[ps[0]] + np.asarray(curve.y) * pt[ps[1]]
+    least = float(dual(**A.point_for(dual, pt)))
+    assert spend.min() >= least * (1 - 1e-6)
+    assert spend.min() <= least * 1.01

@@ -14,13 +14,13 @@ import math
 import os
 import re
 import secrets
-import tempfile
 from dataclasses import dataclass
 from pathlib import Path
 
 import pandas as pd
 
 from duality.apply import scenario as sc
+from duality.apply.files import write_atomic
 from duality.errors import DualityError
 from duality.model.formula import parse
 
@@ -301,35 +301,17 @@ def draft_path(folder: Path, draft_id: str) -> Path:
 
 def write_draft(folder: Path, draft_id: str, raw: dict, origin: Path | None,
                 label: str) -> Path:
-    """Keep the edited scenario ``raw`` (with where it came from) as a draft, atomically.
-
-    The text goes to a temporary file beside the draft and replaces it in one step
-    (``os.replace``), so a draft on disk is always a whole one.
-    """
+    """Keep the edited scenario ``raw`` (with where it came from) as a draft, atomically
+    (:func:`duality.apply.files.write_atomic`: a draft on disk is always a whole one)."""
     path = draft_path(folder, draft_id)
     text = json.dumps({"origin": None if origin is None else str(origin), "label": label,
                        "scenario": raw}, indent=1)
     try:
         path.parent.mkdir(parents=True, exist_ok=True)
-        fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
     except OSError as exc:
         raise DualityError(f"{path.parent}: cannot keep a draft there "
                            f"({exc.strerror or exc})") from None
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except BaseException as exc:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        if isinstance(exc, OSError):
-            raise DualityError(f"{path}: cannot keep the draft ({exc.strerror or exc})") \
-                from None
-        raise
+    write_atomic(path, text, what="keep the draft")
     return path
 
 

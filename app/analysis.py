@@ -23,6 +23,7 @@ import sympy as sp
 
 import duality as dy
 from duality.solve.derive import DEFAULT_BUDGET, duals
+from duality.solve.display import decimals, lines, log_form, terms
 from duality.analyse import theory
 from duality.analyse.restrictions import check_values, describe_violation, impose
 from duality.errors import DualityError
@@ -149,18 +150,8 @@ def latex_of(d: Derived) -> str:
     head = d.latex().split("(", 1)[0]
     if d.name and head == sp.latex(sp.Symbol(d.name)):
         head = tex(sp.Symbol(d.name))
-    lhs, expr = f"{head}({_args_tex(d.args)})", decimals(d.expr)
-    if expr.func is sp.exp:
-        lhs, expr = rf"\ln {lhs}", expr.args[0]
+    lhs, expr = log_form(f"{head}({_args_tex(d.args)})", decimals(d.expr), ln=r"\ln ")
     return broken(lhs, expr)
-
-
-def decimals(expr, digits: int = 6):
-    """``expr`` with every numeric part that is not a plain fraction (a root, a power of
-    a number, a logarithm of one) replaced by its decimal value; symbols, parameters and
-    fractional exponents stay as they are."""
-    return expr.replace(lambda e: e.is_number and not e.is_Atom and not e.is_Rational,
-                        lambda e: sp.Float(e.evalf(digits + 9), digits))
 
 
 #: rough width of one displayed line, in characters of LaTeX source
@@ -173,17 +164,8 @@ def broken(lhs: str, expr) -> str:
     full = f"{lhs} = {tex(expr)}"
     if len(full) <= LINE or not expr.is_Add:
         return full
-    lines, cur = [], ""
-    for k, term in enumerate(expr.as_ordered_terms()):
-        neg = term.could_extract_minus_sign()
-        piece = ("- " if neg else "+ " if k else "") + tex(-term if neg else term)
-        if cur and len(cur) + len(piece) > LINE:
-            lines.append(cur)
-            cur = piece
-        else:
-            cur = f"{cur} {piece}".strip()
-    lines.append(cur)
-    return (r"\begin{aligned} " + lhs + " &= " + r" \\ &\quad ".join(lines)
+    rows = lines(terms(expr, tex), LINE)
+    return (r"\begin{aligned} " + lhs + " &= " + r" \\ &\quad ".join(rows)
             + r" \end{aligned}")
 
 

@@ -539,7 +539,8 @@ def _variant_editor() -> None:
     if key not in ss or base not in ss:
         ss[base] = W.variants_frame(ss.raw)
     edited_before = ss.raw.get("variants") != ss.loaded.get("variants")
-    with st.expander("Edit the variants (one row each; empty cells keep the baseline)",
+    with st.expander("Edit the variants (one row each; an empty cell, shown as None, "
+                     "keeps the baseline value)",
                      expanded=edited_before):
         edited = st.data_editor(ss[base], num_rows="dynamic", key=key)
     if edited.equals(W.variants_frame(ss.raw)):

@@ -174,7 +174,8 @@ def model_latex(model: Model) -> str:
     head = model.given.latex
     if model.is_primal:
         return f"{tex(model.level)} = {head}({_args_tex(model.quantities)}) = {tex(model.expr)}"
-    return f"{head}({_args_tex(model.dual_args)}) = {tex(model.expr)}"
+    return broken(*log_form(f"{head}({_args_tex(model.dual_args)})", model.expr,
+                            ln=r"\ln "))
 
 
 # -- elasticities -------------------------------------------------------------------------
@@ -311,7 +312,9 @@ def broken_restrictions(model: Model) -> Broken | None:
             mapping = {}
         at = {p.symbol: p.value for p in model.params}
         # twelve figures: the sums of decimal parameters carry rounding noise otherwise
+        now = {p.name: p.value for p in model.params}
         imposed = {str(p): float(f"{float(e.xreplace(at)):.12g}") for p, e in mapping.items()}
+        imposed = {k: v for k, v in imposed.items() if abs(v - now[k]) > 1e-12}
     return Broken(tuple(describe_violation(r, res) for r, res in bad), imposed)
 
 

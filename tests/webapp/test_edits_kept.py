@@ -199,6 +199,9 @@ def test_broken_restrictions_are_named_on_every_view_and_can_be_imposed(app):
         app.segmented_control(key="view").set_value(view).run()
         (warning,) = [_plain(w.value) for w in _ok(app).warning]
         assert "break 1 theory restriction" in warning and "a1 + a2 + a3" in warning
+        assert "a1 + a2 + a3 = 1 is violated by 0.15" in warning
+    # only the parameter that changes is named: a3 = 1 - a1 - a2 = 0.05
+    assert app.button(key="impose").label == "Impose the restrictions (a3 = 0.05)"
     app.button(key="impose").click().run()
     assert not _ok(app).warning
     values = app.session_state["raw"]["model"]["parameters"]

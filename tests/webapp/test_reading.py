@@ -56,3 +56,9 @@ def test_a_translog_cost_prints_in_log_form_over_several_lines():
 def test_a_short_formula_stays_on_one_line():
     x = sp.Symbol("x")
     assert A.broken("f(x)", x + 1) == "f(x) = x + 1"
+
+
+def test_a_model_given_as_a_translog_reads_in_log_form():
+    model = dy.load_scenario(SCENARIOS / "ferry_operator_translog.toml").build_model()
+    latex = A.model_latex(model)
+    assert latex.startswith(r"\begin{aligned} \ln c(") and "e^{" not in latex

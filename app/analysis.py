@@ -393,7 +393,8 @@ def key_values(scenario) -> dict[tuple[str, str], float]:
 
 def comparison(first, second, names: tuple[str, str]) -> pd.DataFrame:
     """Two scenarios side by side: columns ``section``, ``item``, one per scenario
-    (``names``) and ``difference`` (first − second; NaN where either lacks the item)."""
+    (``names``), ``difference`` (first − second; NaN where either lacks the item) and
+    ``change %`` (the difference in per cent of the second; NaN where that is 0)."""
     a, b = key_values(first), key_values(second)
     keys = list(a) + [k for k in b if k not in a]
     frame = pd.DataFrame([{"section": k[0], "item": k[1],
@@ -401,6 +402,8 @@ def comparison(first, second, names: tuple[str, str]) -> pd.DataFrame:
                          columns=["section", "item", *names])
     frame[list(names)] = frame[list(names)].astype(float)
     frame["difference"] = frame[names[0]] - frame[names[1]]
+    base = frame[names[1]].abs().where(frame[names[1]] != 0)
+    frame["change %"] = 100.0 * frame["difference"] / base
     return frame
 
 

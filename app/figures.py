@@ -341,16 +341,19 @@ def welfare_bars(data: pd.DataFrame, title: str = "Change per variant",
 
 def comparison_bars(frame: pd.DataFrame, names: tuple[str, str],
                     section: str = "at the baseline") -> go.Figure:
-    """Grouped horizontal bars of one section of :func:`app.analysis.comparison`: each
-    item's value in the two scenarios."""
-    part = frame[frame["section"] == section].dropna(subset=list(names), how="all")
+    """Horizontal bars of one section of :func:`app.analysis.comparison`: each item's
+    change from the second scenario to the first, in per cent (items of very different
+    size read on one axis)."""
+    part = frame[frame["section"] == section].dropna(subset=["change %"])
     if part.empty:
         raise DualityError(f"nothing to compare under {section!r}")
-    fig = go.Figure()
-    for k, name in enumerate(names):
-        fig.add_trace(go.Bar(y=part["item"], x=part[name], name=name, orientation="h",
-                             marker_color=(PRIMAL, DUAL)[k]))
-    fig.update_layout(barmode="group", height=120 + 40 * len(part))
+    colours = [PRIMAL if v >= 0 else ACCENT for v in part["change %"]]
+    fig = go.Figure(go.Bar(y=part["item"], x=part["change %"], orientation="h",
+                           marker_color=colours, name="change",
+                           text=[f"{v:+.3g} %" for v in part["change %"]],
+                           textposition="outside"))
+    fig.add_vline(x=0, line=dict(color=INK, width=1))
+    fig.update_layout(height=140 + 32 * len(part), showlegend=False)
     fig.update_yaxes(title="", autorange="reversed")
-    fig.update_xaxes(title=f"value {section}")
-    return _finish(fig, f"Side by side, {section}")
+    fig.update_xaxes(title=f"change from {names[1]} to {names[0]}, per cent")
+    return _finish(fig, f"{names[0].capitalize()} against {names[1]}, {section}")

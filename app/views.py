@@ -768,7 +768,8 @@ def view_compare(model) -> None:
     for section, part in frame.groupby("section", sort=False):
         st.markdown(f"**{section.capitalize()}**")
         st.dataframe(part.drop(columns="section").style.format(
-            {c: "{:,.6g}" for c in (*names, "difference")}, na_rep="—"), hide_index=True)
+            {**{c: "{:,.6g}" for c in (*names, "difference")}, "change %": "{:+.3g}"},
+            na_rep="—"), hide_index=True)
 
 
 #: the views, in the order the page offers them: label -> function drawing it (the one

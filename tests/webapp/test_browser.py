@@ -359,5 +359,5 @@ def test_compare_shows_the_edit_beside_the_loaded_version(page):
     set_number(page, "A", 2.4)
     wait_for_metric(page, _pottery_cost(2.4))
     choose_view(page, "Compare")
-    page.get_by_text("Side by side, at the baseline").wait_for()
+    page.get_by_text("In use against before the edits, at the baseline").wait_for()
     page.get_by_text("Own-price elasticity").wait_for()

@@ -167,6 +167,8 @@ def test_compare_puts_the_edited_scenario_beside_the_loaded_one(app):
     assert abs(row["in use"] / _pottery_cost(2.4) - 1) < 1e-9
     assert abs(row["before the edits"] / _pottery_cost(1.8) - 1) < 1e-9
     assert abs(row["difference"] - (_pottery_cost(2.4) - _pottery_cost(1.8))) < 1e-6
+    # cost is proportional to A^(-1/r), r = 0.9: the change is (2.4/1.8)^(-1/0.9) - 1
+    assert abs(row["change %"] - 100 * ((2.4 / 1.8) ** (-1 / 0.9) - 1)) < 1e-9
     # Cobb–Douglas: the own-price elasticity of a conditional demand is a_i/r - 1, the
     # same for any A (Varian 1992, ch. 4, from memory): no difference there
     own = next(f for f in frames if "clay" in set(f["item"]))
@@ -181,7 +183,8 @@ def test_compare_with_another_scenario(app):
     app.selectbox(key="cmp_pick").set_value("kettle_lane_bakery.toml").run()
     frames = [d.value for d in _ok(app).dataframe]
     base = next(f for f in frames if "Cost function" in set(f["item"]))
-    assert list(base.columns) == ["item", "in use", "kettle_lane_bakery", "difference"]
+    assert list(base.columns) == ["item", "in use", "kettle_lane_bakery", "difference",
+                                  "change %"]
     row = base[base["item"] == "Cost function"].iloc[0]
     assert abs(row["in use"] / _pottery_cost(1.8) - 1) < 1e-9
     # the bakery's cost as its file writes it, y^1.25 (a w1^0.5 + (1 - a) w2^0.5)^2

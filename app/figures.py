@@ -41,6 +41,13 @@ _LAYOUT = dict(template="plotly_white", font=dict(family="Source Sans Pro, sans-
                margin=dict(l=60, r=20, t=50, b=50), legend=dict(orientation="h", y=-0.18))
 
 
+def axis(what: str, name: str, units: dict | None = None, scale: str = "") -> str:
+    """An axis title: ``price w_clay (£ per kg, log scale)``, the unit from the scenario
+    file's ``[units]`` table when it has one for ``name``."""
+    inside = [u for u in ((units or {}).get(name, ""), scale) if u]
+    return f"{what} {name}" + (f" ({', '.join(inside)})" if inside else "")
+
+
 def _finish(fig: go.Figure, title: str) -> go.Figure:
     fig.update_layout(title=dict(text=title, x=0.0, xanchor="left"), **_LAYOUT)
     if fig.layout.annotations:  # subplot titles: leave room under the figure's title
@@ -69,7 +76,7 @@ def _demand_values(d: Derived, point: dict) -> dict[str, float]:
 
 
 def level_curve(model: Model, dual: Derived, point: dict, pair: tuple[str, str] | None = None,
-                n: int = 200) -> go.Figure:
+                n: int = 200, units: dict | None = None) -> go.Figure:
     """Isoquant (technology) or indifference curve (preference) through the optimum.
 
     ``dual`` is the cost function (technology) or the expenditure function (preference);
@@ -91,11 +98,12 @@ def level_curve(model: Model, dual: Derived, point: dict, pair: tuple[str, str] 
     xi0, xj0 = xstar[pair[0]], xstar[pair[1]]
     xi = np.geomspace(xi0 / 6.0, xi0 * 6.0, n)
     xj = _solve_level(f, qs, xstar, i, j, xi, level, xj0)
-    return _level_figure(model, point, pair, xstar, xi, xj, level, recovered=False)
+    return _level_figure(model, point, pair, xstar, xi, xj, level, recovered=False,
+                         units=units)
 
 
 def recovered_level_curve(model: Model, recovered, dual: Derived, point: dict,
-                          n: int = 80) -> go.Figure:
+                          n: int = 80, units: dict | None = None) -> go.Figure:
     """The isoquant or indifference curve of the technology or preference recovered from
     a cost or expenditure function (``recovered``: :func:`duality.recover`), through the
     bundle the dual's demands give at ``point``, in the plane of the first two quantities
@@ -108,11 +116,12 @@ def recovered_level_curve(model: Model, recovered, dual: Derived, point: dict,
     other = {q: xstar[q] for q in qs[2:]} or None
     pts = np.asarray(recovered.isoquant(level, n=n, other=other), dtype=float)
     return _level_figure(model, point, tuple(qs[:2]), xstar, pts[:, 0], pts[:, 1], level,
-                         recovered=True)
+                         recovered=True, units=units)
 
 
 def _level_figure(model: Model, point: dict, pair: tuple, xstar: dict, xi: np.ndarray,
-                  xj: np.ndarray, level: float, recovered: bool) -> go.Figure:
+                  xj: np.ndarray, level: float, recovered: bool,
+                  units: dict | None = None) -> go.Figure:
     """The level curve (points ``xi``, ``xj``) with the isocost or budget line through
     the optimal bundle ``xstar`` and the bundle marked."""
     qs = [str(q) for q in model.quantities]
@@ -137,8 +146,8 @@ def _level_figure(model: Model, point: dict, pair: tuple, xstar: dict, xi: np.nd
                              line=dict(color=DUAL, width=2, dash="dash")))
     fig.add_trace(go.Scatter(x=[xi0], y=[xj0], mode="markers", name="optimal bundle",
                              marker=dict(color=ACCENT, size=12, symbol="diamond")))
-    fig.update_xaxes(title=f"quantity {pair[0]}", range=[0, 2.2 * xi0])
-    fig.update_yaxes(title=f"quantity {pair[1]}", range=[0, 2.2 * xj0])
+    fig.update_xaxes(title=axis("quantity", pair[0], units), range=[0, 2.2 * xi0])
+    fig.update_yaxes(title=axis("quantity", pair[1], units), range=[0, 2.2 * xj0])
     title = f"{what.capitalize()} and {line} at the chosen prices"
     if recovered:
         title = (f"Recovered {what} (from the {source} function) and {line} at the "
@@ -176,7 +185,8 @@ def _solve_level(f, qs, xstar, i, j, xi, level, xj0, iters: int = 80) -> np.ndar
     return np.where(valid, out, np.nan)
 
 
-def cost_curves(cost: Derived, point: dict, n: int = 120) -> go.Figure:
+def cost_curves(cost: Derived, point: dict, n: int = 120,
+                units: dict | None = None) -> go.Figure:
     """Total, average and marginal cost against output at the point's input prices.
 
     Marginal cost is the derivative of the closed form where there is one, otherwise a
@@ -208,7 +218,7 @@ def cost_curves(cost: Derived, point: dict, n: int = 120) -> go.Figure:
     fig.add_trace(go.Scatter(x=ys, y=steady(mc), name="marginal cost ∂c/∂y",
                              line=dict(color=ACCENT, width=2, dash="dot")), 1, 2)
     fig.add_vline(x=y0, line=dict(color=MUTED, dash="dash"))
-    fig.update_xaxes(title=f"output {y}")
+    fig.update_xaxes(title=axis("output", str(y), units))
     fig.update_yaxes(title="cost", row=1, col=1)
     fig.update_yaxes(title="cost per unit of output", row=1, col=2)
     return _finish(fig, "Cost against output at the chosen input prices")
@@ -224,7 +234,8 @@ def steady(values: np.ndarray, rel: float = 1e-9) -> np.ndarray:
     return v
 
 
-def demand_curves(dual: Derived, point: dict, n: int = 81) -> go.Figure:
+def demand_curves(dual: Derived, point: dict, n: int = 81,
+                  units: dict | None = None) -> go.Figure:
     """Each demand of ``dual`` against its own price, the other arguments fixed at
     ``point`` (one panel per quantity; the point itself is marked)."""
     dem = dual.demands
@@ -245,8 +256,9 @@ def demand_curves(dual: Derived, point: dict, n: int = 81) -> go.Figure:
                                  line=dict(color=SERIES[k % len(SERIES)], width=3)), r, c)
         fig.add_trace(go.Scatter(x=[base[p]], y=[x[mid]], mode="markers", showlegend=False,
                                  marker=dict(color=INK, size=9)), r, c)
-        fig.update_xaxes(title=f"price {p} (log scale)", type="log", row=r, col=c)
-        fig.update_yaxes(title=f"quantity {q}", row=r, col=c)
+        fig.update_xaxes(title=axis("price", p, units, "log scale"), type="log", row=r,
+                         col=c)
+        fig.update_yaxes(title=axis("quantity", q, units), row=r, col=c)
     kind = {"cost": "Conditional", "profit": "Unconditional", "expenditure": "Hicksian",
             "indirect_utility": "Marshallian"}.get(dual.kind, "")
     return _finish(fig, f"{kind} demands against their own prices")

@@ -496,12 +496,14 @@ def view_figures(model) -> None:
     else:
         dual, level_dual = duals.get("indirect_utility"), duals.get("expenditure")
     qs = [str(q) for q in model.quantities]
+    units = st.session_state.scenario.units
     if not model.is_primal and isinstance(level_dual, dy.Derived) and len(qs) >= 2:
         with st.spinner("Recovering the " + ("technology" if model.is_technology
                                              else "preference") + " behind the "
                         + level_dual.label + "…"):
             _figure(lambda: F.recovered_level_curve(
-                model, A.recovered(model, tuple(sorted(pt.items()))), level_dual, pt),
+                model, A.recovered(model, tuple(sorted(pt.items()))), level_dual, pt,
+                units=units),
                 "fig_level")
     elif isinstance(level_dual, dy.Derived) and len(qs) >= 2:
         pair = qs[:2]
@@ -509,12 +511,13 @@ def view_figures(model) -> None:
             c1, c2 = st.columns(2)
             pair = [c1.selectbox("horizontal axis", qs, index=0, key="fig_i"),
                     c2.selectbox("vertical axis", qs, index=1, key="fig_j")]
-        _figure(lambda: F.level_curve(model, level_dual, pt, tuple(pair)), "fig_level")
+        _figure(lambda: F.level_curve(model, level_dual, pt, tuple(pair), units=units),
+                "fig_level")
     if model.is_technology and isinstance(dual, dy.Derived):
-        _figure(lambda: F.cost_curves(dual, pt), "fig_cost")
+        _figure(lambda: F.cost_curves(dual, pt, units=units), "fig_cost")
     if isinstance(dual, dy.Derived):
         with st.spinner("Evaluating the demands along each price…"):
-            _figure(lambda: F.demand_curves(dual, pt), "fig_demand")
+            _figure(lambda: F.demand_curves(dual, pt, units=units), "fig_demand")
 
 
 def _figure(build, key: str) -> None:
@@ -571,6 +574,9 @@ def view_scenarios(model) -> None:
                                    "Welfare change per variant (CV, EV, ΔCS)", axis),
             "fig_welfare")
     flat = table.reset_index(names=["scenario variant", "measure"])
+    if ss.scenario.units:   # the measure's last word names a price, quantity or level
+        flat.insert(2, "unit", [ss.scenario.units.get(m.split()[-1], "")
+                                for m in flat["measure"]])
     st.dataframe(flat.style.format({c: "{:,.6g}" for c in ("baseline", "variant", "change")},
                                    na_rep="—"), hide_index=True)
 

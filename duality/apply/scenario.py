@@ -66,6 +66,10 @@ Top level
     ``file`` (path of a CSV file, relative to the scenario file) and ``[data.columns]``
     (model name -> column name in the file, for names whose column is named otherwise).
 
+``[units]`` (optional)
+    A unit for any price, quantity, output, income or utility name, as text
+    (``w_flour = "£ per kg"``, ``flour = "kg"``); the app shows it on axes and tables.
+
 Example
 -------
 .. code-block:: toml
@@ -139,7 +143,8 @@ ROLES = _model.ROLES
 SIDES = {"primal": None, **_model.SIDES}
 
 _NAME = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
-_TOP_KEYS = ("title", "description", "exports", "model", "baseline", "variants", "data")
+_TOP_KEYS = ("title", "description", "exports", "model", "baseline", "variants", "data",
+             "units")
 _MODEL_KEYS = ("role", "side", "formula", "form", "size", "quantities", "prices", "output",
                "output_price", "utility", "income", "parameters")
 _ROLE_ONLY = {"output": "technology", "output_price": "technology",
@@ -220,6 +225,7 @@ class Scenario:
     variants: dict[str, Variant] = field(default_factory=dict)
     data: DataSpec | None = None
     exports: tuple[str, ...] = ()
+    units: dict[str, str] = field(default_factory=dict)
     path: Path | None = field(default=None, compare=False)
 
     @property
@@ -431,9 +437,18 @@ class _Validator:
                           + ", ".join(EXPORT_NAMES))
             if t in exports[:i]:
                 self.fail(f"exports[{i}]", f"export target {t!r} is listed twice")
+        units = {}
+        if "units" in raw:
+            names = set(model.price_names) | set(model.quantities or ()) | \
+                set(model.level_names.values())
+            for k, val in self.table(raw["units"], "units").items():
+                if k not in names:
+                    self.fail(f"units.{k}", "not a price, quantity or level of the model; "
+                              "expected one of " + ", ".join(sorted(names)))
+                units[k] = self.text(val, f"units.{k}", empty=False).strip()
         return Scenario(title=title, description=description, model=model,
                         baseline=baseline, variants=variants, data=data,
-                        exports=tuple(exports), path=path)
+                        exports=tuple(exports), units=units, path=path)
 
     def model(self, t: Mapping) -> ModelSpec:
         self.keys(t, _MODEL_KEYS, "model")
@@ -659,6 +674,8 @@ def to_dict(s: Scenario) -> dict:
             d["prices"] = dict(v.prices)
             vs[name] = d
         out["variants"] = vs
+    if s.units:
+        out["units"] = dict(s.units)
     if s.data is not None:
         dd: dict[str, Any] = {"file": s.data.file}
         if s.data.columns:

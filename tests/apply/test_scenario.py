@@ -481,3 +481,14 @@ def test_exports_accept_exactly_the_registered_targets(tmp_path):
     with pytest.raises(DualityError, match=r"exports\[0\].*'fortran'.*expected one of "
                        + ", ".join(export.NAMES)):
         sc.load(write(tmp_path, text))
+
+
+def test_units_are_read_written_back_and_checked(tmp_path):
+    text = BASE + '\n[units]\np1 = "£ per kg"\nx1 = "kg"\n'
+    s = sc.loads(text)
+    assert s.units == {"p1": "£ per kg", "x1": "kg"}
+    assert sc.loads(sc.dumps(s)) == s
+    with pytest.raises(DualityError, match=r"key 'units\.zz': not a price, quantity or level"):
+        sc.loads(BASE + '\n[units]\nzz = "kg"\n')
+    with pytest.raises(DualityError, match=r"key 'units\.p1': expected non-empty text"):
+        sc.loads(BASE + '\n[units]\np1 = " "\n')

@@ -264,3 +264,15 @@ def test_a_recovered_level_curve_is_supported_by_the_isocost_line(name):
     least = float(dual(**A.point_for(dual, pt)))
     assert spend.min() >= least * (1 - 1e-6)
     assert spend.min() <= least * 1.01
+
+
+def test_units_from_the_scenario_file_title_the_axes(pottery):
+    s, m, duals, pt = pottery
+    units = s.units                      # the pottery file's [units] table
+    dem = F.demand_curves(duals["cost"], pt, units=units)
+    assert dem.layout.xaxis.title.text == "price w_clay (£ per kg, log scale)"
+    assert dem.layout.yaxis.title.text == "quantity clay (kg)"
+    cost = F.cost_curves(duals["cost"], pt, units=units)
+    assert cost.layout.xaxis.title.text == "output bowls (bowls)"
+    level = F.level_curve(m, duals["cost"], pt, units=units)
+    assert level.layout.xaxis.title.text == "quantity clay (kg)"

@@ -62,7 +62,7 @@ def _primal_fn(model: Model):
         article = "an" if side[0] in "aeiou" else "a"
         raise DualityError(f"the model was given as {article} {side} function, so there is "
                            "no production or utility function to draw its level curve from")
-    expr = model.expr.xreplace(model.values)
+    expr = model.numeric_expr
     if expr.free_symbols - set(model.quantities):
         missing = ", ".join(sorted(map(str, expr.free_symbols - set(model.quantities))))
         raise DualityError(f"parameter(s) {missing} need values to draw the level curve")
@@ -132,8 +132,7 @@ def _level_figure(model: Model, point: dict, pair: tuple, xstar: dict, xi: np.nd
     spend = wi * xi0 + wj * xj0
     line_x = np.linspace(0.0, spend / wi, 50)
     line_y = (spend - wi * line_x) / wj
-    what = "isoquant" if model.is_technology else "indifference curve"
-    line = "isocost line" if model.is_technology else "budget line"
+    what, line = model.role_info.level_curve, model.role_info.price_line
     source = "cost" if model.is_technology else "expenditure"
     name = f"{what} ({level:.4g})" + (f", recovered from the {source} function"
                                       if recovered else "")

@@ -134,6 +134,10 @@ def test_a_scenario_with_a_data_file_saves_into_the_save_folder_and_is_listed(ap
     app.button(key="save_go").click().run()
     assert any("saved" in _plain(s.value) for s in _ok(app).success)
     saved = dy.load_scenario(tmp_path / "my_week.toml")
+    # the data file is copied beside the saved file, so it reads from its own folder
+    assert saved.data_path().resolve() == (tmp_path / saved.data.file).resolve()
+    assert saved.data_path().read_bytes() == dy.load_scenario(
+        SCENARIOS / "saltmere_household.toml").data_path().read_bytes()
     assert len(saved.read_data()) == len(dy.load_scenario(
         SCENARIOS / "saltmere_household.toml").read_data())
     assert app.selectbox(key="pick").options[-1].endswith("(saved)")

@@ -9,15 +9,18 @@ functions, and tests call them directly.
 from __future__ import annotations
 
 import copy
+import json
 import math
 import os
 import re
+import secrets
 from dataclasses import dataclass
 from pathlib import Path
 
 import pandas as pd
 
 from duality.apply import scenario as sc
+from duality.apply.files import write_atomic
 from duality.errors import DualityError
 from duality.model.formula import parse
 
@@ -320,8 +323,14 @@ def plan_save(file_name: str, folder: Path, origin: Path | None) -> SavePlan:
     return SavePlan(path, False, False, f"saves a new file {name}")
 
 
-def save(raw: dict, plan: SavePlan, confirmed: bool = False) -> Path:
-    """Write the scenario as planned (atomic; previous version kept as ``.bak``)."""
+def save(raw: dict, plan: SavePlan, confirmed: bool = False,
+         origin: Path | None = None) -> Path:
+    """Write the scenario as planned (atomic; previous version kept as ``.bak``).
+
+    ``origin`` is the file the scenario came from: a data file it names is found from
+    there and copied beside the saved file under the same relative path (see
+    :func:`_data_beside`), so the saved scenario reads its data from its own folder.
+    """
     if plan.needs_confirmation and not confirmed:
         raise DualityError(plan.message)
     folder = plan.path.parent
@@ -330,7 +339,90 @@ def save(raw: dict, plan: SavePlan, confirmed: bool = False) -> Path:
         if p.is_symlink() or not _is_inside(p, folder):
             raise DualityError(f"not saved: {p.name} in the save folder is a link to a file "
                                "elsewhere; the app writes only inside its save folder")
-    scenario = build(raw, path=plan.path)
+    scenario = build(raw, path=origin if origin is not None else plan.path)
     if scenario.data is not None:
-        data_file(scenario)
+        _data_beside(scenario, data_file(scenario), plan.path)
     return sc.save(scenario, plan.path, backup=True)
+
+
+def _data_beside(scenario: sc.Scenario, source: Path, target: Path) -> None:
+    """Copy the data file ``source`` to the same relative path beside ``target``
+    (atomically), unless it is there already; a different file there is never replaced."""
+    _relative_inside(scenario.data.file, str(target))
+    dest = target.parent / scenario.data.file
+    if dest.exists() and dest.resolve() == source.resolve():
+        return
+    data = source.read_bytes()
+    if dest.exists():
+        if dest.is_symlink() or not _is_inside(dest, target.parent) \
+                or dest.read_bytes() != data:
+            raise DualityError(f"not saved: {dest} already exists and differs from the "
+                               f"scenario's data file {source.name}; save into another "
+                               "folder or remove it")
+        return
+    try:
+        dest.parent.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise DualityError(f"not saved: cannot make {dest.parent} for the data file "
+                           f"({exc.strerror or exc})") from None
+    if not _is_inside(dest, target.parent):
+        raise DualityError(f"not saved: {dest.parent} is a link out of the save folder")
+    write_atomic(dest, data, what="copy the data file")
+
+
+# -- drafts -------------------------------------------------------------------------------
+#: the folder, inside the save folder, that holds the drafts of unsaved edits
+DRAFTS = ".drafts"
+_DRAFT_ID = re.compile(r"[0-9a-f]{16}")
+
+
+def new_draft_id() -> str:
+    """A fresh name for a draft (random, so two browser tabs never share one)."""
+    return secrets.token_hex(8)
+
+
+def draft_path(folder: Path, draft_id: str) -> Path:
+    """Where the draft ``draft_id`` lives under the save ``folder``."""
+    if not _DRAFT_ID.fullmatch(draft_id or ""):
+        raise DualityError(f"draft {draft_id!r}: not a draft name (16 hexadecimal digits)")
+    return Path(folder) / DRAFTS / f"{draft_id}.json"
+
+
+def write_draft(folder: Path, draft_id: str, raw: dict, origin: Path | None,
+                label: str) -> Path:
+    """Keep the edited scenario ``raw`` (with where it came from) as a draft, atomically
+    (:func:`duality.apply.files.write_atomic`: a draft on disk is always a whole one)."""
+    path = draft_path(folder, draft_id)
+    text = json.dumps({"origin": None if origin is None else str(origin), "label": label,
+                       "scenario": raw}, indent=1)
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise DualityError(f"{path.parent}: cannot keep a draft there "
+                           f"({exc.strerror or exc})") from None
+    write_atomic(path, text, what="keep the draft")
+    return path
+
+
+def read_draft(folder: Path, draft_id: str) -> tuple[dict, Path | None, str]:
+    """The draft's scenario (validated), the file it came from and its label."""
+    path = draft_path(folder, draft_id)
+    try:
+        saved = json.loads(path.read_text(encoding="utf-8"))
+        raw, label = saved["scenario"], str(saved["label"])
+        origin = Path(saved["origin"]) if saved.get("origin") else None
+    except FileNotFoundError:
+        raise DualityError(f"{path}: the draft is gone (saved or discarded since)") \
+            from None
+    except (OSError, ValueError, KeyError, TypeError) as exc:
+        raise DualityError(f"{path}: not a readable draft ({exc})") from None
+    build(raw, origin)
+    return raw, origin, label
+
+
+def drop_draft(folder: Path, draft_id: str) -> None:
+    """Remove a draft (after its edits were saved or discarded); absent is fine."""
+    try:
+        draft_path(folder, draft_id).unlink()
+    except FileNotFoundError:
+        pass

@@ -42,6 +42,7 @@ from .apply.estimation import fit, log_linear_equation
 from .apply.evaluate import evaluate_file, functions_of
 from .apply.welfare import scenario_table
 from .solve.derive import DEFAULT_BUDGET, duals as derive_duals
+from .solve.display import decimals
 from .errors import DualityError, number_file_rows
 from .model.formula import number_problem
 from .solve.points import complete_point, default_point, value_at
@@ -243,7 +244,7 @@ def _report(model, budget, at, as_json: bool, with_checks: bool = True) -> None:
         if v is not None:
             click.echo(f"  value at the point: {v:.10g}")
         for name, x in d.demands.items():
-            body = "(numeric only)" if x.expr is None else str(x.expr)
+            body = "(numeric only)" if x.expr is None else str(decimals(x.expr))
             val = value_at(x, point)
             click.echo(f"  {x.label} {name} = {body}"
                        + (f"   [= {val:.10g}]" if val is not None else ""))

@@ -71,6 +71,10 @@ Top level
     scenario's folder or the app's save folder.  Rows of the data are numbered as a
     spreadsheet shows the file (the header is row 1).
 
+``[units]`` (optional)
+    A unit for any price, quantity, output, income or utility name, as text
+    (``w_flour = "£ per kg"``, ``flour = "kg"``); the app shows it on axes and tables.
+
 Example
 -------
 .. code-block:: toml
@@ -125,7 +129,7 @@ import numbers
 import os
 import re
 import tomllib
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any, Mapping
 
@@ -145,7 +149,8 @@ ROLES = _model.ROLES
 SIDES = {"primal": None, **_model.SIDES}
 
 _NAME = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
-_TOP_KEYS = ("title", "description", "exports", "model", "baseline", "variants", "data")
+_TOP_KEYS = ("title", "description", "exports", "model", "baseline", "variants", "data",
+             "units")
 _MODEL_KEYS = ("role", "side", "formula", "form", "size", "quantities", "prices", "output",
                "output_price", "utility", "income", "parameters")
 _ROLE_ONLY = {"output": "technology", "output_price": "technology",
@@ -226,6 +231,7 @@ class Scenario:
     variants: dict[str, Variant] = field(default_factory=dict)
     data: DataSpec | None = None
     exports: tuple[str, ...] = ()
+    units: dict[str, str] = field(default_factory=dict)
     path: Path | None = field(default=None, compare=False)
 
     @property
@@ -496,9 +502,18 @@ class _Validator:
                           + ", ".join(EXPORT_NAMES))
             if t in exports[:i]:
                 self.fail(f"exports[{i}]", f"export target {t!r} is listed twice")
+        units = {}
+        if "units" in raw:
+            names = set(model.price_names) | set(model.quantities or ()) | \
+                set(model.level_names.values())
+            for k, val in self.table(raw["units"], "units").items():
+                if k not in names:
+                    self.fail(f"units.{k}", "not a price, quantity or level of the model; "
+                              "expected one of " + ", ".join(sorted(names)))
+                units[k] = self.text(val, f"units.{k}", empty=False).strip()
         return Scenario(title=title, description=description, model=model,
                         baseline=baseline, variants=variants, data=data,
-                        exports=tuple(exports), path=path)
+                        exports=tuple(exports), units=units, path=path)
 
     def model(self, t: Mapping) -> ModelSpec:
         self.keys(t, _MODEL_KEYS, "model")
@@ -731,6 +746,8 @@ def to_dict(s: Scenario) -> dict:
             d["prices"] = dict(v.prices)
             vs[name] = d
         out["variants"] = vs
+    if s.units:
+        out["units"] = dict(s.units)
     if s.data is not None:
         dd: dict[str, Any] = {"file": s.data.file}
         if s.data.columns:
@@ -744,20 +761,45 @@ def dumps(s: Scenario) -> str:
     return tomli_w.dumps(to_dict(s), multiline_strings=False)
 
 
+def rebased(s: Scenario, target: str | os.PathLike) -> Scenario:
+    """``s`` with its data file named relative to ``target``'s folder.
+
+    The ``[data]`` file is relative to the scenario file, so a scenario written into
+    another folder must name it from there: the path becomes relative to the new folder
+    (absolute where no relative path exists, e.g. another drive).  Where the same
+    relative path already names a file from the new folder (the data was copied along),
+    it is kept.  A scenario without a path (typed or uploaded) or with an absolute data
+    path is returned unchanged.
+    """
+    if s.data is None or s.path is None or Path(s.data.file).is_absolute():
+        return s
+    source = Path(s.path).resolve().parent / s.data.file
+    folder = Path(target).resolve().parent
+    if folder == Path(s.path).resolve().parent or (folder / s.data.file).is_file():
+        return s
+    try:
+        file = Path(os.path.relpath(source, folder)).as_posix()
+    except ValueError:   # no relative path between drives
+        file = source.as_posix()
+    return replace(s, data=replace(s.data, file=file))
+
+
 def save(s: Scenario, path: str | os.PathLike | None = None, *, backup: bool = True) -> Path:
     """Write the scenario atomically and return the path written.
 
     The text goes to a temporary file in the same folder, is flushed to disk, then
     replaces the target in one step (:func:`duality.apply.files.write_atomic`).  The
     previous version is kept as ``<name>.bak`` (e.g. ``bakery.toml.bak``) when ``backup``
-    is true.  If anything fails part-way, the original file is untouched and the temporary
-    file is removed.
+    is true.  A data file keeps resolving when the scenario goes to another folder (see
+    :func:`rebased`).  If anything fails part-way, the original file is untouched and the
+    temporary file is removed.
     """
     target = Path(path) if path is not None else s.path
     if target is None:
         raise DualityError("save: no path given and the scenario has none")
+    s = rebased(s, target)
     return write_atomic(target, dumps(s), backup=backup, what="save")
 
 
 __all__ = ["Scenario", "ModelSpec", "Baseline", "Variant", "DataSpec", "load", "loads",
-           "dumps", "save", "from_dict", "to_dict"]
+           "rebased", "dumps", "save", "from_dict", "to_dict"]

@@ -49,9 +49,10 @@ def given(model: Model) -> Solution:
         supply = None
     src = dual_source(model)
     route = "catalogue" if src else "symbolic"
-    what = model.form.replace("_", " ") + " " if model.form else ""
-    method = (f"given as a {what}{model.side.replace('_', ' ')} function; demands by "
-              f"{LEMMA[model.side]}")
+    form = DUAL_FORMS.get(model.form)
+    what = form.title if form is not None else f"{model.side.replace('_', ' ')} function"
+    article = "an" if what[0].lower() in "aeiou" else "a"
+    method = f"given as {article} {what}; demands by {LEMMA[model.side]}"
     return Solution(value=e, demands=demands, route=route, method=method, source=src,
                     supply=supply)
 

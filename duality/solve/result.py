@@ -21,6 +21,7 @@ from ..errors import DomainError, DualityError
 from ..model.lambdas import numpy_function
 from ..model.roles import DUAL_KINDS, FUNCTIONS
 from .forms.base import Match
+from .display import text_equation
 
 ROUTES = ("catalogue", "symbolic", "numeric")
 
@@ -187,10 +188,10 @@ class Derived:
     def summary(self) -> str:
         """A few lines of text: the function, its route, source, conditions and notes."""
         head = self.name if self.kind in _DEMAND_KINDS else KINDS[self.kind][1].lstrip("\\")
-        lines = [f"{self.label}: {head}"
-                 f"({', '.join(map(str, self.args))}) = "
-                 f"{'(numeric only)' if self.expr is None else self.expr}",
-                 f"  route: {self.route} ({self.method})"]
+        call = f"{head}({', '.join(map(str, self.args))})"
+        formula = (f"{call} = (numeric only)" if self.expr is None else
+                   text_equation(call, self.expr, indent=" " * (len(self.label) + 6)))
+        lines = [f"{self.label}: {formula}", f"  route: {self.route} ({self.method})"]
         if self.source:
             lines.append(f"  source: {self.source}")
         for c in self.conditions:

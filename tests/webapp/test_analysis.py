@@ -166,8 +166,10 @@ def test_welfare_bars_keep_only_the_measures_of_the_role():
                                      ("b", "total cost")], names=["variant", "measure"])
     table = pd.DataFrame({"change": [1.0, -2.0, 3.0, np.nan]}, index=idx)
     bars = an.welfare_bars_data(table, "technology")
-    assert bars.to_dict("records") == [{"variant": "a", "measure": "total cost", "change": 1.0},
-                                       {"variant": "a", "measure": "profit", "change": -2.0}]
+    # each bar says what it measures (profit: at the output chosen at the variant's prices)
+    assert bars.to_dict("records") == [
+        {"variant": "a", "measure": an.BAR_LABELS["total cost"], "change": 1.0},
+        {"variant": "a", "measure": an.BAR_LABELS["profit"], "change": -2.0}]
 
 
 def test_exports_cover_every_target():

@@ -19,8 +19,8 @@ from typing import Mapping
 import numpy as np
 import sympy as sp
 
-from ..errors import DualityError
-from ..solve.result import Derived
+from ...errors import DualityError
+from ...solve.result import Derived
 
 
 @dataclass(frozen=True)

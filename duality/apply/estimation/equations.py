@@ -313,7 +313,7 @@ def _derive(model: Model, *, equations, shares, fixed, drop, index, impose_theor
         if equations == "auto":
             if log_linear or not have_quantities:
                 equations = "cost+shares" if shares else "cost"
-                if not have_value:
+                if not have_value and shares:
                     equations = "shares"
             else:
                 equations = "input-output"

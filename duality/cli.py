@@ -9,7 +9,8 @@ of a built-in default technology.  Commands:
 * ``duality run``       — a scenario file: every variant against its baseline, welfare
 * ``duality evaluate``  — the duals and demands on a CSV or Parquet file, chunk by chunk
 * ``duality export``    — code, LaTeX, JSON or an estimation bundle of every function
-* ``duality estimate``  — fit the log-linear equation of a dual by least squares
+* ``duality estimate``  — estimate a model from its derived equations (cost, shares, demand
+  systems), theory imposed
 * ``duality scenarios`` — list the scenario files of a folder
 * ``duality app``       — open the browser app on a scenario (127.0.0.1)
 
@@ -30,10 +31,11 @@ import pandas as pd
 from . import (check as run_checks, conjugate as conj, cost, elasticities, expenditure,
                preference, technology)
 from .apply import export as _exp, scenario as _scn
-from .apply.estimation import fit, log_linear_equation
+from .apply.estimation import EQUATIONS, METHODS, estimate, fit, log_linear_equation
 from .apply.evaluate import evaluate_file, functions_of
 from .apply.welfare import scenario_table
 from .solve.derive import DEFAULT_BUDGET, duals as derive_duals
+from .solve.dual_forms import aids_expenditure, generalized_leontief_cost, translog_cost
 from .errors import DualityError
 from .solve.result import KINDS, Derived
 
@@ -323,6 +325,14 @@ def run_cmd(scenario_file, as_json):
     _guard(run)
 
 
+def _json_value(x):
+    """numpy numbers as floats, anything else as text (for json.dumps)."""
+    try:
+        return float(x)
+    except (TypeError, ValueError):
+        return str(x)
+
+
 def _plain(x):
     try:
         return float(x)
@@ -400,30 +410,76 @@ def export_cmd(formula, role, quantities, prices, params, at, budget, as_json,
     _guard(run)
 
 
+def _pairs(items, option: str, example: str) -> dict[str, str]:
+    """NAME=VALUE items, each possibly a comma-separated list, as a dict."""
+    out = {}
+    for item in items:
+        for part in (p for p in item.split(",") if p.strip()):
+            if "=" not in part:
+                raise _Fail(f"{option} {part!r}: expected NAME=VALUE, e.g. {example}")
+            k, v = part.split("=", 1)
+            out[k.strip()] = v.strip()
+    return out
+
+
+_FORM_BUILDERS = {"translog_cost": translog_cost,
+                  "generalized_leontief_cost": generalized_leontief_cost,
+                  "aids_expenditure": aids_expenditure}
+
+
 @main.command(name="estimate")
 @_with_model_options
 @_scenario_option
+@click.option("--form", type=click.Choice(sorted(_FORM_BUILDERS)), default=None,
+              help="A flexible form from the catalogue instead of --formula (prices from "
+                   "--prices, quantities from --quantities).")
 @click.option("--data", "data_path", required=True, type=click.Path(dir_okay=False),
-              help="CSV file with the observed cost (or spending) and its arguments.")
-@click.option("--normalise", default=None,
-              help="Impose homogeneity in prices by dividing by this price.")
+              help="CSV file with the observed cost (or spending), prices and shares.")
 @click.option("--column", "column_map", multiple=True, metavar="NAME=COLUMN",
-              help="Data column for a name (repeatable), e.g. c=cost or y=output.")
+              help="Data column for a model name (repeatable or comma-separated), "
+                   "e.g. c=cost,y=output.")
+@click.option("--shares", "share_map", multiple=True, metavar="Q=COLUMN",
+              help="Observed share column of each quantity, e.g. L=sl,K=sk,F=sf.")
+@click.option("--fix", "fix_map", multiple=True, metavar="NAME=VALUE",
+              help="Hold a parameter at a value (repeatable or comma-separated), e.g. a0=0.")
+@click.option("--equations", type=click.Choice(list(EQUATIONS)), default="auto",
+              show_default=True, help="Which derived equations to estimate.")
+@click.option("--method", type=click.Choice(list(METHODS)), default="iterated",
+              show_default=True, help="Estimator for a system of equations.")
+@click.option("--index", type=click.Choice(["exact", "stone"]), default="exact",
+              show_default=True, help="Price index of an Almost Ideal system.")
+@click.option("--drop", default=None, help="Quantity whose share equation is dropped.")
+@click.option("--share-tol", type=float, default=1e-3, show_default=True,
+              help="How far observed shares may sum from one.")
+@click.option("--elasticities", "with_elasticities", is_flag=True,
+              help="Also print elasticities at the sample mean with standard errors.")
+@click.option("--normalise", default=None,
+              help="Single log-linear equation of a technology's cost function, with "
+                   "homogeneity imposed by dividing by this price.")
 @click.option("--rows", default=None, help="Row range to use, e.g. 1-145 (1-based).")
 def estimate_cmd(formula, role, quantities, prices, params, at, budget, as_json,
-                 scenario_path, data_path, normalise, column_map, rows):
-    """Fit the log-linear equation of the cost function by least squares."""
+                 scenario_path, form, data_path, column_map, share_map, fix_map, equations,
+                 method, index, drop, share_tol, with_elasticities, normalise, rows):
+    """Estimate a model from the equations derived from it (theory imposed)."""
     def run():
-        model, _ = _scenario_model(scenario_path, formula, role, quantities, params, prices)
-        d = cost(model, budget=budget) if model.is_technology else \
-            expenditure(model, budget=budget)
-        eq = log_linear_equation(d, normalise=normalise)
-        columns = {}
-        for item in column_map:
-            if "=" not in item:
-                raise _Fail(f"--column {item!r}: expected NAME=COLUMN, e.g. c=cost")
-            k, v = item.split("=", 1)
-            columns[k.strip()] = v.strip()
+        columns = _pairs(column_map, "--column", "c=cost")
+        shares = _pairs(share_map, "--shares", "L=sl")
+        fixed = {}
+        for k, v in _pairs(fix_map, "--fix", "a0=0").items():
+            try:
+                fixed[k] = float(v)
+            except ValueError:
+                raise _Fail(f"--fix {k}={v}: {v!r} is not a number") from None
+        if form is not None:
+            names = [p for p in (prices or "").split(",") if p.strip()]
+            if len(names) < 2:
+                raise _Fail("--form needs --prices with at least two names, e.g. pl,pk,pf")
+            qs = [q for q in quantities.split(",") if q.strip()]
+            kw = {"goods" if form == "aids_expenditure" else "quantities":
+                  qs if len(qs) == len(names) else None}
+            model = _FORM_BUILDERS[form](names, **kw)
+        else:
+            model, _ = _scenario_model(scenario_path, formula, role, quantities, params, prices)
         if not Path(data_path).exists():
             raise _Fail(f"--data {data_path}: no such file")
         table = pd.read_csv(data_path)
@@ -433,18 +489,50 @@ def estimate_cmd(formula, role, quantities, prices, params, at, budget, as_json,
             except ValueError:
                 raise _Fail(f"--rows {rows!r}: expected a range such as 1-145") from None
             table = table.iloc[lo - 1:hi]
-        res = fit(eq, table, columns=columns)
+        if normalise is not None:
+            _estimate_log_linear(model, budget, normalise, table, columns, as_json)
+            return
+        res = estimate(model, table, columns=columns, shares=shares, fixed=fixed,
+                       equations=equations, method=method, index=index, drop=drop,
+                       share_tol=share_tol, budget=budget)
+        el = res.elasticities() if with_elasticities else None
         if as_json:
-            click.echo(json.dumps({"equation": str(eq.dependent), "regressors":
-                                   {k: str(v) for k, v in eq.regressors.items()},
-                                   "coefficients": res.coefficients,
-                                   "std_errors": res.std_errors,
-                                   "residual_std_error": res.residual_std_error,
-                                   "dof": res.dof, "n": res.n}, indent=2))
-        else:
-            click.echo(eq.as_text())
-            click.echo(res.as_text())
+            out = res.to_dict()
+            out["model"] = model.describe()
+            out["caution"] = CAUTION
+            if el is not None:
+                out["elasticities"] = el.to_dict(orient="records")
+            click.echo(json.dumps(out, indent=2, default=_json_value))
+            return
+        click.echo(res.system.as_text())
+        click.echo("")
+        click.echo(res.as_text())
+        if el is not None:
+            click.echo("")
+            click.echo("elasticities at the sample mean (delta-method standard errors):")
+            click.echo(el.to_string(index=False, float_format=lambda v: f"{v:.5g}"))
+        click.echo("")
+        click.echo(f"Caution: {CAUTION}")
     _guard(run)
+
+
+def _estimate_log_linear(model, budget, normalise, table, columns, as_json) -> None:
+    d = cost(model, budget=budget) if model.is_technology else \
+        expenditure(model, budget=budget)
+    eq = log_linear_equation(d, normalise=normalise)
+    res = fit(eq, table, columns=columns)
+    if as_json:
+        click.echo(json.dumps({"equation": str(eq.dependent), "regressors":
+                               {k: str(v) for k, v in eq.regressors.items()},
+                               "coefficients": res.coefficients,
+                               "std_errors": res.std_errors,
+                               "residual_std_error": res.residual_std_error,
+                               "r_squared": res.r_squared,
+                               "returns_to_scale": res.returns_to_scale,
+                               "dof": res.dof, "n": res.n}, indent=2))
+    else:
+        click.echo(eq.as_text())
+        click.echo(res.as_text())
 
 
 @main.command(name="scenarios")

@@ -360,3 +360,46 @@ def test_bad_input_gets_one_line_messages(nerlove, electricity):
     with pytest.raises(dy.DualityError, match="method 'gmm' is not one of"):
         dy.estimate(_translog(), electricity, columns={"c": "cost"}, shares=SHARES,
                     method="gmm")
+
+
+# -- data at scale -----------------------------------------------------------------------------
+@pytest.mark.parametrize("method", ["iterated", "sur", "ols"])
+def test_cross_products_by_chunks_equal_linearmodels(electricity, method):
+    kw = dict(columns={"c": "cost"}, shares=SHARES, method=method, check_curvature=False)
+    lib = dy.estimate(_translog(), electricity, engine="library", **kw)
+    chunked = dy.estimate(_translog(), electricity, engine="crossproducts", chunksize=17, **kw)
+    assert "linearmodels" in lib.estimator and "cross-products" in chunked.estimator
+    np.testing.assert_allclose(chunked.theta, lib.theta, rtol=1e-6, atol=1e-8)
+    if method != "sur":  # two-step: the libraries differ in which Σ the covariance uses
+        np.testing.assert_allclose(chunked.cov, lib.cov, rtol=1e-4, atol=1e-12)
+    for a, b in zip(chunked.equation_fits, lib.equation_fits):
+        assert a.r_squared == pytest.approx(b.r_squared, rel=1e-6)
+    assert chunked.loglik == pytest.approx(lib.loglik, rel=1e-8)
+
+
+def test_files_and_dask_are_read_in_chunks(electricity, tmp_path):
+    kw = dict(columns={"c": "cost"}, shares=SHARES, check_curvature=False)
+    ref = dy.estimate(_translog(), electricity, engine="crossproducts", **kw)
+    csv = tmp_path / "electricity.csv"
+    electricity.to_csv(csv, index=False)
+    before = csv.read_bytes()
+    from_csv = dy.estimate(_translog(), str(csv), chunksize=20, **kw)
+    np.testing.assert_allclose(from_csv.theta, ref.theta, rtol=1e-9)
+    assert csv.read_bytes() == before
+    np.testing.assert_allclose(from_csv.elasticities()["estimate"],
+                               ref.elasticities()["estimate"], rtol=1e-9)
+    with pytest.raises(dy.DualityError, match="rows were not kept"):
+        from_csv.elasticities(at="all")
+    pytest.importorskip("pyarrow")
+    pq = tmp_path / "electricity.parquet"
+    electricity.to_parquet(pq, index=False)
+    from_pq = dy.estimate(_translog(), pq, chunksize=50, **kw)
+    np.testing.assert_allclose(from_pq.theta, ref.theta, rtol=1e-9)
+    dd = pytest.importorskip("dask.dataframe")
+    from_dask = dy.estimate(_translog(), dd.from_pandas(electricity, npartitions=4), **kw)
+    np.testing.assert_allclose(from_dask.theta, ref.theta, rtol=1e-9)
+    bad = electricity.copy()
+    bad.loc[bad.index[60], "pk"] = -1.0
+    bad.to_csv(csv, index=False)
+    with pytest.raises(dy.DualityError, match="electricity.csv: column 'pk' .* row 61"):
+        dy.estimate(_translog(), csv, chunksize=20, **kw)

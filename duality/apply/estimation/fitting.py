@@ -7,10 +7,12 @@ a linear system (cross-equation equality constraints; two-step or iterated FGLS)
 """
 from __future__ import annotations
 
+import os
+from pathlib import Path
 from typing import Mapping
 
 import numpy as np
-import sympy as sp
+import pandas as pd
 
 from ...analyse.regularity import regularity
 from ...errors import DualityError
@@ -18,9 +20,16 @@ from ...model.base import Model
 from ...solve.derive import DEFAULT_BUDGET
 from .data import SHARE_TOL, as_frame, resolve
 from .equations import derive_system
-from .linear import fit_linear
+from ..evaluate import _chunks, _count_rows, _file_kind, _progress
+from .crossprod import CHUNK, CrossProducts, accumulate, compile_system, solve
+from .linear import METHODS, RawFit, fit_linear
 from .nonlinear import fit_nonlinear
 from .result import EquationFit, Estimation
+
+
+#: the engines for a linear system, and the row count up to which "auto" takes the library
+ENGINES = ("auto", "library", "crossproducts")
+LIBRARY_ROWS = 100_000
 
 
 def estimate(model: Model, data, *, columns: Mapping[str, str] | None = None,
@@ -29,7 +38,8 @@ def estimate(model: Model, data, *, columns: Mapping[str, str] | None = None,
              drop: str | None = None, index: str = "exact", impose: bool = True,
              start: Mapping[str, float] | None = None, cov_type: str = "nonrobust",
              share_tol: float | None = SHARE_TOL, max_iter: int = 200, tol: float = 1e-8,
-             check_curvature: bool = True,
+             check_curvature: bool = True, engine: str = "auto", chunksize: int = CHUNK,
+             progress: bool = False,
              budget: float | None = DEFAULT_BUDGET) -> Estimation:
     """Estimate a model's parameters from the equations derived from it.
 
@@ -39,7 +49,9 @@ def estimate(model: Model, data, *, columns: Mapping[str, str] | None = None,
         A cost function (typed or from the catalogue: translog, generalized Leontief,
         Cobb–Douglas...), a technology whose cost function has a closed form, or an Almost
         Ideal model (``aids_expenditure``).  Parameter values on the model are start values.
-    data : DataFrame or mapping of arrays
+    data : DataFrame, mapping of arrays, dask DataFrame, or path of a CSV or Parquet file
+        A file or a dask DataFrame is read chunk by chunk (partition by partition) and a
+        linear system estimated from cross-products, so it may be larger than memory.
     columns : mapping, optional
         Model name -> data column (prices, ``y`` or ``m``, observed cost ``c``, quantities).
     shares : mapping, optional
@@ -69,6 +81,12 @@ def estimate(model: Model, data, *, columns: Mapping[str, str] | None = None,
         Tolerance of the check that observed shares sum to one (``None`` skips it).
     check_curvature : bool
         Count rows where the fitted model violates curvature (needs every parameter).
+    engine : {"auto", "library", "crossproducts"}
+        For a linear system in memory: linearmodels / statsmodels (``"library"``), or
+        cross-products accumulated by chunks of ``chunksize`` rows (``"crossproducts"``);
+        ``"auto"`` takes the library up to :data:`LIBRARY_ROWS` rows.
+    progress : bool
+        A progress bar while a file is read.
 
     Returns
     -------
@@ -79,45 +97,52 @@ def estimate(model: Model, data, *, columns: Mapping[str, str] | None = None,
     Results hold only for the assumed functional form: a good fit does not make the form
     true, and elasticities away from the sample mean rest on it entirely.
     """
-    frame = as_frame(data)
+    if engine not in ENGINES:
+        raise DualityError(f"engine {engine!r} is not one of {', '.join(ENGINES)}")
     columns = dict(columns or {})
     shares = dict(shares or {})
+    source = _Source(data)
+    names = source.column_names()
     system = derive_system(
         model, equations=equations, shares=list(shares), fixed=fixed, drop=drop,
         index=index, impose_theory=impose,
-        have_value=_has(frame, columns, "c"),
-        have_quantities=all(_has(frame, columns, str(q)) for q in model.quantities),
+        have_value=columns.get("c", "c") in names,
+        have_quantities=all(columns.get(str(q), str(q)) in names for q in model.quantities),
         budget=budget)
-    arrays = resolve(system, frame, columns=columns, shares=shares, share_tol=share_tol)
-    n = len(frame)
     free = list(system.free)
-    if n <= len(free):
-        raise DualityError(f"{n} rows cannot estimate {len(free)} parameters")
-    if system.linear:
-        raw = fit_linear(system, arrays, n, method=method, cov_type=cov_type,
-                         max_iter=max_iter, tol=tol)
+    if source.frame is None:
+        if not system.linear:
+            raise DualityError("equations nonlinear in the parameters need the data in "
+                               "memory (a DataFrame), not read in chunks")
+        cp, means = source.cross_products(system, columns, shares, share_tol, chunksize,
+                                          progress)
+        n = cp.n
+        raw = _from_cross_products(cp, system, method, max_iter, tol)
+        arrays, rows_kept = {s: np.array([v]) for s, v in means.items()}, False
     else:
-        given = dict(start or {})
-        unknown = sorted(set(given) - {p.name for p in model.params})
-        if unknown:
-            raise DualityError(f"start value for {unknown[0]}, which is not a parameter")
-        vals = {p.name: p.value for p in model.params}
-        theta0 = np.array([float(given.get(p.name, vals.get(p.name) if vals.get(p.name)
-                                           is not None else 0.5)) for p in free])
-        raw = fit_nonlinear(system, arrays, n, theta0, method=method, max_iter=max_iter,
-                            tol=tol)
+        frame = source.frame
+        arrays = resolve(system, frame, columns=columns, shares=shares, share_tol=share_tol)
+        n, rows_kept = len(frame), True
+        if n <= len(free):
+            raise DualityError(f"{n} rows cannot estimate {len(free)} parameters")
+        if system.linear and (engine == "crossproducts"
+                              or (engine == "auto" and n > LIBRARY_ROWS)):
+            cp = accumulate(compile_system(system), arrays, n, chunk=chunksize)
+            raw = _from_cross_products(cp, system, method, max_iter, tol)
+        elif system.linear:
+            raw = fit_linear(system, arrays, n, method=method, cov_type=cov_type,
+                             max_iter=max_iter, tol=tol)
+        else:
+            raw = fit_nonlinear(system, arrays, n, _start(model, free, start), method=method,
+                                max_iter=max_iter, tol=tol)
     fits = []
     for g, eq in enumerate(system.equations):
-        r = raw.resid[:, g]
-        y = raw.lhs[:, g]
-        ssr = float(r @ r)
-        sst = float(((y - y.mean()) ** 2).sum())
+        ssr, sst = float(raw.EE[g, g]), float(raw.sst[g])
         dof = n - raw.k[g]
         fits.append(EquationFit(eq.name, 1 - ssr / sst if sst > 0 else float("nan"),
                                 float(np.sqrt(ssr / dof)) if dof > 0 else float("nan"), n, dof))
-    G = raw.resid.shape[1]
-    S = raw.resid.T @ raw.resid / n
-    sign, logdet = np.linalg.slogdet(S)
+    G = raw.EE.shape[0]
+    sign, logdet = np.linalg.slogdet(raw.EE / n)
     loglik = float(-n / 2 * (G * (1 + np.log(2 * np.pi)) + logdet)) if sign > 0 else float("nan")
     values = dict(zip((p.name for p in free), raw.theta.tolist()))
     sub = dict(zip(free, raw.theta))
@@ -127,14 +152,98 @@ def estimate(model: Model, data, *, columns: Mapping[str, str] | None = None,
     result = Estimation(system=system, names=tuple(p.name for p in free), theta=raw.theta,
                         cov=raw.cov, equation_fits=tuple(fits), loglik=loglik,
                         estimator=raw.estimator, iterations=raw.iterations, model=fitted, n=n,
-                        data=arrays)
-    if check_curvature:
-        result.curvature.update(_curvature(result, frame, columns, shares, budget))
+                        data=arrays, rows_kept=rows_kept)
+    if check_curvature and rows_kept:
+        result.curvature.update(_curvature(result, source.frame, columns, shares, budget))
+    elif check_curvature:
+        result.curvature["checked"] = "no: the data were read in chunks"
     return result
 
 
-def _has(frame, columns, name) -> bool:
-    return columns.get(name, name) in frame.columns
+def _start(model, free, start) -> np.ndarray:
+    given = dict(start or {})
+    unknown = sorted(set(given) - {p.name for p in model.params})
+    if unknown:
+        raise DualityError(f"start value for {unknown[0]}, which is not a parameter")
+    vals = {p.name: p.value for p in model.params}
+    return np.array([float(given[p.name]) if p.name in given else
+                     (vals[p.name] if vals.get(p.name) is not None else 0.5) for p in free])
+
+
+def _from_cross_products(cp, system, method, max_iter, tol) -> RawFit:
+    if method not in METHODS:
+        raise DualityError(f"method {method!r} is not one of {', '.join(METHODS)}")
+    theta, cov, EE, sst, ks, its = solve(cp, system, method=method, max_iter=max_iter, tol=tol)
+    G = EE.shape[0]
+    est = ("ordinary least squares" if G == 1 else
+           {"ols": "constrained least squares", "sur": "two-step SUR",
+            "iterated": "iterated SUR"}[method])
+    return RawFit(theta, cov, EE, sst, ks, its, True, f"{est} (cross-products by chunks)")
+
+
+class _Source:
+    """The data: a table in memory, a CSV or Parquet file, or a dask DataFrame."""
+
+    def __init__(self, data):
+        self.path = self.dask = self.frame = None
+        if isinstance(data, (str, os.PathLike)):
+            self.path = Path(data)
+            if not self.path.exists():
+                raise DualityError(f"{self.path}: no such file")
+            self.kind = _file_kind(self.path)
+        elif hasattr(data, "to_delayed") and hasattr(data, "npartitions"):
+            self.dask = data
+        else:
+            self.frame = as_frame(data)
+
+    def column_names(self) -> list:
+        if self.frame is not None:
+            return list(self.frame.columns)
+        if self.dask is not None:
+            return list(self.dask.columns)
+        if self.kind == "parquet":
+            import pyarrow.parquet as pq  # deferred: optional dependency (the 'scale' extra)
+            return list(pq.ParquetFile(self.path).schema_arrow.names)
+        return list(pd.read_csv(self.path, nrows=0).columns)
+
+    def cross_products(self, system, columns, shares, share_tol, chunksize, progress):
+        comp = compile_system(system)
+        G, k = len(comp.parts), comp.k
+
+        def one(df):
+            arrays = resolve(system, df, columns=columns, shares=shares, share_tol=share_tol)
+            cp = accumulate(comp, arrays, len(df), chunk=chunksize)
+            return cp, {s: float(a.sum()) for s, a in arrays.items()}
+
+        def add(a, b):
+            return a[0] + b[0], {s: a[1][s] + b[1][s] for s in a[1]}
+        total = (CrossProducts(np.zeros((G, G, k + 1, k + 1)), np.zeros(G), 0),
+                 {s: 0.0 for s in system.data.values()})
+        if self.dask is not None:
+            import dask  # deferred: optional dependency (the 'scale' extra)
+            parts = [dask.delayed(one)(p) for p in self.dask.to_delayed()]
+            while len(parts) > 1:  # a tree of sums, each summed by dask
+                parts = [dask.delayed(add)(parts[i], parts[i + 1]) if i + 1 < len(parts)
+                         else parts[i] for i in range(0, len(parts), 2)]
+            total = dask.compute(parts[0])[0] if parts else total
+        else:
+            bar = _progress(_count_rows(self.path, self.kind), progress,
+                            f"estimating from {self.path.name}")
+            try:
+                for start, df in _chunks(self.path, self.kind, chunksize):
+                    try:
+                        total = add(total, one(df))
+                    except DualityError as exc:
+                        raise DualityError(f"{self.path.name}: {exc}") from None
+                    bar.update(len(df))
+            finally:
+                bar.close()
+        cp, sums = total
+        if cp.n == 0:
+            raise DualityError("the data have no rows")
+        if cp.n <= len(system.free):
+            raise DualityError(f"{cp.n} rows cannot estimate {len(system.free)} parameters")
+        return cp, {s: v / cp.n for s, v in sums.items()}
 
 
 def _curvature(result: Estimation, frame, columns, shares, budget) -> dict:

@@ -31,8 +31,8 @@ class RawFit:
 
     theta: np.ndarray
     cov: np.ndarray
-    resid: np.ndarray          # n × G
-    lhs: np.ndarray            # n × G, the dependent variable after known terms moved left
+    EE: np.ndarray             # G × G residual cross-products
+    sst: np.ndarray            # G: total sum of squares of each left-hand side
     k: list                    # parameters per equation
     iterations: int
     converged: bool
@@ -102,8 +102,9 @@ def _ols(system, d: Design, cov_type: str) -> RawFit:
     theta[d.cols[0]] = res.params
     cov = np.zeros((len(theta), len(theta)))
     cov[np.ix_(d.cols[0], d.cols[0])] = res.cov_params()
-    return RawFit(theta, cov, res.resid[:, None], y[:, None], [X.shape[1]], 1, True,
-                  "ordinary least squares (statsmodels OLS)")
+    e = np.asarray(res.resid)
+    return RawFit(theta, cov, np.array([[e @ e]]), np.array([((y - y.mean()) ** 2).sum()]),
+                  [X.shape[1]], 1, True, "ordinary least squares (statsmodels OLS)")
 
 
 def _sur(system, d: Design, n: int, method: str, cov_type: str, max_iter: int,
@@ -151,8 +152,9 @@ def _sur(system, d: Design, n: int, method: str, cov_type: str, max_iter: int,
     resid = np.column_stack([np.asarray(res.resids.iloc[:, g]) for g in range(len(d.y))])
     est = {"ols": "constrained least squares", "sur": "two-step SUR",
            "iterated": "iterated SUR"}[method]
-    return RawFit(theta, cov, resid, np.column_stack(d.y), [X.shape[1] for X in d.X],
-                  iterations, True, f"{est} (linearmodels SUR)")
+    Y = np.column_stack(d.y)
+    return RawFit(theta, cov, resid.T @ resid, ((Y - Y.mean(axis=0)) ** 2).sum(axis=0),
+                  [X.shape[1] for X in d.X], iterations, True, f"{est} (linearmodels SUR)")
 
 
 __all__ = ["METHODS", "RawFit", "design", "fit_linear"]

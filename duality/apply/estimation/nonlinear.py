@@ -106,7 +106,8 @@ def fit_nonlinear(system: EquationSystem, arrays, n: int, start: np.ndarray, *,
     est = ("nonlinear least squares" if G == 1 or method == "ols" else
            {"sur": "two-step nonlinear SUR", "iterated": "iterated nonlinear SUR"}[method])
     ks = [sum(1 for p in system.free if p in e.rhs.free_symbols) for e in system.equations]
-    return RawFit(theta, cov, R, Y, ks, iterations, True, f"{est} (scipy least_squares)")
+    return RawFit(theta, cov, R.T @ R, ((Y - Y.mean(axis=0)) ** 2).sum(axis=0), ks,
+                  iterations, True, f"{est} (scipy least_squares)")
 
 
 __all__ = ["fit_nonlinear"]

@@ -104,6 +104,7 @@ class Estimation:
     data: dict = field(repr=False, default_factory=dict)
     curvature: dict = field(default_factory=dict)
     level: float = 0.95
+    rows_kept: bool = True
 
     # -- parameters -----------------------------------------------------------------------
     @cached_property
@@ -252,6 +253,10 @@ class Estimation:
         fn, data_syms = self._elasticity_fn
         names = list(exprs)
         k = len(self._free_syms)
+        if not (isinstance(at, str) and at == "mean") and not isinstance(at, dict) \
+                and not self.rows_kept:
+            raise DualityError("the rows were not kept (the data were read in chunks); "
+                               "elasticities are available at the mean or at a given point")
         if isinstance(at, str) and at == "mean":
             point = {s: np.array([float(np.mean(self.data[s]))]) for s in data_syms}
             label = None

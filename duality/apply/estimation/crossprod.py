@@ -21,10 +21,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import sympy as sp
 
 from ...errors import DualityError
 from .equations import EquationSystem, linear_parts
-from .data import evaluate
 
 #: rows per chunk when a table in memory is reduced to cross-products
 CHUNK = 100_000
@@ -45,19 +45,25 @@ class CrossProducts:
 
 @dataclass
 class Compiled:
-    """Each equation's offset and regressors as numpy functions of the data symbols."""
+    """Each equation's regressors and left-hand side (known terms moved left) as one
+    compiled numpy function of the data symbols."""
 
     parts: list          # per equation: (dependent, offset, [(column index, regressor)])
     k: int
+    fns: list            # per equation: (function, its data symbols, column indices)
 
 
 def compile_system(system: EquationSystem) -> Compiled:
     free = list(system.free)
-    parts = []
+    parts, fns = [], []
     for eq in system.equations:
         offset, regs = linear_parts(eq, free)
-        parts.append((eq.dependent, offset, [(free.index(p), r) for p, r in regs.items()]))
-    return Compiled(parts, len(free))
+        cols = [free.index(p) for p in regs]
+        parts.append((eq.dependent, offset, list(zip(cols, regs.values()))))
+        outs = list(regs.values()) + [eq.dependent - offset]
+        syms = sorted(set().union(*(e.free_symbols for e in outs)), key=str)
+        fns.append((sp.lambdify(syms, outs, "numpy", cse=True), syms, cols))
+    return Compiled(parts, len(free), fns)
 
 
 def accumulate(comp: Compiled, arrays, n: int, *, chunk: int = CHUNK) -> CrossProducts:
@@ -65,21 +71,26 @@ def accumulate(comp: Compiled, arrays, n: int, *, chunk: int = CHUNK) -> CrossPr
     rows at a time so that the working memory does not grow with the row count."""
     G, k = len(comp.parts), comp.k
     total = CrossProducts(np.zeros((G, G, k + 1, k + 1)), np.zeros(G), 0)
+    Z = np.zeros((G, min(chunk, n), k + 1))
     for lo in range(0, n, chunk):
         hi = min(n, lo + chunk)
         part = {s: a[lo:hi] for s, a in arrays.items()}
-        total = total + _one_chunk(comp, part, hi - lo)
+        total = total + _one_chunk(comp, part, hi - lo, Z[:, :hi - lo])
     return total
 
 
-def _one_chunk(comp: Compiled, arrays, m: int) -> CrossProducts:
+def _one_chunk(comp: Compiled, arrays, m: int, Z: np.ndarray) -> CrossProducts:
     G, k = len(comp.parts), comp.k
-    Z = np.zeros((G, m, k + 1))
-    for g, (dep, offset, regs) in enumerate(comp.parts):
-        for j, r in regs:
-            Z[g, :, j] = evaluate(r, arrays, m)
-        Z[g, :, k] = evaluate(dep, arrays, m) - evaluate(offset, arrays, m)
-    ZZ = np.einsum("gni,hnj->ghij", Z, Z, optimize=True)
+    Z[...] = 0.0
+    for g, (fn, syms, cols) in enumerate(comp.fns):
+        outs = fn(*[arrays[s] for s in syms])
+        for j, v in zip(cols + [k], outs):
+            Z[g, :, j] = v
+    ZZ = np.empty((G, G, k + 1, k + 1))
+    for g in range(G):
+        for h in range(g, G):
+            ZZ[g, h] = Z[g].T @ Z[h]
+            ZZ[h, g] = ZZ[g, h].T
     return CrossProducts(ZZ, Z[:, :, k].sum(axis=1), m)
 
 

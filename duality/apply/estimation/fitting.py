@@ -110,6 +110,7 @@ def estimate(model: Model, data, *, columns: Mapping[str, str] | None = None,
         have_quantities=all(columns.get(str(q), str(q)) in names for q in model.quantities),
         budget=budget)
     free = list(system.free)
+    notes: list[str] = []
     if source.frame is None:
         if not system.linear:
             raise DualityError("equations nonlinear in the parameters need the data in "
@@ -123,6 +124,7 @@ def estimate(model: Model, data, *, columns: Mapping[str, str] | None = None,
         frame = source.frame
         arrays = resolve(system, frame, columns=columns, shares=shares, share_tol=share_tol)
         n, rows_kept = len(frame), True
+        notes.extend(_share_note(system, arrays))
         if n <= len(free):
             raise DualityError(f"{n} rows cannot estimate {len(free)} parameters")
         if system.linear and (engine == "crossproducts"
@@ -152,12 +154,26 @@ def estimate(model: Model, data, *, columns: Mapping[str, str] | None = None,
     result = Estimation(system=system, names=tuple(p.name for p in free), theta=raw.theta,
                         cov=raw.cov, equation_fits=tuple(fits), loglik=loglik,
                         estimator=raw.estimator, iterations=raw.iterations, model=fitted, n=n,
-                        data=arrays, rows_kept=rows_kept)
+                        data=arrays, rows_kept=rows_kept, notes=tuple(notes))
     if check_curvature and rows_kept:
         result.curvature.update(_curvature(result, source.frame, columns, shares, budget))
     elif check_curvature:
         result.curvature["checked"] = "no: the data were read in chunks"
     return result
+
+
+def _share_note(system, arrays) -> list[str]:
+    """A note when the observed shares sum to one only within the tolerance: then the
+    estimates depend (slightly) on which share equation was dropped."""
+    syms = [s for n, s in system.data.items() if n.startswith("s_")]
+    if not syms or len(syms) != len(system.quantities):
+        return []
+    dev = float(np.max(np.abs(sum(arrays[s] for s in syms) - 1)))
+    if dev <= 1e-9:
+        return []
+    return [f"the observed shares sum to one only within {dev:.2g}; the estimates then "
+            "depend slightly on which share equation is dropped (rescale the shares to sum "
+            "to one to remove this)"]
 
 
 def _start(model, free, start) -> np.ndarray:

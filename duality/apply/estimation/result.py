@@ -89,6 +89,11 @@ class Estimation:
         The model with the estimates as its parameter values: every feature of the
         package (duals, demands, checks, regularity, scenarios, exports) works on it.
     n : int
+    curvature : dict
+        Rows where the fitted model violates curvature and monotonicity (or why not checked).
+    rows_kept : bool
+        False when the data were read in chunks (elasticities only at a point).
+    notes : tuple of str
     """
 
     system: EquationSystem
@@ -105,6 +110,7 @@ class Estimation:
     curvature: dict = field(default_factory=dict)
     level: float = 0.95
     rows_kept: bool = True
+    notes: tuple = ()
 
     # -- parameters -----------------------------------------------------------------------
     @cached_property
@@ -379,7 +385,7 @@ class Estimation:
                          "the restrictions)")
         for k, v in self.curvature.items():
             lines.append(f"curvature {k}: {v}")
-        lines += [f"note: {n}" for n in s.notes]
+        lines += [f"note: {n}" for n in s.notes + self.notes]
         lines.append("These estimates hold only for the assumed functional form and data.")
         return "\n".join(lines)
 
@@ -419,7 +425,7 @@ class Estimation:
             "imposed": list(self.system.imposed),
             "dropped": self.system.dropped,
             "curvature": dict(self.curvature),
-            "notes": list(self.system.notes),
+            "notes": list(self.system.notes) + list(self.notes),
         }
 
     def __str__(self) -> str:

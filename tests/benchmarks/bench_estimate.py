@@ -92,7 +92,7 @@ def main() -> None:
     args = ap.parse_args()
     rng = np.random.default_rng(args.seed)
     model = dy.translog_cost(3)
-    kw = dict(shares=SHARES, check_curvature=False)
+    kw = dict(shares=SHARES, curvature="none")
     dy.estimate(model, invent(1000, rng), **kw)          # one-off symbolic work
 
     n = int(args.rows)

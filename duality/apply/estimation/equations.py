@@ -120,7 +120,7 @@ class EquationSystem:
     shares_exact: tuple = ()
     notes: tuple = ()
     index: str | None = None
-    extra: dict = field(default_factory=dict)
+    derived_how: dict = field(default_factory=dict)
 
     def as_text(self) -> str:
         """The estimating equations, what was imposed and dropped, as plain text."""

@@ -21,6 +21,7 @@ from ...solve.derive import DEFAULT_BUDGET
 from .data import SHARE_TOL, as_frame, resolve
 from .equations import derive_system
 from ..evaluate import _chunks, _count_rows, _file_kind, _progress
+from .curvature import concave_at_reference, start_values
 from .crossprod import CHUNK, CrossProducts, accumulate, compile_system, solve
 from .linear import METHODS, RawFit, fit_linear
 from .nonlinear import fit_nonlinear
@@ -38,7 +39,7 @@ def estimate(model: Model, data, *, columns: Mapping[str, str] | None = None,
              drop: str | None = None, index: str = "exact", impose: bool = True,
              start: Mapping[str, float] | None = None, cov_type: str = "nonrobust",
              share_tol: float | None = SHARE_TOL, max_iter: int = 200, tol: float = 1e-8,
-             check_curvature: bool = True, engine: str = "auto", chunksize: int = CHUNK,
+             curvature: str = "check", engine: str = "auto", chunksize: int = CHUNK,
              progress: bool = False,
              budget: float | None = DEFAULT_BUDGET) -> Estimation:
     """Estimate a model's parameters from the equations derived from it.
@@ -79,8 +80,11 @@ def estimate(model: Model, data, *, columns: Mapping[str, str] | None = None,
         ``"nonrobust"`` or ``"robust"`` for a system.
     share_tol : float or None
         Tolerance of the check that observed shares sum to one (``None`` skips it).
-    check_curvature : bool
-        Count rows where the fitted model violates curvature (needs every parameter).
+    curvature : {"check", "local", "none"}
+        ``"check"`` counts the rows where the fitted model violates curvature (needs every
+        parameter); ``"local"`` imposes concavity of a translog cost at the point where
+        every price and the output equal one (:mod:`.curvature`) and reports the rows
+        violating curvature before and after; ``"none"`` skips both.
     engine : {"auto", "library", "crossproducts"}
         For a linear system in memory: linearmodels / statsmodels (``"library"``), or
         cross-products accumulated by chunks of ``chunksize`` rows (``"crossproducts"``);
@@ -137,6 +141,49 @@ def estimate(model: Model, data, *, columns: Mapping[str, str] | None = None,
         else:
             raw = fit_nonlinear(system, arrays, n, _start(model, free, start), method=method,
                                 max_iter=max_iter, tol=tol)
+    if curvature not in CURVATURE:
+        raise DualityError(f"curvature {curvature!r} is not one of {', '.join(CURVATURE)}")
+    result = _result(model, system, raw, n, arrays, rows_kept, notes)
+    if curvature == "none":
+        return result
+    if not rows_kept:
+        if curvature == "local":
+            raise DualityError("curvature='local' needs the data in memory (a DataFrame)")
+        result.curvature["checked"] = "no: the data were read in chunks"
+        return result
+    before = _curvature(result, source.frame, columns, budget)
+    if curvature == "check":
+        result.curvature.update(before)
+        return result
+    if drop is not None and drop != str(system.quantities[-1]):
+        raise DualityError("curvature='local' drops the last share equation; leave drop "
+                           "unset")
+    concave, L = concave_at_reference(system)
+    theta0 = start_values(system, concave, L, result.params)
+    raw = fit_nonlinear(concave, arrays, n, theta0, method=method, max_iter=max_iter, tol=tol,
+                        boundary_ok=True)
+    Lhat = np.array([raw.theta[concave.free.index(s_)] for s_ in L])
+    if np.max(np.abs(Lhat)) < 1e-6 or np.linalg.matrix_rank(raw.cov) < len(concave.free):
+        notes = notes + ["curvature binds at its boundary (a singular L): the standard errors "
+                         "of the l parameters are not defined and those derived from them use "
+                         "a pseudo-inverse"]
+    constrained = _result(model, concave, raw, n, arrays, rows_kept, notes)
+    after = _curvature(constrained, source.frame, columns, budget)
+    constrained.curvature.update({
+        "imposed": "concavity at the point where every price and the output equal one",
+        "rows violating before": before.get("rows violating", before.get("checked")),
+        "rows violating after": after.get("rows violating", after.get("checked")),
+        "monotonicity violated": after.get("monotonicity violated", "")})
+    return constrained
+
+
+#: the curvature options
+CURVATURE = ("check", "local", "none")
+
+
+def _result(model, system, raw, n, arrays, rows_kept, notes) -> Estimation:
+    """Dress a raw fit: per-equation fit, log likelihood, the fitted model."""
+    free = list(system.free)
     fits = []
     for g, eq in enumerate(system.equations):
         ssr, sst = float(raw.EE[g, g]), float(raw.sst[g])
@@ -146,20 +193,16 @@ def estimate(model: Model, data, *, columns: Mapping[str, str] | None = None,
     G = raw.EE.shape[0]
     sign, logdet = np.linalg.slogdet(raw.EE / n)
     loglik = float(-n / 2 * (G * (1 + np.log(2 * np.pi)) + logdet)) if sign > 0 else float("nan")
-    values = dict(zip((p.name for p in free), raw.theta.tolist()))
     sub = dict(zip(free, raw.theta))
+    names = {p.name for p in model.params}
+    values = {p.name: float(v) for p, v in sub.items() if p.name in names}
     values.update({k.name: float(e.xreplace(sub)) for k, e in system.derived.items()})
     values.update({k.name: v for k, v in system.fixed.items()})
     fitted = model.with_values(**values)
-    result = Estimation(system=system, names=tuple(p.name for p in free), theta=raw.theta,
-                        cov=raw.cov, equation_fits=tuple(fits), loglik=loglik,
-                        estimator=raw.estimator, iterations=raw.iterations, model=fitted, n=n,
-                        data=arrays, rows_kept=rows_kept, notes=tuple(notes))
-    if check_curvature and rows_kept:
-        result.curvature.update(_curvature(result, source.frame, columns, shares, budget))
-    elif check_curvature:
-        result.curvature["checked"] = "no: the data were read in chunks"
-    return result
+    return Estimation(system=system, names=tuple(p.name for p in free), theta=raw.theta,
+                      cov=raw.cov, equation_fits=tuple(fits), loglik=loglik,
+                      estimator=raw.estimator, iterations=raw.iterations, model=fitted, n=n,
+                      data=arrays, rows_kept=rows_kept, notes=tuple(notes))
 
 
 def _share_note(system, arrays) -> list[str]:
@@ -262,7 +305,7 @@ class _Source:
         return cp, {s: v / cp.n for s, v in sums.items()}
 
 
-def _curvature(result: Estimation, frame, columns, shares, budget) -> dict:
+def _curvature(result: Estimation, frame, columns, budget) -> dict:
     """Rows where the fitted model violates curvature (concavity of cost in prices, the
     Slutsky condition of a demand system), via :func:`duality.analyse.regularity`."""
     m = result.model

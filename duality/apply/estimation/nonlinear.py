@@ -1,4 +1,4 @@
-"""Equations nonlinear in the parameters: scipy's ``least_squares`` on the stacked residuals.
+"""Equations nonlinear in the parameters: scipy's ``least_squares`` (trust region) on the stacked residuals.
 
 For a system the residuals of each row are whitened by the Cholesky factor of the residual
 covariance Σ (``sur``: Σ from a first unweighted fit; ``iterated``: re-estimated until the
@@ -41,8 +41,14 @@ def _compile(system: EquationSystem, arrays, n: int):
 
 
 def fit_nonlinear(system: EquationSystem, arrays, n: int, start: np.ndarray, *,
-                  method: str = "iterated", max_iter: int = 200,
-                  tol: float = 1e-8) -> RawFit:
+                  method: str = "iterated", max_iter: int = 200, tol: float = 1e-8,
+                  boundary_ok: bool = False) -> RawFit:
+    """Nonlinear least squares (one equation) or nonlinear SUR (a system).
+
+    ``boundary_ok``: a singular Jacobian at the estimates is accepted (a parametrisation
+    that reaches a boundary, e.g. curvature that binds) and the covariance is the
+    pseudo-inverse; otherwise it is an identification error.
+    """
     if method not in METHODS:
         raise DualityError(f"method {method!r} is not one of {', '.join(METHODS)}")
     Y, resid, jac = _compile(system, arrays, n)
@@ -56,8 +62,8 @@ def fit_nonlinear(system: EquationSystem, arrays, n: int, start: np.ndarray, *,
         def J(t):
             return np.einsum("ngk,gh->nhk", jac(t), W).reshape(n * G, k)
         with np.errstate(all="ignore"):
-            sol = least_squares(f, theta0, jac=J, method="lm" if n * G > k else "trf",
-                                xtol=1e-12, ftol=1e-12, gtol=1e-12, max_nfev=2000 * (k + 1))
+            sol = least_squares(f, theta0, jac=J, method="trf", xtol=1e-10, ftol=1e-10,
+                                gtol=1e-10, max_nfev=200 * (k + 1))
         if not np.all(np.isfinite(sol.x)) or not np.all(np.isfinite(sol.fun)):
             raise DualityError("nonlinear least squares reached parameter values where the "
                                "equations are not defined; give start values closer to the "
@@ -97,9 +103,12 @@ def fit_nonlinear(system: EquationSystem, arrays, n: int, start: np.ndarray, *,
     Jw = np.einsum("ngk,gh->nhk", jac(theta), W).reshape(n * G, k)
     JtJ = Jw.T @ Jw
     if np.linalg.matrix_rank(JtJ) < k:
-        raise DualityError("the parameters are not identified at the estimates (singular "
-                           "Jacobian); fix one of them")
-    cov = np.linalg.inv(JtJ)
+        if not boundary_ok:
+            raise DualityError("the parameters are not identified at the estimates "
+                               "(singular Jacobian); fix one of them")
+        cov = np.linalg.pinv(JtJ)
+    else:
+        cov = np.linalg.inv(JtJ)
     R = resid(theta)
     if G == 1:
         cov = cov * float(R[:, 0] @ R[:, 0]) / (n - k)

@@ -119,12 +119,13 @@ class Estimation:
 
     @cached_property
     def _derived_grad(self) -> dict:
-        """Each derived parameter as (value, gradient in θ): linear in θ by construction."""
+        """Each derived parameter as (value, gradient in θ at the estimates): from the
+        restrictions (linear in θ) or from a curvature parametrisation (nonlinear)."""
         out = {}
         sub = dict(zip(self._free_syms, self.theta))
         for k, e in self.system.derived.items():
             out[k] = (float(e.xreplace(sub)),
-                      np.array([float(sp.diff(e, p)) for p in self._free_syms]))
+                      np.array([float(sp.diff(e, p).xreplace(sub)) for p in self._free_syms]))
         return out
 
     @cached_property
@@ -138,7 +139,7 @@ class Estimation:
             rows.append((name, b, s, "estimated"))
         for k, (v, g) in self._derived_grad.items():
             rows.append((k.name, v, float(np.sqrt(max(g @ self.cov @ g, 0.0))),
-                         "from restrictions"))
+                         self.system.derived_how.get(k, "from restrictions")))
         for k, v in self.system.fixed.items():
             rows.append((k.name, v, np.nan, "fixed"))
         order = {p.name: i for i, p in enumerate(self.system.model.params)}

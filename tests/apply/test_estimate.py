@@ -53,7 +53,8 @@ def translog_fit(electricity):
 
 # -- published estimates --------------------------------------------------------------------
 def test_nerlove_cobb_douglas_through_estimate(nerlove):
-    res = dy.estimate(_cobb_douglas_cost(), nerlove, columns={"c": "cost", "q": "output"})
+    res = dy.estimate(_cobb_douglas_cost(), nerlove, columns={"c": "cost", "q": "output"},
+                      curvature="none")
     p, se = res.params, res.std_errors
     # Greene, Econometric Analysis, 5th ed. (2003), Example 7.3; Hayashi, Econometrics
     # (2000), ch. 1: constant -4.6858, ln q 0.72067, ln(pl/pf) 0.59397, ln(pk/pf) -0.00847,
@@ -403,7 +404,7 @@ def test_local_concavity_is_imposed_where_the_data_violate_it(rng):
     gamma = np.array([[0.3, -0.1, -0.2], [-0.1, 0.3, -0.2], [-0.2, -0.2, 0.4]])
     data = _translog_rows(rng, gamma)
     sh = {"x1": "s1", "x2": "s2", "x3": "s3"}
-    free = dy.estimate(dy.translog_cost(3), data, shares=sh)
+    free = dy.estimate(dy.translog_cost(3), data, shares=sh, curvature="none")
     assert np.linalg.eigvalsh(_m_block(free)).max() > 0.01
     res = dy.estimate(dy.translog_cost(3), data, shares=sh, curvature="local")
     assert np.linalg.eigvalsh(_m_block(res)).max() <= 1e-8

@@ -13,7 +13,6 @@ view can show every part that does work.
 """
 from __future__ import annotations
 
-import math
 import re
 from dataclasses import dataclass
 from functools import lru_cache
@@ -25,9 +24,10 @@ import sympy as sp
 import duality as dy
 from duality.solve.derive import DEFAULT_BUDGET, duals
 from duality.errors import DualityError
-from duality.apply.export import TARGETS, export, file_name
+from duality.apply.export import REGISTRY, export, file_name
 from duality.model.base import Model
-from duality.solve.result import Derived
+from duality.solve.points import complete_point, value_at
+from duality.solve.result import Derived, Unavailable
 
 #: seconds of symbolic work allowed per dual before the numeric route takes over; the
 #: library's default, so the app, the exports and the checks share one cached derivation
@@ -55,7 +55,7 @@ class Card:
 
 
 @dataclass(frozen=True)
-class Unavailable:
+class UnavailableCard:
     """A dual the model does not have, with the reason."""
 
     title: str
@@ -69,9 +69,9 @@ TITLES = {"cost": "Cost function", "profit": "Profit function",
 
 
 @lru_cache(maxsize=64)
-def derive_all(model: Model) -> dict[str, Derived | str]:
-    """Each dual of ``model`` (:func:`duality.solve.derive.duals`, cached here with its compiled
-    functions); a dual that does not exist maps to the reason, as text."""
+def derive_all(model: Model) -> dict[str, Derived | Unavailable]:
+    """Each dual of ``model`` (:func:`duality.solve.derive.duals`, cached here with its
+    compiled functions); a dual that does not exist maps to :class:`Unavailable`."""
     return duals(model, budget=BUDGET)
 
 
@@ -79,36 +79,6 @@ def point_for(d: Derived, point: dict) -> dict[str, float]:
     """The part of ``point`` that ``d`` takes as arguments."""
     names = {str(a) for a in d.args}
     return {k: float(v) for k, v in point.items() if k in names}
-
-
-def value_at(d: Derived, point: dict) -> float | None:
-    """``d`` at the point, or None where it cannot be evaluated there."""
-    try:
-        v = float(d(**point_for(d, point)))
-    except (DualityError, ValueError, TypeError, ZeroDivisionError):
-        return None
-    return v if math.isfinite(v) else None
-
-
-def baseline_point(model: Model, found: dict, base: dict) -> dict[str, float]:
-    """The scenario's baseline point, completed with the utility level it reaches.
-
-    For a preference the expenditure function needs a utility level: the one the
-    baseline income buys, v(p, m), unless the scenario gives a level instead.
-    """
-    pt = {k: float(v) for k, v in base.items()}
-    if not model.is_technology:
-        u, m = str(model.level), str(model.income)
-        v, e = found.get("indirect_utility"), found.get("expenditure")
-        if u not in pt and isinstance(v, Derived) and m in pt:
-            val = value_at(v, pt)
-            if val is not None:
-                pt[u] = val
-        if m not in pt and isinstance(e, Derived) and u in pt:
-            val = value_at(e, pt)
-            if val is not None:
-                pt[m] = val
-    return pt
 
 
 def _card(title: str, d: Derived, point: dict, with_demands: bool) -> Card:
@@ -127,11 +97,11 @@ def _card(title: str, d: Derived, point: dict, with_demands: bool) -> Card:
 def cards(model: Model, base: dict) -> tuple[list, dict[str, float]]:
     """Display cards for every dual (with its demands) at the baseline point.
 
-    Returns the cards (:class:`Card` or :class:`Unavailable`) and the completed point.
+    Returns the cards (:class:`Card` or :class:`UnavailableCard`) and the completed point.
     """
     found = derive_all(model)
-    pt = baseline_point(model, found, base)
-    out = [Unavailable(TITLES[kind], d) if isinstance(d, str) else
+    pt = complete_point(model, base, found)
+    out = [UnavailableCard(TITLES[kind], d.reason) if isinstance(d, Unavailable) else
            _card(TITLES[kind], d, pt, True) for kind, d in found.items()]
     return out, pt
 
@@ -177,25 +147,22 @@ def latex_of(d: Derived) -> str:
 
 def model_latex(model: Model) -> str:
     """The model as an equation: ``y = f(x)``, ``u = U(x)`` or the given dual."""
+    head = model.given.latex
     if model.is_primal:
-        lhs = tex(model.level)
-        args = _args_tex(model.quantities)
-        head = "f" if model.is_technology else "U"
-        return f"{lhs} = {head}({args}) = {tex(model.expr)}"
-    head = {"cost": "c", "profit": r"\pi", "expenditure": "e",
-            "indirect_utility": "v"}[model.side]
+        return f"{tex(model.level)} = {head}({_args_tex(model.quantities)}) = {tex(model.expr)}"
     return f"{head}({_args_tex(model.dual_args)}) = {tex(model.expr)}"
 
 
 # -- elasticities -------------------------------------------------------------------------
-def elasticity_tables(model: Model, point: dict) -> dict[str, pd.DataFrame] | str:
-    """Elasticity matrices at ``point`` as labelled DataFrames, or the reason there are
-    none.  Keys: ``shares``, ``price``, (``compensated``), ``level``, ``allen_uzawa``,
-    ``morishima``; plus ``meta`` (route, returns to scale, notes)."""
+def elasticity_tables(model: Model, point: dict) -> dict[str, pd.DataFrame] | Unavailable:
+    """Elasticity matrices at ``point`` as labelled DataFrames, or :class:`Unavailable`
+    with the reason there are none.  Keys: ``shares``, ``price``, (``compensated``),
+    ``level``, ``allen_uzawa``, ``morishima``; plus ``meta`` (route, returns to scale,
+    notes)."""
     try:
         tab = _elasticities(model, tuple(sorted(point.items())))
     except DualityError as exc:
-        return str(exc)
+        return Unavailable(str(exc))
     names = list(tab.names)
     lvl = "output elasticity" if tab.role == "technology" else "income elasticity"
     out = {"shares": pd.DataFrame({"share": tab.shares, lvl: tab.level}, index=names),
@@ -245,14 +212,15 @@ def checks_frame(records) -> pd.DataFrame:
 
 
 # -- price scenarios ----------------------------------------------------------------------
-def welfare(scenario) -> pd.DataFrame | str:
-    """The scenario's comparison table (variants against the baseline)."""
+def welfare(scenario) -> pd.DataFrame | Unavailable:
+    """The scenario's comparison table (variants against the baseline), or
+    :class:`Unavailable` with the reason there is none."""
     if not scenario.variants:
-        return "the scenario has no price variants; add one to compare"
+        return Unavailable("the scenario has no price variants; add one to compare")
     try:
         return dy.scenario_table(scenario)
     except DualityError as exc:
-        return str(exc)
+        return Unavailable(str(exc))
 
 
 #: measures drawn as welfare bars, by role
@@ -367,16 +335,16 @@ def export_name(title: str) -> str:
 
 
 @lru_cache(maxsize=64)
-def exports(model: Model, name: str) -> dict[str, tuple[str, str | None, str]]:
-    """Every export target: ``{target: (file name, text, "")}``, or
-    ``(file name, None, reason)`` for a target that cannot express this model."""
+def exports(model: Model, name: str) -> dict[str, tuple[str, str | Unavailable]]:
+    """Every export target: ``{target: (file name, text)}``, the text being
+    :class:`Unavailable` with the reason for a target that cannot express this model."""
     out = {}
-    for target in TARGETS:
+    for target in (t.name for t in REGISTRY):
         fname = file_name(name, target)
         try:
-            out[target] = (fname, export(model, target, name=name), "")
+            out[target] = (fname, export(model, target, name=name))
         except DualityError as exc:
-            out[target] = (fname, None, str(exc))
+            out[target] = (fname, Unavailable(str(exc)))
     return out
 
 

@@ -23,8 +23,10 @@ import plotly.graph_objects as go
 import sympy as sp
 from plotly.subplots import make_subplots
 
+import duality as dy
 from duality.errors import DualityError
 from duality.model.base import Model
+from duality.model.formula import parse
 from duality.solve.result import Derived
 
 #: the app's palette: slate ink, a teal for the primal, an ochre for the dual side
@@ -212,9 +214,6 @@ def conjugate_envelope(formula: str, var: str = "x", lower: float = -3.0,
     [lower, upper] by the linear-time discrete transform; each drawn line
     ``s x − f*(s)`` supports f from below, and together they trace its convex envelope.
     """
-    import duality as dy
-    from duality.model.formula import parse
-
     if not lower < upper:
         raise DualityError(f"the interval needs lower < upper (got {lower:g}, {upper:g})")
     expr = parse(formula)

@@ -16,6 +16,8 @@ sys.path.insert(0, str(ROOT))
 
 def warm(scenario: str | None) -> None:
     """Import the page's modules and derive the opening scenario (fills the caches)."""
+    # deferred: loading the engine is this function's job, timed by the launcher; the
+    # imports need the project root that this module puts on sys.path first
     from app import analysis, views  # noqa: F401 - imported for the page script
     from app import workspace
     from duality.apply import scenario as sc
@@ -35,7 +37,8 @@ def main(argv: list[str]) -> int:
     if "--scenario" in app_args:
         scenario = app_args[app_args.index("--scenario") + 1]
     warm(scenario or os.environ.get("DUALITY_APP_SCENARIO"))
-    from streamlit.web import cli as streamlit_cli
+    from streamlit.web import cli as streamlit_cli  # deferred: after the engine is warm
+
 
     sys.argv = ["streamlit", "run", str(ROOT / "app" / "main.py"), *argv]
     return streamlit_cli.main()

@@ -17,19 +17,14 @@ import streamlit as st
 import duality as dy
 from duality.apply import scenario as sc
 from duality.errors import DualityError
+from duality.texts import CAUTION
 
 from . import analysis as A
 from . import figures as F
 from . import workspace as W
 
-VIEWS = ["Duals", "Elasticities", "Checks", "Figures", "Price scenarios", "Data",
-         "Estimation", "Conjugate", "Export & save"]
 ROUTE_BADGE = {"catalogue": ("catalogue", "green"), "symbolic": ("derived", "blue"),
                "numeric": ("numeric", "orange")}
-CAUTION = ("Results hold only under the assumed functional form and parameter values. "
-           "A cost change, demand response or welfare figure read off this page is as "
-           "good as those assumptions: check them before it informs a policy or pricing "
-           "decision.")
 _CSS = """
 <style>
 .dy-brand {font-size: 1.35rem; font-weight: 700; color: #17877b; letter-spacing: .02em;}
@@ -205,7 +200,7 @@ def _badge(route: str) -> None:
 
 
 def _card(card) -> None:
-    if isinstance(card, A.Unavailable):
+    if isinstance(card, A.UnavailableCard):
         st.subheader(card.title)
         st.info(f"Not available: {card.reason}")
         return
@@ -261,8 +256,8 @@ def view_duals(model) -> None:
 def view_elasticities(model) -> None:
     _cards, pt = _derive(model)
     tabs = A.elasticity_tables(model, pt)
-    if isinstance(tabs, str):
-        st.info(f"No elasticities: {tabs}")
+    if isinstance(tabs, dy.Unavailable):
+        st.info(f"No elasticities: {tabs.reason}")
         return
     st.caption("at the baseline: " + ", ".join(f"{k} = {v:.4g}" for k, v in pt.items()))
     left, right = st.columns([2, 3])
@@ -362,8 +357,8 @@ def view_scenarios(model) -> None:
     ss = st.session_state
     _variant_editor()
     table = A.welfare(ss.scenario)
-    if isinstance(table, str):
-        st.info(table)
+    if isinstance(table, dy.Unavailable):
+        st.info(table.reason)
         return
     for name, v in ss.scenario.variants.items():
         st.markdown(f"**{name}** — {v.description or ''}")
@@ -423,9 +418,9 @@ def view_data(model) -> None:
         return
     s = rep.summary
     c = st.columns(3)
-    c[0].metric("rows", s["n_rows"])
-    c[1].metric("monotonicity violations", s["monotonicity"]["count"])
-    c[2].metric("curvature violations", s["curvature"]["count"])
+    c[0].metric("rows", s.n_rows)
+    c[1].metric("monotonicity violations", s.monotonicity.count)
+    c[2].metric("curvature violations", s.curvature.count)
     st.dataframe(rep.rows)
     with st.expander("full report"):
         st.text(rep.as_text())
@@ -519,9 +514,9 @@ def view_estimation(model) -> None:
     else:
         s = rep.summary
         m = st.columns(3)
-        m[0].metric("rows", s["n_rows"])
-        m[1].metric("monotonicity violations", s["monotonicity"]["count"])
-        m[2].metric("curvature violations", s["curvature"]["count"])
+        m[0].metric("rows", s.n_rows)
+        m[1].metric("monotonicity violations", s.monotonicity.count)
+        m[2].metric("curvature violations", s.curvature.count)
         _figure(lambda: F.regularity_by_row(rep.rows), "est_regularity")
     d = st.columns(3)
     d[0].download_button("estimates (.csv)", res.table.to_csv(), "estimates.csv",
@@ -564,11 +559,11 @@ def view_export_save(model) -> None:
         st.markdown("**Exports** of every derived function with closed form")
         with st.spinner("Printing the exports…"):
             exports = A.exports(model, name)
-        for target, (fname, text, reason) in exports.items():
-            if text is None:
-                st.button(f"{target}: not available", disabled=True, help=reason,
+        for target, (fname, text) in exports.items():
+            if isinstance(text, dy.Unavailable):
+                st.button(f"{target}: not available", disabled=True, help=text.reason,
                           key=f"ex_off_{target}")
-                st.caption(reason)
+                st.caption(text.reason)
             else:
                 st.download_button(f"{target} — {fname}", text, file_name=fname,
                                    key=f"ex_{target}", mime="text/plain")
@@ -598,10 +593,13 @@ def view_export_save(model) -> None:
                 st.success(f"saved {path}")
 
 
-RENDER = {"Duals": view_duals, "Elasticities": view_elasticities, "Checks": view_checks,
-          "Figures": view_figures, "Price scenarios": view_scenarios, "Data": view_data,
-          "Estimation": view_estimation,
-          "Conjugate": view_conjugate, "Export & save": view_export_save}
+#: the views, in the order the page offers them: label -> function drawing it (the one
+#: table of views; the first is shown on opening)
+VIEWS = {"Duals": view_duals, "Elasticities": view_elasticities, "Checks": view_checks,
+         "Figures": view_figures, "Price scenarios": view_scenarios, "Data": view_data,
+         "Estimation": view_estimation,
+         "Conjugate": view_conjugate, "Export & save": view_export_save}
+FIRST_VIEW = next(iter(VIEWS))
 
 
 def run() -> None:
@@ -627,10 +625,10 @@ def run() -> None:
         st.error(ss.pop("start_error"))
     if ss.get("edit_error"):
         st.error(f"Edit not applied: {ss.edit_error}")
-    view = st.segmented_control("View", VIEWS, default="Duals", key="view",
-                                label_visibility="collapsed") or "Duals"
+    view = st.segmented_control("View", list(VIEWS), default=FIRST_VIEW, key="view",
+                                label_visibility="collapsed") or FIRST_VIEW
     try:
-        RENDER[view](model)
+        VIEWS[view](model)
     except DualityError as exc:
         st.error(str(exc))
     except Exception as exc:  # noqa: BLE001 - the page shows a message, never a traceback

@@ -11,9 +11,12 @@ The public contract (kept stable)::
 Results carry ``.expr``, ``.route``, ``.source`` and ``.demands`` and are callable with
 keyword values.  Around them: :func:`elasticities`, :func:`shephard`, :func:`hotelling`,
 :func:`roy`, :func:`shares`, :func:`allen_uzawa`, :func:`morishima`, :func:`parse`,
-:func:`evaluate` (tables, dask, files).
+:func:`evaluate` (tables, dask, files).  Where a result may not exist (e.g. the
+profit function of a constant-returns technology, in ``duality.solve.derive.duals``) it is
+an :class:`Unavailable`: falsy, and ``.reason`` says why.
 
-Results hold only for the assumed functional form and parameter values.
+Results hold only for the assumed functional form and parameter values;
+check them before they inform a policy or pricing decision.
 """
 from __future__ import annotations
 
@@ -42,7 +45,7 @@ from .analyse.recovery import Recovered, recover
 from .apply.scenario import load as load_scenario, save as save_scenario
 from .analyse.theory import impose_restrictions, restrictions, violations
 from .apply.welfare import compare as price_change, scenario_table
-from .solve.result import Derived, NumericWarning
+from .solve.result import Derived, NumericWarning, Unavailable
 
 
 # Import paths from before the stages became folders (``duality.derive`` is now
@@ -85,5 +88,5 @@ __all__ = [
     "Model", "Parameter", "Derived", "Conjugate", "CheckRecord", "ElasticityTable",
     "CATALOGUE", "DEFAULT_BUDGET",
     "DualityError", "FormulaError", "ModelError", "NoSolutionError", "DomainError",
-    "BudgetExceeded", "NumericWarning",
+    "BudgetExceeded", "NumericWarning", "Unavailable",
 ]

@@ -18,11 +18,11 @@ Every bad input ends with a one-line message and a non-zero exit, never a traceb
 """
 from __future__ import annotations
 
+import functools
 import importlib.util
 import json
 import subprocess
 import sys
-import warnings
 from pathlib import Path
 
 import click
@@ -37,13 +37,13 @@ from .apply.welfare import scenario_table
 from .solve.derive import DEFAULT_BUDGET, duals as derive_duals
 from .solve.dual_forms import aids_expenditure, generalized_leontief_cost, translog_cost
 from .errors import DualityError
-from .solve.result import KINDS, Derived
+from .solve.points import complete_point, default_point, value_at
+from .solve.result import KINDS, Derived, Unavailable
+from .texts import CAUTION
 
 #: The built-in default model: a small decreasing-returns technology.
 DEFAULT = {"formula": "2*x1^0.3*x2^0.5", "role": "technology", "quantities": "x1,x2"}
 
-CAUTION = ("Results hold only for the assumed functional form and parameter values; "
-           "check them before using them for policy or pricing decisions.")
 
 
 class _Fail(click.ClickException):
@@ -53,6 +53,53 @@ class _Fail(click.ClickException):
 
     def show(self, file=None):
         click.echo(f"error: {self.format_message()}", err=True)
+
+
+def guarded(fn):
+    """Run a command body so that any error of ours becomes one line and exit code 2.
+
+    A :class:`~duality.errors.DualityError` shows its first line; an unreadable or
+    unwritable file its reason and name; a data file pandas cannot read says so.
+    Anything else is a bug and keeps its traceback.
+    """
+    @functools.wraps(fn)
+    def run(*args, **kwargs):
+        try:
+            return fn(*args, **kwargs)
+        except DualityError as exc:
+            raise _Fail(str(exc).splitlines()[0]) from None
+        except OSError as exc:  # unreadable or unwritable files
+            where = f" ({exc.filename})" if getattr(exc, "filename", None) else ""
+            raise _Fail(f"{exc.strerror or exc}{where}") from None
+        except UnicodeDecodeError as exc:
+            raise _Fail(f"a file is not text (UTF-8): {exc.reason}") from None
+        except Exception as exc:  # pandas cannot read a data file
+            if type(exc).__module__.startswith("pandas"):
+                raise _Fail(f"cannot read the data file: {str(exc).splitlines()[0]}") \
+                    from None
+            raise
+    return run
+
+
+class _Command(click.Command):
+    """A command that refuses an option it does not take in one line that says which
+    commands do take it."""
+
+    def parse_args(self, ctx: click.Context, args: list[str]) -> list[str]:
+        try:
+            return super().parse_args(ctx, args)
+        except click.NoSuchOption as exc:
+            name = exc.option_name
+            takers = [c.name for c in main.commands.values()
+                      if any(name in p.opts for p in c.params)]
+            own = sorted(o for p in self.params if isinstance(p, click.Option)
+                         for o in p.opts if o.startswith("--"))
+            where = (f"; it is an option of {', '.join(f'duality {t}' for t in takers)}"
+                     if takers else "")
+            raise _Fail(f"duality {self.name} does not take {name}{where}; its options are "
+                        f"{', '.join(own)}") from None
+        except click.UsageError as exc:  # a bad value or a missing argument: one line too
+            raise _Fail(f"duality {self.name}: {exc.format_message()}") from None
 
 
 def _model(formula: str, role: str, quantities: str, params: tuple[str, ...], prices: str | None):
@@ -84,55 +131,14 @@ def _parse_point(text: str) -> dict[str, float]:
     return out
 
 
-def _duals(model, budget):
-    """(title, Derived or reason) for every dual of the model."""
-    return [(KINDS[kind][0], d) for kind, d in derive_duals(model, budget=budget).items()]
-
-
-def _value(d: Derived, point: dict) -> float | None:
-    names = [str(a) for a in d.args]
-    if not all(n in point for n in names):
-        return None
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        try:
-            return d(**{n: point[n] for n in names})
-        except DualityError:
-            return None
-
-
-def _default_point(model, given: dict) -> dict:
-    """The evaluation point: what the user gave, completed with plain defaults."""
-    point = {str(s): float(i + 1) for i, s in enumerate(model.prices)}
-    if model.is_technology:
-        point.update({str(model.level): 5.0, str(model.output_price): 4.0})
-    else:
-        point[str(model.income)] = 100.0
-    known = set(point) | {str(model.level)}
-    unknown = sorted(set(given) - known)
-    if unknown:
-        raise _Fail(f"--at: unknown name(s) {', '.join(unknown)}; the model's prices and "
-                    f"levels are {', '.join(sorted(known))}")
-    point.update(given)
-    return point
-
-
-def _complete_utility(model, duals, point: dict) -> None:
-    """For a preference, evaluate expenditure at the utility that income buys."""
-    if model.is_technology or str(model.level) in point:
-        return
-    v = next((d for t, d in duals if isinstance(d, Derived) and d.kind == "indirect_utility"),
-             None)
-    if v is not None:
-        u = _value(v, point)
-        if u is not None:
-            point[str(model.level)] = u
-
-
 def _report(model, budget, at, as_json: bool, with_checks: bool = True) -> None:
-    point = _default_point(model, _parse_point(at or ""))
-    duals = _duals(model, budget)
-    _complete_utility(model, duals, point)
+    try:
+        point = default_point(model, _parse_point(at or ""))
+    except DualityError as exc:
+        raise _Fail(f"--at: {exc}") from None
+    found = derive_duals(model, budget=budget)
+    duals = [(KINDS[kind][0], d) for kind, d in found.items()]
+    point = complete_point(model, point, found)
     records = run_checks(model, budget=budget) if with_checks else []
     table = None
     level = model.level if model.is_technology else model.income
@@ -145,15 +151,16 @@ def _report(model, budget, at, as_json: bool, with_checks: bool = True) -> None:
     if as_json:
         out = {"model": model.describe(), "caution": CAUTION, "duals": {}, "checks": []}
         for title, d in duals:
-            if isinstance(d, str):
-                out["duals"][title] = {"exists": False, "reason": d}
+            if isinstance(d, Unavailable):
+                out["duals"][title] = {"exists": False, "reason": d.reason}
                 continue
             out["duals"][title] = {
                 "expr": None if d.expr is None else str(d.expr), "route": d.route,
                 "method": d.method, "source": d.source, "notes": list(d.notes),
-                "conditions": [str(c) for c in d.conditions], "value_at_point": _value(d, point),
+                "conditions": [str(c) for c in d.conditions],
+                "value_at_point": value_at(d, point),
                 "demands": {k: {"expr": None if x.expr is None else str(x.expr),
-                                "value_at_point": _value(x, point)}
+                                "value_at_point": value_at(x, point)}
                             for k, x in d.demands.items()}}
         out["point"] = point
         out["elasticities"] = None if table is None else table.to_dict()
@@ -164,16 +171,16 @@ def _report(model, budget, at, as_json: bool, with_checks: bool = True) -> None:
     click.echo(f"evaluated at: {', '.join(f'{k}={v:g}' for k, v in point.items())}")
     for title, d in duals:
         click.echo("")
-        if isinstance(d, str):
-            click.echo(f"{title}: does not exist — {d}")
+        if isinstance(d, Unavailable):
+            click.echo(f"{title}: does not exist — {d.reason}")
             continue
         click.echo(d.summary())
-        v = _value(d, point)
+        v = value_at(d, point)
         if v is not None:
             click.echo(f"  value at the point: {v:.10g}")
         for name, x in d.demands.items():
             body = "(numeric only)" if x.expr is None else str(x.expr)
-            val = _value(x, point)
+            val = value_at(x, point)
             click.echo(f"  {x.label} {name} = {body}"
                        + (f"   [= {val:.10g}]" if val is not None else ""))
     if table is not None:
@@ -188,7 +195,22 @@ def _report(model, budget, at, as_json: bool, with_checks: bool = True) -> None:
     click.echo(f"Caution: {CAUTION}")
 
 
-_model_options = [
+# -- option groups: each command takes only the groups it uses -----------------------------
+def _group(*options):
+    """One decorator applying ``options`` in the order written."""
+    def apply(fn):
+        for opt in reversed(options):
+            fn = opt(fn)
+        return fn
+    return apply
+
+
+#: parameter name -> option of the typed model
+_MODEL_FLAGS = {"formula": "--formula", "role": "--role", "quantities": "--quantities",
+                "prices": "--prices", "params": "--param"}
+
+#: the typed model: formula, role, names and parameter values
+model_options = _group(
     click.option("--formula", "-f", default=DEFAULT["formula"], show_default=True,
                  help="Production or utility function, e.g. 'A*x1^a*x2^b'."),
     click.option("--role", type=click.Choice(["technology", "preference"]),
@@ -200,19 +222,38 @@ _model_options = [
                  help="Comma-separated price names (default w1,w2,... or p1,p2,...)."),
     click.option("--param", "-P", "params", multiple=True, metavar="NAME=VALUE",
                  help="Parameter value (repeatable); NAME=free leaves it symbolic."),
-    click.option("--at", "at", default=None,
-                 help="Point to evaluate at, e.g. 'w1=1,w2=2,y=5,p=4' or 'p1=1,p2=2,m=10' "
-                      "(default: prices 1, 2, 3, ...; y=5, p=4 or m=100; u = v(p, m))."),
-    click.option("--budget", type=float, default=DEFAULT_BUDGET, show_default=True,
-                 help="Seconds allowed for symbolic derivation before the numeric route."),
-    click.option("--json", "as_json", is_flag=True, help="Print JSON instead of text."),
-]
+)
+#: where to evaluate
+point_option = click.option(
+    "--at", "at", default=None,
+    help="Point to evaluate at, e.g. 'w1=1,w2=2,y=5,p=4' or 'p1=1,p2=2,m=10' "
+         "(default: prices 1, 2, 3, ...; y=5, p=4 or m=100; u = v(p, m)).")
+#: how long symbolic work may take
+budget_option = click.option(
+    "--budget", type=float, default=DEFAULT_BUDGET, show_default=True,
+    help="Seconds allowed for symbolic derivation before the numeric route.")
+#: JSON instead of text
+json_option = click.option("--json", "as_json", is_flag=True,
+                           help="Print JSON instead of text.")
+#: the model of a scenario file instead of the typed one
+scenario_option = click.option("--scenario", "-s", "scenario_path", default=None,
+                               type=click.Path(dir_okay=False),
+                               help="Take the model from a scenario file instead.")
 
 
-def _with_model_options(fn):
-    for opt in reversed(_model_options):
-        fn = opt(fn)
-    return fn
+def _model_of(ctx: click.Context, kw: dict, scenario_path: str | None = None):
+    """The model of a scenario file (with the scenario) or of the typed model options;
+    both at once is refused."""
+    if scenario_path:
+        typed = [flag for n, flag in _MODEL_FLAGS.items()
+                 if ctx.get_parameter_source(n) == click.core.ParameterSource.COMMANDLINE]
+        if typed:
+            raise _Fail(f"--scenario gives the model; drop {', '.join(typed)} or the "
+                        "scenario")
+        scn = _scn.load(scenario_path)
+        return scn.build_model(), scn
+    return _model(*(kw[n] for n in ("formula", "role", "quantities", "params", "prices"))), \
+        None
 
 
 @click.group(invoke_without_command=True, context_settings={"help_option_names":
@@ -225,104 +266,94 @@ def main(ctx: click.Context) -> None:
     With no command, shows everything for a built-in default technology
     (y = 2*x1^0.3*x2^0.5)."""
     if ctx.invoked_subcommand is None:
-        _guard(lambda: _report(_model(DEFAULT["formula"], "technology", DEFAULT["quantities"],
-                                      (), None), DEFAULT_BUDGET,
-                               None, False))
+        guarded(_report)(_model(DEFAULT["formula"], "technology", DEFAULT["quantities"], (),
+                                None), DEFAULT_BUDGET, None, False)
 
 
-@main.command()
-@_with_model_options
-def derive(formula, role, quantities, prices, params, at, budget, as_json):
+@main.command(cls=_Command)
+@model_options
+@point_option
+@budget_option
+@json_option
+@click.pass_context
+@guarded
+def derive(ctx, at, budget, as_json, **model_kw):
     """Print every dual function and demand of a model, with elasticities."""
-    _guard(lambda: _report(_model(formula, role, quantities, params, prices), budget,
-                           at, as_json, with_checks=False))
+    model, _ = _model_of(ctx, model_kw)
+    _report(model, budget, at, as_json, with_checks=False)
 
 
-@main.command(name="check")
-@_with_model_options
-def check_cmd(formula, role, quantities, prices, params, at, budget, as_json):
+@main.command(name="check", cls=_Command)
+@model_options
+@budget_option
+@json_option
+@click.pass_context
+@guarded
+def check_cmd(ctx, budget, as_json, **model_kw):
     """Run the duality checks (lemmas, identities, homogeneity, curvature) of a model.
 
     Exit code 1 when a check fails, 2 on bad input."""
-    def run():
-        model = _model(formula, role, quantities, params, prices)
-        records = run_checks(model, budget=budget)
-        if as_json:
-            click.echo(json.dumps([r.to_dict() for r in records], indent=2, default=str))
-        else:
-            click.echo(model.describe())
-            for r in records:
-                click.echo(r.line())
-        if any(r.status == "failed" for r in records):
-            sys.exit(1)
-    _guard(run)
+    model, _ = _model_of(ctx, model_kw)
+    records = run_checks(model, budget=budget)
+    if as_json:
+        click.echo(json.dumps([r.to_dict() for r in records], indent=2, default=str))
+    else:
+        click.echo(model.describe())
+        for r in records:
+            click.echo(r.line())
+    if any(r.status == "failed" for r in records):
+        sys.exit(1)
 
 
-@main.command(name="conjugate")
+@main.command(name="conjugate", cls=_Command)
 @click.argument("formula")
 @click.option("--var", "-x", default=None, help="The variable (default: the only one).")
 @click.option("--convention", type=click.Choice(["sup", "intercept"]), default="sup",
               show_default=True, help="sup: sup_x p·x − f(x); intercept: f(x) − p·x at the "
                                       "tangency.")
-@click.option("--json", "as_json", is_flag=True, help="Print JSON instead of text.")
+@json_option
+@guarded
 def conjugate_cmd(formula, var, convention, as_json):
     """Print the convex conjugate of a formula, e.g.  duality conjugate 'x^2'."""
-    def run():
-        c = conj(formula, var, convention=convention)
-        if as_json:
-            click.echo(json.dumps({"expr": str(c.expr), "route": c.route, "kind": c.kind,
-                                   "convention": c.convention, "notes": list(c.notes)},
-                                  indent=2))
-        else:
-            click.echo(f"{c.kind} conjugate ({c.convention} convention, route {c.route}):")
-            click.echo(f"  {c.expr}")
-            for n in c.notes:
-                click.echo(f"  note: {n}")
-    _guard(run)
+    c = conj(formula, var, convention=convention)
+    if as_json:
+        click.echo(json.dumps({"expr": str(c.expr), "route": c.route, "kind": c.kind,
+                               "convention": c.convention, "notes": list(c.notes)},
+                              indent=2))
+    else:
+        click.echo(f"{c.kind} conjugate ({c.convention} convention, route {c.route}):")
+        click.echo(f"  {c.expr}")
+        for n in c.notes:
+            click.echo(f"  note: {n}")
 
 
-def _scenario_model(path: str | None, formula, role, quantities, params, prices):
-    """The model of a scenario file (with the scenario) or of the typed options."""
-    if path:
-        scn = _scn.load(path)
-        return scn.build_model(), scn
-    return _model(formula, role, quantities, params, prices), None
-
-
-_scenario_option = click.option("--scenario", "-s", "scenario_path", default=None,
-                                type=click.Path(dir_okay=False),
-                                help="Take the model from a scenario file instead.")
-
-
-@main.command(name="run")
+@main.command(name="run", cls=_Command)
 @click.argument("scenario_file", type=click.Path(dir_okay=False))
-@click.option("--json", "as_json", is_flag=True, help="Print JSON instead of text.")
+@json_option
+@guarded
 def run_cmd(scenario_file, as_json):
     """Run a scenario file: every variant against the baseline (costs, demands, welfare)."""
-    def run():
-        scn = _scn.load(scenario_file)
-        model = scn.build_model()
-        frames = {}
-        with click.progressbar(list(scn.variants), label="variants", file=sys.stderr,
-                               show_pos=True) as names:
-            for name in names:  # one variant at a time, so the bar shows real progress
-                frames[name] = scenario_table(scn, only=[name])
-        table = pd.concat(frames.values()) if frames else scenario_table(scn)
-        if as_json:
-            rows = [{"variant": v, "measure": m, **{k: _plain(x) for k, x in r.items()}}
-                    for (v, m), r in table.to_dict(orient="index").items()]
-            click.echo(json.dumps({"title": scn.title, "model": model.describe(),
-                                   "caution": CAUTION, "table": rows}, indent=2,
-                                  default=str))
-            return
-        click.echo(scn.title)
-        click.echo(model.describe())
-        with pd.option_context("display.width", 120, "display.max_rows", 500,
-                               "display.max_colwidth", 60):
-            click.echo(table.to_string())
-        click.echo("")
-        click.echo(f"Caution: {CAUTION}")
-    _guard(run)
+    scn = _scn.load(scenario_file)
+    model = scn.build_model()
+    frames = {}
+    with click.progressbar(list(scn.variants), label="variants", file=sys.stderr,
+                           show_pos=True) as names:
+        for name in names:  # one variant at a time, so the bar shows real progress
+            frames[name] = scenario_table(scn, only=[name])
+    table = pd.concat(frames.values()) if frames else scenario_table(scn)
+    if as_json:
+        rows = [{"variant": v, "measure": m, **{k: _plain(x) for k, x in r.items()}}
+                for (v, m), r in table.to_dict(orient="index").items()]
+        click.echo(json.dumps({"title": scn.title, "model": model.describe(),
+                               "caution": CAUTION, "table": rows}, indent=2, default=str))
+        return
+    click.echo(scn.title)
+    click.echo(model.describe())
+    with pd.option_context("display.width", 120, "display.max_rows", 500,
+                           "display.max_colwidth", 60):
+        click.echo(table.to_string())
+    click.echo("")
+    click.echo(f"Caution: {CAUTION}")
 
 
 def _json_value(x):
@@ -340,9 +371,9 @@ def _plain(x):
         return x
 
 
-@main.command(name="evaluate")
-@_with_model_options
-@_scenario_option
+@main.command(name="evaluate", cls=_Command)
+@model_options
+@scenario_option
 @click.option("--data", "data_path", default=None, type=click.Path(dir_okay=False),
               help="CSV or Parquet file of prices and levels (default: the scenario's).")
 @click.option("--out", "out_path", required=True, type=click.Path(dir_okay=False),
@@ -351,63 +382,65 @@ def _plain(x):
                                             "(repeatable).")
 @click.option("--chunksize", type=int, default=200_000, show_default=True,
               help="Rows per chunk (files larger than memory are fine).")
-def evaluate_cmd(formula, role, quantities, prices, params, at, budget, as_json,
-                 scenario_path, data_path, out_path, keep, chunksize):
+@json_option
+@click.pass_context
+@guarded
+def evaluate_cmd(ctx, scenario_path, data_path, out_path, keep, chunksize, as_json,
+                 **model_kw):
     """Evaluate the cost or indirect utility function and its demands on a data file."""
-    def run():
-        model, scn = _scenario_model(scenario_path, formula, role, quantities, params, prices)
-        columns = None
-        src = data_path
-        if scn is not None and scn.data is not None:
-            columns = dict(scn.data.columns)
-            if src is None:
-                src = str((scn.path.parent if scn.path else Path(".")) / scn.data.file)
+    model, scn = _model_of(ctx, model_kw, scenario_path)
+    columns = None
+    src = data_path
+    if scn is not None and scn.data is not None:
+        columns = dict(scn.data.columns)
         if src is None:
-            raise _Fail("--data is required (the scenario names no data file)")
-        fns = functions_of(model)
-        rows = evaluate_file(fns, src, out_path, columns=columns, keep=keep,
-                             chunksize=chunksize, progress=not as_json)
-        msg = {"rows": rows, "out": out_path, "functions": list(fns)}
-        click.echo(json.dumps(msg) if as_json else
-                   f"{rows} rows evaluated ({', '.join(fns)}) -> {out_path}")
-    _guard(run)
+            src = str(scn.data_path())
+    if src is None:
+        raise _Fail("--data is required (the scenario names no data file)")
+    fns = functions_of(model)
+    rows = evaluate_file(fns, src, out_path, columns=columns, keep=keep,
+                         chunksize=chunksize, progress=not as_json)
+    msg = {"rows": rows, "out": out_path, "functions": list(fns)}
+    click.echo(json.dumps(msg) if as_json else
+               f"{rows} rows evaluated ({', '.join(fns)}) -> {out_path}")
 
 
-@main.command(name="export")
-@_with_model_options
-@_scenario_option
-@click.option("--target", "-t", "targets", multiple=True,
-              help="Export target (repeatable): python, latex, latex-document, json, r, "
-                   "julia, octave, c, stata, bundle (default: the scenario's exports).")
+_TARGET_HELP = ", ".join(f"{t.name} ({t.description})" for t in _exp.REGISTRY)
+
+
+@main.command(name="export", cls=_Command)
+@model_options
+@scenario_option
+@click.option("--target", "-t", "targets", multiple=True, type=click.Choice(_exp.NAMES),
+              help=f"Export target (repeatable): {_TARGET_HELP}. Default: the scenario's "
+                   "exports.")
 @click.option("--out", "out_path", default=None, type=click.Path(),
               help="File (one target) or folder (several); default: print one target.")
 @click.option("--name", default="model", show_default=True, help="Name of the export.")
-def export_cmd(formula, role, quantities, prices, params, at, budget, as_json,
-               scenario_path, targets, out_path, name):
+@click.pass_context
+@guarded
+def export_cmd(ctx, scenario_path, targets, out_path, name, **model_kw):
     """Export every derived function as code, LaTeX, JSON or an estimation bundle."""
-    def run():
-        model, scn = _scenario_model(scenario_path, formula, role, quantities, params, prices)
-        chosen = list(targets) or (list(scn.exports) if scn is not None else [])
-        if not chosen:
-            raise _Fail("give --target (python, latex, latex-document, json, r, julia, "
-                        "octave, c, stata, bundle)")
-        if out_path is None:
-            if len(chosen) != 1:
-                raise _Fail("several targets need --out FOLDER")
-            click.echo(_exp.export(model, chosen[0], name=name))
-            return
-        out = Path(out_path)
-        if len(chosen) == 1 and not out.is_dir():
-            _exp.write(model, chosen[0], out, name=name)
-            click.echo(f"{chosen[0]} -> {out}")
-            return
-        if not out.is_dir():
-            raise _Fail(f"--out {out}: several targets need an existing folder")
-        for t in chosen:
-            path = out / _exp.file_name(name, t)
-            _exp.write(model, t, path, name=name)
-            click.echo(f"{t} -> {path}")
-    _guard(run)
+    model, scn = _model_of(ctx, model_kw, scenario_path)
+    chosen = list(targets) or (list(scn.exports) if scn is not None else [])
+    if not chosen:
+        raise _Fail(f"give --target ({', '.join(_exp.NAMES)})")
+    if out_path is None:
+        if len(chosen) != 1:
+            raise _Fail("several targets need --out FOLDER")
+        click.echo(_exp.export(model, chosen[0], name=name))
+        return
+    out = Path(out_path)
+    if len(chosen) == 1 and not out.is_dir():
+        _exp.write(model, chosen[0], out, name=name)
+        click.echo(f"{chosen[0]} -> {out}")
+        return
+    if not out.is_dir():
+        raise _Fail(f"--out {out}: several targets need an existing folder")
+    for t in chosen:
+        path = out / _exp.file_name(name, t)
+        _exp.write(model, t, path, name=name)
+        click.echo(f"{t} -> {path}")
 
 
 def _pairs(items, option: str, example: str) -> dict[str, str]:
@@ -427,9 +460,10 @@ _FORM_BUILDERS = {"translog_cost": translog_cost,
                   "aids_expenditure": aids_expenditure}
 
 
-@main.command(name="estimate")
-@_with_model_options
-@_scenario_option
+@main.command(name="estimate", cls=_Command)
+@model_options
+@scenario_option
+@budget_option
 @click.option("--form", type=click.Choice(sorted(_FORM_BUILDERS)), default=None,
               help="A flexible form from the catalogue instead of --formula (prices from "
                    "--prices, quantities from --quantities).")
@@ -457,63 +491,64 @@ _FORM_BUILDERS = {"translog_cost": translog_cost,
               help="Single log-linear equation of a technology's cost function, with "
                    "homogeneity imposed by dividing by this price.")
 @click.option("--rows", default=None, help="Row range to use, e.g. 1-145 (1-based).")
-def estimate_cmd(formula, role, quantities, prices, params, at, budget, as_json,
-                 scenario_path, form, data_path, column_map, share_map, fix_map, equations,
-                 method, index, drop, share_tol, with_elasticities, normalise, rows):
+@json_option
+@click.pass_context
+@guarded
+def estimate_cmd(ctx, scenario_path, budget, form, data_path, column_map, share_map, fix_map,
+                 equations, method, index, drop, share_tol, with_elasticities, normalise,
+                 rows, as_json, **model_kw):
     """Estimate a model from the equations derived from it (theory imposed)."""
-    def run():
-        columns = _pairs(column_map, "--column", "c=cost")
-        shares = _pairs(share_map, "--shares", "L=sl")
-        fixed = {}
-        for k, v in _pairs(fix_map, "--fix", "a0=0").items():
-            try:
-                fixed[k] = float(v)
-            except ValueError:
-                raise _Fail(f"--fix {k}={v}: {v!r} is not a number") from None
-        if form is not None:
-            names = [p for p in (prices or "").split(",") if p.strip()]
-            if len(names) < 2:
-                raise _Fail("--form needs --prices with at least two names, e.g. pl,pk,pf")
-            qs = [q for q in quantities.split(",") if q.strip()]
-            kw = {"goods" if form == "aids_expenditure" else "quantities":
-                  qs if len(qs) == len(names) else None}
-            model = _FORM_BUILDERS[form](names, **kw)
-        else:
-            model, _ = _scenario_model(scenario_path, formula, role, quantities, params, prices)
-        if not Path(data_path).exists():
-            raise _Fail(f"--data {data_path}: no such file")
-        table = pd.read_csv(data_path)
-        if rows:
-            try:
-                lo, hi = (int(x) for x in rows.split("-"))
-            except ValueError:
-                raise _Fail(f"--rows {rows!r}: expected a range such as 1-145") from None
-            table = table.iloc[lo - 1:hi]
-        if normalise is not None:
-            _estimate_log_linear(model, budget, normalise, table, columns, as_json)
-            return
-        res = estimate(model, table, columns=columns, shares=shares, fixed=fixed,
-                       equations=equations, method=method, index=index, drop=drop,
-                       share_tol=share_tol, budget=budget)
-        el = res.elasticities() if with_elasticities else None
-        if as_json:
-            out = res.to_dict()
-            out["model"] = model.describe()
-            out["caution"] = CAUTION
-            if el is not None:
-                out["elasticities"] = el.to_dict(orient="records")
-            click.echo(json.dumps(out, indent=2, default=_json_value))
-            return
-        click.echo(res.system.as_text())
-        click.echo("")
-        click.echo(res.as_text())
+    columns = _pairs(column_map, "--column", "c=cost")
+    shares = _pairs(share_map, "--shares", "L=sl")
+    fixed = {}
+    for k, v in _pairs(fix_map, "--fix", "a0=0").items():
+        try:
+            fixed[k] = float(v)
+        except ValueError:
+            raise _Fail(f"--fix {k}={v}: {v!r} is not a number") from None
+    if form is not None:
+        names = [p for p in (model_kw["prices"] or "").split(",") if p.strip()]
+        if len(names) < 2:
+            raise _Fail("--form needs --prices with at least two names, e.g. pl,pk,pf")
+        qs = [q for q in model_kw["quantities"].split(",") if q.strip()]
+        kw = {"goods" if form == "aids_expenditure" else "quantities":
+              qs if len(qs) == len(names) else None}
+        model = _FORM_BUILDERS[form](names, **kw)
+    else:
+        model, _ = _model_of(ctx, model_kw, scenario_path)
+    if not Path(data_path).exists():
+        raise _Fail(f"--data {data_path}: no such file")
+    table = pd.read_csv(data_path)
+    if rows:
+        try:
+            lo, hi = (int(x) for x in rows.split("-"))
+        except ValueError:
+            raise _Fail(f"--rows {rows!r}: expected a range such as 1-145") from None
+        table = table.iloc[lo - 1:hi]
+    if normalise is not None:
+        _estimate_log_linear(model, budget, normalise, table, columns, as_json)
+        return
+    res = estimate(model, table, columns=columns, shares=shares, fixed=fixed,
+                   equations=equations, method=method, index=index, drop=drop,
+                   share_tol=share_tol, budget=budget)
+    el = res.elasticities() if with_elasticities else None
+    if as_json:
+        out = res.to_dict()
+        out["model"] = model.describe()
+        out["caution"] = CAUTION
         if el is not None:
-            click.echo("")
-            click.echo("elasticities at the sample mean (delta-method standard errors):")
-            click.echo(el.to_string(index=False, float_format=lambda v: f"{v:.5g}"))
+            out["elasticities"] = el.to_dict(orient="records")
+        click.echo(json.dumps(out, indent=2, default=_json_value))
+        return
+    click.echo(res.system.as_text())
+    click.echo("")
+    click.echo(res.as_text())
+    if el is not None:
         click.echo("")
-        click.echo(f"Caution: {CAUTION}")
-    _guard(run)
+        click.echo("elasticities at the sample mean (delta-method standard errors):")
+        click.echo(el.to_string(index=False, float_format=lambda v: f"{v:.5g}"))
+    click.echo("")
+    click.echo(f"Caution: {CAUTION}")
 
 
 def _estimate_log_linear(model, budget, normalise, table, columns, as_json) -> None:
@@ -535,18 +570,17 @@ def _estimate_log_linear(model, budget, normalise, table, columns, as_json) -> N
         click.echo(res.as_text())
 
 
-@main.command(name="scenarios")
+@main.command(name="scenarios", cls=_Command)
 @click.argument("folder", default="scenarios", type=click.Path(file_okay=False))
+@guarded
 def scenarios_cmd(folder):
     """List the scenario files in a folder with their titles and variants."""
-    def run():
-        paths = sorted(Path(folder).glob("*.toml"))
-        if not paths:
-            raise _Fail(f"no scenario files (*.toml) in {folder}")
-        for p in paths:
-            scn = _scn.load(p)
-            click.echo(f"{p.name}: {scn.title}  [variants: {', '.join(scn.variants) or '-'}]")
-    _guard(run)
+    paths = sorted(Path(folder).glob("*.toml"))
+    if not paths:
+        raise _Fail(f"no scenario files (*.toml) in {folder}")
+    for p in paths:
+        scn = _scn.load(p)
+        click.echo(f"{p.name}: {scn.title}  [variants: {', '.join(scn.variants) or '-'}]")
 
 
 #: the app's own look, passed to Streamlit on the command line
@@ -582,7 +616,7 @@ def app_command(scenario: str | None, port: int, save_dir: str | None) -> list[s
     return cmd + (["--", *extra] if extra else [])
 
 
-@main.command("app")
+@main.command("app", cls=_Command)
 @click.argument("scenario", required=False)
 @click.option("--port", type=int, default=8501, show_default=True,
               help="Port on 127.0.0.1 to serve the app on.")
@@ -602,21 +636,4 @@ def app_cmd(scenario, port, save_dir):
     sys.exit(code)
 
 
-def _guard(fn) -> None:
-    """Run a command body; any error of ours becomes one line and exit code 2."""
-    try:
-        fn()
-    except DualityError as exc:
-        raise _Fail(str(exc).splitlines()[0]) from None
-    except OSError as exc:  # unreadable or unwritable files
-        where = f" ({exc.filename})" if getattr(exc, "filename", None) else ""
-        raise _Fail(f"{exc.strerror or exc}{where}") from None
-    except UnicodeDecodeError as exc:
-        raise _Fail(f"a file is not text (UTF-8): {exc.reason}") from None
-    except Exception as exc:  # pandas cannot read a data file
-        if type(exc).__module__.startswith("pandas"):
-            raise _Fail(f"cannot read the data file: {str(exc).splitlines()[0]}") from None
-        raise
-
-
-__all__ = ["main", "DEFAULT", "CAUTION"]
+__all__ = ["main", "DEFAULT", "CAUTION", "guarded"]

@@ -3,9 +3,12 @@ from __future__ import annotations
 
 import json
 
+import click
 from click.testing import CliRunner
 
-from duality.cli import CAUTION, main
+from duality.apply import export as export_registry
+from duality.cli import CAUTION, guarded, main
+from duality.errors import DualityError
 
 
 def _run(*args):
@@ -209,3 +212,76 @@ def test_estimate_bad_options_are_one_line(tmp_path):
         r = CliRunner().invoke(main, base + extra)
         assert r.exit_code == 2, (extra, r.output)
         assert needle in r.output and len(r.output.strip().splitlines()) == 1, r.output
+
+
+# -- option groups: a command takes only the options it uses ---------------------------------
+def _one_line_error(args):
+    r = CliRunner().invoke(main, args)
+    assert r.exit_code == 2, (args, r.output)
+    assert r.output.startswith("error: ") and len(r.output.strip().splitlines()) == 1, r.output
+    return r.output
+
+
+def test_a_command_refuses_an_option_it_would_ignore():
+    out = _one_line_error(["export", "-f", "x1^0.3*x2^0.5", "--json", "--at", "w1=1",
+                           "--budget", "0.001"])
+    assert "duality export does not take --json" in out and "duality derive" in out
+    assert "duality check does not take --at" in _one_line_error(["check", "--at", "w1=1"])
+    assert "does not take --target" in _one_line_error(["derive", "--target", "python"])
+    assert "does not take --budget" in _one_line_error(["evaluate", "--budget", "1",
+                                                        "--out", "o.csv"])
+
+
+def test_each_command_has_exactly_its_option_groups():
+    model = {"--formula", "--role", "--quantities", "--prices", "--param"}
+    expected = {
+        "derive": model | {"--at", "--budget", "--json"},
+        "check": model | {"--budget", "--json"},
+        "conjugate": {"--var", "--convention", "--json"},
+        "run": {"--json"},
+        "evaluate": model | {"--scenario", "--data", "--out", "--keep", "--chunksize",
+                             "--json"},
+        "export": model | {"--scenario", "--target", "--out", "--name"},
+        "estimate": model | {"--scenario", "--budget", "--data", "--normalise", "--column",
+                             "--rows", "--json", "--form", "--shares", "--fix", "--equations",
+                             "--method", "--index", "--drop", "--share-tol",
+                             "--elasticities"},
+        "scenarios": set(),
+        "app": {"--port", "--save-dir"},
+    }
+    assert set(main.commands) == set(expected)
+    for name, cmd in main.commands.items():
+        opts = {o for p in cmd.params for o in p.opts if o.startswith("--")}
+        assert opts == expected[name], name
+
+
+def test_export_targets_come_from_the_registry():
+    r = _run("export", "--help")
+    for t in export_registry.REGISTRY:
+        assert t.name in r.output
+    out = _one_line_error(["export", "-t", "fortran"])
+    assert "'fortran' is not one of" in out and all(n in out for n in export_registry.NAMES)
+
+
+def test_scenario_and_typed_model_together_are_refused(tmp_path):
+    out = _one_line_error(["export", "--scenario", "scenarios/pottery_workshop.toml",
+                           "-f", "x1*x2", "-t", "python"])
+    assert "--scenario gives the model; drop --formula" in out
+
+
+def test_guarded_turns_our_errors_into_one_line():
+    @click.command()
+    @guarded
+    def broken():
+        raise DualityError("data.csv, row 3: price w1 is negative\nsecond line")
+
+    r = CliRunner().invoke(broken, [])
+    assert r.exit_code == 2 and r.output == "error: data.csv, row 3: price w1 is negative\n"
+
+    @click.command()
+    @guarded
+    def missing():
+        open("/nonexistent/folder/file.csv")
+    r = CliRunner().invoke(missing, [])
+    assert r.exit_code == 2 and "No such file or directory (/nonexistent/folder/file.csv)" \
+        in r.output

@@ -26,6 +26,7 @@ from ..solve.budget import run_with_budget
 from ..solve.calculus import Fn
 from ..solve.derive import DEFAULT_BUDGET, cost, expenditure, indirect_utility, profit
 from ..solve.numeric import _Fns, compile_model
+from ..solve.points import sample_points
 from ..errors import BudgetExceeded, DualityError, NoSolutionError
 from ..model.base import Model
 from ..solve.result import NumericWarning
@@ -236,29 +237,19 @@ def _sample(model: Model, n: int, seed: int) -> list[dict]:
 def _sample_dual(model: Model, n: int, seed: int) -> list[dict]:
     """Dual-side models: prices in [0.5, 3]; output in [0.5, 3]; income in [5, 50] and the
     utility level it buys (u = v(p, m)), so both preference duals are checked consistently."""
-    rng = np.random.default_rng(seed)
     v = None
     if not model.is_technology:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             v = Fn.of(indirect_utility(model))
-    pts = []
-    for _ in range(n):
-        pt = {s: float(rng.uniform(0.2, 0.6)) for s in model.free_params}
-        pt.update(model.values)
-        pt.update(zip(model.prices, rng.uniform(0.5, 3.0, len(model.prices))))
-        if model.is_technology:
-            pt[model.level] = float(rng.uniform(0.5, 3.0))
-            pt[model.output_price] = float(rng.uniform(1.0, 3.0))
-        else:
-            pt[model.income] = float(rng.uniform(5.0, 50.0))
-            try:
-                u = v(pt)
-            except (DualityError, ArithmeticError, ValueError, KeyError):
-                u = math.nan
-            if math.isfinite(u):
-                pt[model.level] = u
-        pts.append(pt)
+    pts = sample_points(model, n, seed)
+    for pt in pts if v is not None else ():
+        try:
+            u = v(pt)
+        except (DualityError, ArithmeticError, ValueError, KeyError):
+            u = math.nan
+        if math.isfinite(u):
+            pt[model.level] = u
     return pts
 
 

@@ -17,10 +17,11 @@ from ..solve.result import Derived
 
 
 def _wrap(parent: Derived, kind: str, name: str, fn: Fn, method: str) -> Derived:
+    common = dict(kind=kind, args=parent.args, route=parent.route, params=parent.params,
+                  source=parent.source, notes=parent.notes, conditions=parent.conditions,
+                  name=name, positive_args=parent.positive_args)
     if fn.sym is not None:
-        return Derived(kind, parent.args, fn.sym, parent.route, method, parent.params,
-                       parent.source, parent.notes, parent.conditions, name,
-                       parent.positive_args)
+        return Derived(expr=fn.sym, method=method, **common)
     args = parent.args
 
     def numeric(point):
@@ -30,9 +31,8 @@ def _wrap(parent: Derived, kind: str, name: str, fn: Fn, method: str) -> Derived
         out = np.array([fn({k: float(v[i]) for k, v in flat.items()})
                         for i in range(int(np.prod(shape)) if shape else 1)])
         return out.reshape(shape)
-    return Derived(kind, parent.args, None, parent.route, method + " (finite differences)",
-                   parent.params, parent.source, parent.notes, parent.conditions, name,
-                   parent.positive_args, numeric=numeric)
+    return Derived(expr=None, method=method + " (finite differences)", numeric=numeric,
+                   **common)
 
 
 def _need(d: Derived, kinds: tuple[str, ...], what: str) -> None:

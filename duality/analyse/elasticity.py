@@ -12,9 +12,13 @@ Review 79 (1989), and Chambers, Applied Production Analysis (1988), ch. 2–3):
 * output elasticity of demand     ∂ln x_i / ∂ln y;  income elasticity ∂ln x_i / ∂ln m
 * returns to scale (dual)         c / (y ∂c/∂y), the inverse of the cost elasticity.
 
-Closed-form matrices come from :func:`allen_uzawa`, :func:`morishima` and
-:func:`price_elasticities`; :func:`elasticities` evaluates everything at one point for any
-route (numeric duals use finite differences of the solver's demands).
+One function, :func:`substitution_elasticities`, turns a cost or expenditure function's
+value, gradient and Hessian into price, Allen–Uzawa and Morishima elasticities — on arrays
+of numbers (one point, or every row of a data set in
+:mod:`duality.analyse.regularity`) and on arrays of sympy expressions (the closed-form
+matrices of :func:`allen_uzawa` and :func:`morishima`).  :func:`elasticities` evaluates
+everything at one point for any route (numeric duals use finite differences of the
+solver's demands); :func:`price_elasticities` differentiates a demand system.
 """
 from __future__ import annotations
 
@@ -30,8 +34,55 @@ from ..model.base import Model
 from ..solve.result import Derived
 
 
+# -- substitution elasticities: one implementation ------------------------------------------
+@dataclass(frozen=True, kw_only=True)
+class Substitution:
+    """Elasticities read off a cost or expenditure function's derivatives, indexed
+    ``[..., i, j]`` in quantity order.
+
+    Attributes
+    ----------
+    price : ndarray
+        ε_ij = w_j c_ij / c_i: conditional (output-constant) or compensated
+        (utility-constant) price elasticities of demand.
+    allen_uzawa : ndarray
+        σ_ij = c c_ij / (c_i c_j).
+    morishima : ndarray
+        M_ij = w_i c_ij / c_j − w_i c_ii / c_i (= ε_ji − ε_ii), zero on the diagonal.
+    """
+
+    price: np.ndarray
+    allen_uzawa: np.ndarray
+    morishima: np.ndarray
+
+
+def substitution_elasticities(value, gradient, hessian, prices) -> Substitution:
+    """Price, Allen–Uzawa and Morishima elasticities from c, ∇c, ∇²c and the prices.
+
+    Vectorised over leading axes: ``value`` (...), ``gradient`` (..., n), ``hessian``
+    (..., n, n) and ``prices`` (..., n) give results (..., n, n) — one point, or one per
+    data row.  Arrays of sympy expressions (dtype object) give the closed forms.  Where a
+    demand is zero the result is inf or NaN, without a warning.
+
+    Notes
+    -----
+    With x_i = c_i (Shephard's lemma): ε_ij = w_j c_ij / c_i, σ_ij = c c_ij / (c_i c_j)
+    and M_ij = w_i c_ij / c_j − w_i c_ii / c_i (Blackorby and Russell, American Economic
+    Review 79 (1989); from memory).
+    """
+    c, g, H, w = (np.asarray(a) for a in (value, gradient, hessian, prices))
+    with np.errstate(all="ignore"):
+        price = H * w[..., None, :] / g[..., :, None]
+        au = c[..., None, None] * H / (g[..., :, None] * g[..., None, :])
+        own = w * np.diagonal(H, axis1=-2, axis2=-1) / g          # w_i c_ii / c_i
+        mo = w[..., :, None] * H / g[..., None, :] - own[..., :, None]
+    idx = np.arange(g.shape[-1])
+    mo[..., idx, idx] = 0
+    return Substitution(price=price, allen_uzawa=au, morishima=mo)
+
+
 # -- closed forms ------------------------------------------------------------------------
-def _hessian_parts(d: Derived):
+def _closed_substitution(d: Derived) -> Substitution | None:
     if d.kind not in ("cost", "expenditure"):
         raise DualityError(f"substitution elasticities need a cost or expenditure function, "
                            f"not a {d.label}")
@@ -41,28 +92,22 @@ def _hessian_parts(d: Derived):
     c = d.expr
     grad = [sp.diff(c, w) for w in ws]
     hess = [[sp.diff(g, w) for w in ws] for g in grad]
-    return ws, c, grad, hess
+    obj = np.empty(len(ws), dtype=object)
+    obj[:] = ws
+    return substitution_elasticities(c, np.array(grad, dtype=object),
+                                     np.array(hess, dtype=object), obj)
 
 
 def allen_uzawa(d: Derived) -> sp.Matrix | None:
     """σ_ij = c c_ij / (c_i c_j) as a sympy matrix (None for a numeric-only dual)."""
-    parts = _hessian_parts(d)
-    if parts is None:
-        return None
-    ws, c, g, H = parts
-    n = len(ws)
-    return sp.Matrix(n, n, lambda i, j: c * H[i][j] / (g[i] * g[j]))
+    sub = _closed_substitution(d)
+    return None if sub is None else sp.Matrix(sub.allen_uzawa.tolist())
 
 
 def morishima(d: Derived) -> sp.Matrix | None:
     """M_ij = w_i c_ij / c_j − w_i c_ii / c_i (zero diagonal); None if numeric-only."""
-    parts = _hessian_parts(d)
-    if parts is None:
-        return None
-    ws, c, g, H = parts
-    n = len(ws)
-    return sp.Matrix(n, n, lambda i, j: 0 if i == j else
-                     ws[i] * H[i][j] / g[j] - ws[i] * H[i][i] / g[i])
+    sub = _closed_substitution(d)
+    return None if sub is None else sp.Matrix(sub.morishima.tolist())
 
 
 def price_elasticities(demands: dict[str, Derived], prices) -> sp.Matrix | None:
@@ -75,7 +120,7 @@ def price_elasticities(demands: dict[str, Derived], prices) -> sp.Matrix | None:
 
 
 # -- evaluated tables ------------------------------------------------------------------------
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class ElasticityTable:
     """Every elasticity of a model at one point.
 
@@ -148,17 +193,6 @@ def _substitution(c: Derived, pt: dict):
     return val, g, H
 
 
-def _au_morishima(val, g, H, w):
-    n = len(g)
-    au = val * H / np.outer(g, g)
-    mo = np.zeros((n, n))
-    for i in range(n):
-        for j in range(n):
-            if i != j:
-                mo[i, j] = w[i] * H[i, j] / g[j] - w[i] * H[i, i] / g[i]
-    return au, mo
-
-
 def elasticities(model: Model, *, budget: float | None = DEFAULT_BUDGET,
                  **point: float) -> ElasticityTable:
     """All elasticities of ``model`` at one point.
@@ -172,15 +206,17 @@ def elasticities(model: Model, *, budget: float | None = DEFAULT_BUDGET,
         pt = _point(c.args, point, c)
         w = np.array([pt[s] for s in c.args[:-1]])
         val, g, H = _substitution(c, pt)
-        au, mo = _au_morishima(val, g, H, w)
+        sub = substitution_elasticities(val, g, H, w)
         y = c.args[-1]
         xs = [Fn.of(x) for x in c.demands.values()]
         level = np.array([x.diff(y)(pt) * pt[y] / gi for x, gi in zip(xs, g)])
         cy = Fn.of(c).diff(y)(pt)
-        return ElasticityTable("technology", names, {str(k): v for k, v in pt.items()
-                                                     if k in c.args},
-                               w * g / val, (H * w[None, :]) / g[:, None], level, au, mo,
-                               None, float(val / (pt[y] * cy)), c.route, c.notes)
+        return ElasticityTable(
+            role="technology", names=names,
+            point={str(k): v for k, v in pt.items() if k in c.args}, shares=w * g / val,
+            price=sub.price, level=level, allen_uzawa=sub.allen_uzawa,
+            morishima=sub.morishima, returns_to_scale=float(val / (pt[y] * cy)),
+            route=c.route, notes=c.notes)
     v = indirect_utility(model, budget=budget)
     e = expenditure(model, budget=budget)
     pt = _point(v.args, point, v)
@@ -189,18 +225,18 @@ def elasticities(model: Model, *, budget: float | None = DEFAULT_BUDGET,
     p = np.array([pt[s] for s in ps])
     u = float(Fn.of(v)(pt))
     ept = {**{s: pt[s] for s in ps}, e.args[-1]: u, **_params(pt, e)}
-    val, g, H = _substitution(e, ept)
-    au, mo = _au_morishima(val, g, H, p)
+    sub = substitution_elasticities(*_substitution(e, ept), p)
     xs = [Fn.of(x) for x in v.demands.values()]
     xv = np.array([x(pt) for x in xs])
     marsh = np.array([[x.diff(s)(pt) * pt[s] / xi for s in ps] for x, xi in zip(xs, xv)])
     income = np.array([x.diff(m)(pt) * pt[m] / xi for x, xi in zip(xs, xv)])
-    notes = tuple(dict.fromkeys(v.notes + e.notes))
-    return ElasticityTable("preference", names, {str(k): val_ for k, val_ in pt.items()
-                                                 if k in v.args},
-                           p * xv / pt[m], marsh, income, au, mo, (H * p[None, :]) / g[:, None],
-                           None, v.route if v.route == e.route else f"{v.route}/{e.route}",
-                           notes)
+    return ElasticityTable(
+        role="preference", names=names,
+        point={str(k): val_ for k, val_ in pt.items() if k in v.args}, shares=p * xv / pt[m],
+        price=marsh, level=income, allen_uzawa=sub.allen_uzawa, morishima=sub.morishima,
+        compensated=sub.price,
+        route=v.route if v.route == e.route else f"{v.route}/{e.route}",
+        notes=tuple(dict.fromkeys(v.notes + e.notes)))
 
 
 def _params(pt: dict, d: Derived) -> dict:
@@ -231,4 +267,4 @@ def _point(args, given: dict, d: Derived) -> dict:
 
 
 __all__ = ["allen_uzawa", "morishima", "price_elasticities", "elasticities",
-           "ElasticityTable"]
+           "ElasticityTable", "Substitution", "substitution_elasticities"]

@@ -47,7 +47,7 @@ from __future__ import annotations
 
 import math
 import warnings
-from dataclasses import dataclass, field
+from dataclasses import asdict, dataclass, field
 from typing import Mapping
 
 import numpy as np
@@ -55,10 +55,11 @@ import pandas as pd
 import sympy as sp
 
 from ..solve.derive import DEFAULT_BUDGET, cost, expenditure, indirect_utility
-from .elasticity import ElasticityTable
+from .elasticity import ElasticityTable, substitution_elasticities
 from ..errors import DualityError
 from ..model.lambdas import numpy_function
 from ..model.base import Model
+from ..solve.result import Unavailable
 from .restrictions import check_values, derive_restrictions, describe_violation
 
 #: observed shares must sum to one within this, per row
@@ -78,7 +79,7 @@ class RegularityWarning(UserWarning):
 # ----------------------------------------------------------------------------------------
 # compiled derivatives (once per model)
 # ----------------------------------------------------------------------------------------
-@dataclass
+@dataclass(frozen=True, kw_only=True)
 class _Engine:
     role: str                      # "technology" | "preference"
     names: tuple[str, ...]         # quantity names
@@ -132,9 +133,10 @@ def _build_engine(model: Model, budget) -> _Engine:
             out[("gl", i)] = sp.diff(grad[i], y)
         fn, layout = _compile(c.args, out)
         conds = _conditions(c)
-        return _Engine("technology", tuple(str(q) for q in model.quantities),
-                       tuple(map(str, ws)), str(y), fn, layout, conditions=conds,
-                       route=c.route, notes=tuple(c.notes), label=c.label)
+        return _Engine(role="technology", names=tuple(str(q) for q in model.quantities),
+                       prices=tuple(map(str, ws)), level=str(y), fn=fn, layout=layout,
+                       conditions=conds, route=c.route, notes=tuple(c.notes),
+                       label=c.label)
     v = indirect_utility(model, budget=budget)
     V = _closed(v, "indirect utility function")
     ps, m = v.args[:-1], v.args[-1]
@@ -172,9 +174,10 @@ def _build_engine(model: Model, budget) -> _Engine:
     elif e is not None:
         notes.append("the expenditure function is numeric only; substitution matrix from "
                      "the Slutsky equation of the Marshallian demands")
-    return _Engine("preference", tuple(str(q) for q in model.quantities),
-                   tuple(map(str, ps)), str(m), fn, layout, fn_e, layout_e, conds,
-                   route, tuple(notes), v.label)
+    return _Engine(role="preference", names=tuple(str(q) for q in model.quantities),
+                   prices=tuple(map(str, ps)), level=str(m), fn=fn, layout=layout, fn_e=fn_e,
+                   layout_e=layout_e, conditions=conds, route=route, notes=tuple(notes),
+                   label=v.label)
 
 
 def _conditions(d) -> list:
@@ -225,12 +228,11 @@ def _restriction_check(model: Model) -> tuple[list[str], str | None]:
                 rs = derive_restrictions(model.expr, model.prices, model.param_symbols,
                                          degree=1, name=f"the {model.side} function")
         except DualityError as exc:
-            rs = None
-            note = f"theory restrictions could not be derived ({exc})"
-        _RESTRICTIONS[key] = rs if rs is not None else note
+            rs = Unavailable(f"theory restrictions could not be derived ({exc})")
+        _RESTRICTIONS[key] = rs
     rs = _RESTRICTIONS[key]
-    if isinstance(rs, str):
-        return [], rs
+    if isinstance(rs, Unavailable):
+        return [], rs.reason
     if not rs:
         return [], None
     # only the parameters the restrictions know of (check_values refuses others)
@@ -366,25 +368,60 @@ def _run(fn, layout, args, N):
     return out
 
 
-def _evaluate(eng: _Engine, P: np.ndarray, L: np.ndarray, tol: float) -> dict:
+@dataclass(frozen=True, kw_only=True)
+class RowValues:
+    """Every quantity of a regularity check at N points (arrays with N rows).
+
+    ``value`` is c (technology) or e at u = v(p, m) (preference; income where the Slutsky
+    equation stands in for e); ``x`` the demands (N, n); ``price``, ``compensated``,
+    ``allen``, ``morishima`` and ``H`` (the substitution matrix) are (N, n, n); ``level``
+    the output or income elasticities (N, n); ``dlevel`` ∂c/∂y or ∂v/∂m.
+    """
+
+    value: np.ndarray
+    utility: np.ndarray | None
+    x: np.ndarray
+    shares: np.ndarray
+    price: np.ndarray
+    compensated: np.ndarray | None
+    level: np.ndarray
+    rts: np.ndarray | None
+    dlevel: np.ndarray
+    H: np.ndarray
+    allen: np.ndarray
+    morishima: np.ndarray
+    max_eig: np.ndarray
+    monotone: np.ndarray
+    concave: np.ndarray
+    in_domain: np.ndarray
+
+    def table(self, k: int, *, role: str, names: tuple[str, ...], point: dict, route: str,
+              notes: tuple[str, ...]) -> ElasticityTable:
+        """Row ``k`` as an :class:`~duality.analyse.elasticity.ElasticityTable`."""
+        return ElasticityTable(
+            role=role, names=names, point=point, shares=self.shares[k],
+            price=self.price[k], level=self.level[k], allen_uzawa=self.allen[k],
+            morishima=self.morishima[k],
+            compensated=None if self.compensated is None else self.compensated[k],
+            returns_to_scale=None if self.rts is None else float(self.rts[k]),
+            route=route, notes=notes)
+
+
+def _evaluate(eng: _Engine, P: np.ndarray, L: np.ndarray, tol: float) -> RowValues:
     """Every quantity at N points: P (N, n) prices, L (N,) output or income."""
     N, n = P.shape
     cols = [P[:, i] for i in range(n)] + [L]
     r = _run(eng.fn, eng.layout, cols, N)
-    out: dict = {}
     if eng.role == "technology":
         val = r["value"]
         g = np.column_stack([r[("g", i)] for i in range(n)])
         H = _sym(r, n, N)
-        x = g
+        x, u = g, None
         level_d = np.column_stack([r[("gl", i)] for i in range(n)])
         with np.errstate(all="ignore"):
-            level_el = L[:, None] * level_d / g
-            price = H * P[:, None, :] / g[:, :, None]
+            level = L[:, None] * level_d / g
             shares = P * g / val[:, None]
             rts = val / (L * r["level"])
-        out.update(value=val, x=x, shares=shares, price=price, level=level_el, rts=rts,
-                   dlevel=r["level"])
         sub_val, sub_g = val, g
     else:
         u = r["value"]
@@ -395,9 +432,10 @@ def _evaluate(eng: _Engine, P: np.ndarray, L: np.ndarray, tol: float) -> dict:
             for j in range(n):
                 xp[:, i, j] = r[("xp", i, j)]
         with np.errstate(all="ignore"):
-            price = xp * P[:, None, :] / x[:, :, None]
-            income = L[:, None] * xm / x
+            marshallian = xp * P[:, None, :] / x[:, :, None]
+            level = L[:, None] * xm / x
             shares = P * x / L[:, None]
+        rts = None
         if eng.fn_e is not None:
             re_ = _run(eng.fn_e, eng.layout_e, [P[:, i] for i in range(n)] + [u], N)
             sub_val = re_["value"]
@@ -408,23 +446,12 @@ def _evaluate(eng: _Engine, P: np.ndarray, L: np.ndarray, tol: float) -> dict:
             sub_g = x
             S = xp + x[:, None, :] * xm[:, :, None]
             H = (S + np.swapaxes(S, 1, 2)) / 2
-        out.update(value=sub_val, utility=u, x=x, shares=shares, price=price, level=income,
-                   rts=None, dlevel=r["level"])
-    with np.errstate(all="ignore"):
-        au = sub_val[:, None, None] * H / (sub_g[:, :, None] * sub_g[:, None, :])
-        diagH = np.diagonal(H, axis1=1, axis2=2)
-        own = P * diagH / sub_g                              # w_i c_ii / c_i
-        mo = P[:, :, None] * H / sub_g[:, None, :] - own[:, :, None]
-        idx = np.arange(n)
-        mo[:, idx, idx] = 0.0
-        comp = H * P[:, None, :] / sub_g[:, :, None]
-    out.update(H=H, allen=au, morishima=mo, compensated=comp if eng.role != "technology"
-               else None)
+    sub = substitution_elasticities(sub_val, sub_g, H, P)
     # checks
     with np.errstate(invalid="ignore"):
-        mono = (np.all(out["x"] > 0, axis=1) & (out["dlevel"] > 0) & (out["value"] > 0)
-                if eng.role == "technology" else
-                np.all(out["x"] > 0, axis=1) & (out["dlevel"] > 0))
+        mono = np.all(x > 0, axis=1) & (r["level"] > 0)
+        if eng.role == "technology":
+            mono &= sub_val > 0
     fin = np.isfinite(H).all(axis=(1, 2))
     max_eig = np.full(N, np.nan)
     scale = np.full(N, np.nan)
@@ -443,8 +470,13 @@ def _evaluate(eng: _Engine, P: np.ndarray, L: np.ndarray, tol: float) -> dict:
                 with np.errstate(all="ignore"):
                     ok = np.asarray(cfn(*(arrays[s] for s in syms)), dtype=bool)
                 dom &= np.broadcast_to(ok, (N,))
-    out.update(monotone=mono & dom, concave=concave & dom, max_eig=max_eig, in_domain=dom)
-    return out
+    technology = eng.role == "technology"
+    return RowValues(
+        value=sub_val, utility=u, x=x, shares=shares,
+        price=sub.price if technology else marshallian,
+        compensated=None if technology else sub.price, level=level, rts=rts,
+        dlevel=r["level"], H=H, allen=sub.allen_uzawa, morishima=sub.morishima,
+        max_eig=max_eig, monotone=mono & dom, concave=concave & dom, in_domain=dom)
 
 
 def _sym(r, n, N):
@@ -459,19 +491,72 @@ def _sym(r, n, N):
 # ----------------------------------------------------------------------------------------
 # the report
 # ----------------------------------------------------------------------------------------
-@dataclass
-class RegularityReport:
-    """Per-row results (``rows``) and a ``summary`` of a regularity check.
+@dataclass(frozen=True, kw_only=True)
+class Violations:
+    """Rows of the data that violate one condition: how many, and their index labels."""
 
-    ``summary`` is a dict: ``"n_rows"``; ``"monotonicity"``, ``"curvature"`` and
-    ``"domain"`` each ``{"count": int, "rows": [index labels]}``; ``"at_mean"`` an
-    :class:`~duality.analyse.elasticity.ElasticityTable` at the column means of the data;
-    ``"share_residuals"`` (with observed shares) per quantity ``{"mean", "rmse",
-    "max_abs"}`` of fitted minus observed; ``"notes"``.
+    count: int
+    rows: list
+
+
+@dataclass(frozen=True, kw_only=True)
+class ShareResidual:
+    """Fitted minus observed share of one quantity over the rows."""
+
+    mean: float
+    rmse: float
+    max_abs: float
+
+
+@dataclass(frozen=True, kw_only=True)
+class RegularitySummary:
+    """The summary of a regularity check.
+
+    Attributes
+    ----------
+    n_rows : int
+    route : str
+        How the dual was derived (``catalogue``, ``symbolic``; ``symbolic/catalogue`` when
+        a preference's two duals differ).
+    tol : float
+        Relative tolerance of the curvature check.
+    monotonicity, curvature, domain : Violations
+        Rows violating each condition.
+    at_mean : ElasticityTable
+        Every elasticity at the column means of the data.
+    notes : tuple of str
+    share_residuals : dict of ShareResidual, or None
+        Per quantity, with observed shares only.
     """
 
+    n_rows: int
+    route: str
+    tol: float
+    monotonicity: Violations
+    curvature: Violations
+    domain: Violations
+    at_mean: ElasticityTable
+    notes: tuple[str, ...] = ()
+    share_residuals: dict[str, ShareResidual] | None = None
+
+    def to_dict(self) -> dict:
+        """Plain data (lists, numbers, text) for JSON."""
+        out = {"n_rows": self.n_rows, "route": self.route, "tol": self.tol,
+               **{k: asdict(getattr(self, k)) for k in ("monotonicity", "curvature",
+                                                         "domain")},
+               "at_mean": self.at_mean.to_dict(), "notes": list(self.notes)}
+        if self.share_residuals is not None:
+            out["share_residuals"] = {q: asdict(r) for q, r in self.share_residuals.items()}
+        return out
+
+
+@dataclass(frozen=True, kw_only=True)
+class RegularityReport:
+    """Per-row results (``rows``, a DataFrame with the data's index) and a
+    :class:`RegularitySummary` of a regularity check."""
+
     rows: pd.DataFrame
-    summary: dict
+    summary: RegularitySummary
     role: str
     names: tuple[str, ...]
     model_name: str = ""
@@ -488,36 +573,35 @@ class RegularityReport:
     def as_text(self, max_rows: int = 10) -> str:
         """A readable report."""
         s = self.summary
-        n = s["n_rows"]
+        n = s.n_rows
         lines = [f"regularity of {self.model_name or 'the model'} at {n} row(s) "
-                 f"(route: {s.get('route', '')})"]
+                 f"(route: {s.route})"]
 
-        def cond(title, key, what):
-            d = s[key]
-            shown = ", ".join(map(str, d["rows"][:max_rows]))
-            more = " …" if d["count"] > max_rows else ""
-            pct = 100.0 * d["count"] / n if n else 0.0
-            lines.append(f"{title}: {n - d['count']} of {n} rows satisfy it; "
-                         f"{d['count']} violate it ({pct:.1f}%)"
-                         + (f": {shown}{more}" if d["count"] else ""))
+        def cond(title, d: Violations, what):
+            shown = ", ".join(map(str, d.rows[:max_rows]))
+            more = " …" if d.count > max_rows else ""
+            pct = 100.0 * d.count / n if n else 0.0
+            lines.append(f"{title}: {n - d.count} of {n} rows satisfy it; "
+                         f"{d.count} violate it ({pct:.1f}%)"
+                         + (f": {shown}{more}" if d.count else ""))
             lines.append(f"  ({what})")
-        cond("monotonicity", "monotonicity",
+        cond("monotonicity", s.monotonicity,
              "every fitted demand positive" + (" and ∂c/∂y > 0" if self.role == "technology"
                                               else " and ∂v/∂m > 0"))
-        cond("curvature", "curvature",
+        cond("curvature", s.curvature,
              "substitution matrix negative semidefinite: largest eigenvalue ≤ "
-             f"{s['tol']:g} × its spectral norm")
-        if s["domain"]["count"]:
-            cond("domain", "domain", "rows outside the region where the closed form holds")
-        if "share_residuals" in s:
+             f"{s.tol:g} × its spectral norm")
+        if s.domain.count:
+            cond("domain", s.domain, "rows outside the region where the closed form holds")
+        if s.share_residuals is not None:
             lines.append("fitted minus observed shares:")
-            for q, d in s["share_residuals"].items():
-                lines.append(f"  {q}: mean {d['mean']:.4g}, rmse {d['rmse']:.4g}, "
-                             f"max |.| {d['max_abs']:.4g}")
+            for q, d in s.share_residuals.items():
+                lines.append(f"  {q}: mean {d.mean:.4g}, rmse {d.rmse:.4g}, "
+                             f"max |.| {d.max_abs:.4g}")
         lines.append("")
         lines.append("at the sample mean:")
-        lines.append(s["at_mean"].as_text())
-        for note in s.get("notes", ()):
+        lines.append(s.at_mean.as_text())
+        for note in s.notes:
             lines.append(f"note: {note}")
         return "\n".join(lines)
 
@@ -556,9 +640,10 @@ def regularity(model: Model, data, *, columns: Mapping[str, object] | None = Non
     Returns
     -------
     RegularityReport
-        ``rows`` (a DataFrame with the data's index) holds ``value`` (c or e), ``utility``
-        (preference), ``demand_<q>``, ``share_<q>``, ``eps_<q>_<price>``, for a preference
-        also ``hicks_<q>_<price>`` (compensated) and ``income_elast_<q>``, for a technology
+        ``summary`` (a :class:`RegularitySummary`) and ``rows``, a DataFrame with the
+        data's index holding ``value`` (c or e), ``utility`` (preference),
+        ``demand_<q>``, ``share_<q>``, ``eps_<q>_<price>``, for a preference also
+        ``hicks_<q>_<price>`` (compensated) and ``income_elast_<q>``, for a technology
         ``output_elast_<q>`` and ``rts``; ``allen_<qi>_<qj>``, ``morishima_<qi>_<qj>``,
         ``max_eig``, ``monotone``, ``concave``, ``in_domain``.
 
@@ -627,71 +712,69 @@ def regularity(model: Model, data, *, columns: Mapping[str, object] | None = Non
     # elasticities at the sample mean of the data
     Pm = P.mean(axis=0)[None, :]
     Lm = np.array([L.mean()])
-    at = _evaluate(eng, Pm, Lm, tol)
     point = {**{p: float(Pm[0, i]) for i, p in enumerate(eng.prices)},
              eng.level: float(Lm[0])}
-    table = ElasticityTable(
-        eng.role, eng.names, point, at["shares"][0], at["price"][0], at["level"][0],
-        at["allen"][0], at["morishima"][0],
-        None if at["compensated"] is None else at["compensated"][0],
-        None if at["rts"] is None else float(at["rts"][0]), eng.route,
-        tuple(dict.fromkeys(notes)))
+    notes = tuple(dict.fromkeys(notes))
+    table = _evaluate(eng, Pm, Lm, tol).table(0, role=eng.role, names=eng.names,
+                                              point=point, route=eng.route, notes=notes)
     idx = data.index
 
     def viol(mask):
         bad = ~mask
-        return {"count": int(bad.sum()), "rows": list(idx[bad])}
-    summary = {"n_rows": len(data), "route": eng.route, "tol": tol,
-               "monotonicity": viol(res["monotone"]), "curvature": viol(res["concave"]),
-               "domain": viol(res["in_domain"]), "at_mean": table,
-               "notes": list(dict.fromkeys(notes))}
+        return Violations(count=int(bad.sum()), rows=list(idx[bad]))
+    residuals = None
     if observed is not None:
-        R = res["shares"] - observed
-        summary["share_residuals"] = {
-            q: {"mean": float(np.nanmean(R[:, i])),
-                "rmse": float(np.sqrt(np.nanmean(R[:, i] ** 2))),
-                "max_abs": float(np.nanmax(np.abs(R[:, i])))}
-            for i, q in enumerate(eng.names)}
-    return RegularityReport(rows, summary, eng.role, eng.names, model.name or eng.label)
+        R = res.shares - observed
+        residuals = {q: ShareResidual(mean=float(np.nanmean(R[:, i])),
+                                      rmse=float(np.sqrt(np.nanmean(R[:, i] ** 2))),
+                                      max_abs=float(np.nanmax(np.abs(R[:, i]))))
+                     for i, q in enumerate(eng.names)}
+    summary = RegularitySummary(
+        n_rows=len(data), route=eng.route, tol=tol, monotonicity=viol(res.monotone),
+        curvature=viol(res.concave), domain=viol(res.in_domain), at_mean=table,
+        notes=notes, share_residuals=residuals)
+    return RegularityReport(rows=rows, summary=summary, role=eng.role, names=eng.names,
+                            model_name=model.name or eng.label)
 
 
-def _frame(eng: _Engine, res: dict, index, observed) -> pd.DataFrame:
+def _frame(eng: _Engine, res: RowValues, index, observed) -> pd.DataFrame:
     names, prices = eng.names, eng.prices
     n = len(names)
-    cols: dict[str, np.ndarray] = {"value": res["value"]}
+    cols: dict[str, np.ndarray] = {"value": res.value}
     if eng.role == "preference":
-        cols["utility"] = res["utility"]
+        cols["utility"] = res.utility
     for i, q in enumerate(names):
-        cols[f"demand_{q}"] = res["x"][:, i]
+        cols[f"demand_{q}"] = res.x[:, i]
     for i, q in enumerate(names):
-        cols[f"share_{q}"] = res["shares"][:, i]
+        cols[f"share_{q}"] = res.shares[:, i]
     if observed is not None:
         for i, q in enumerate(names):
-            cols[f"resid_{q}"] = res["shares"][:, i] - observed[:, i]
+            cols[f"resid_{q}"] = res.shares[:, i] - observed[:, i]
     for i, q in enumerate(names):
         for j, p in enumerate(prices):
-            cols[f"eps_{q}_{p}"] = res["price"][:, i, j]
-    if res["compensated"] is not None:
+            cols[f"eps_{q}_{p}"] = res.price[:, i, j]
+    if res.compensated is not None:
         for i, q in enumerate(names):
             for j, p in enumerate(prices):
-                cols[f"hicks_{q}_{p}"] = res["compensated"][:, i, j]
+                cols[f"hicks_{q}_{p}"] = res.compensated[:, i, j]
     lvl = "output_elast" if eng.role == "technology" else "income_elast"
     for i, q in enumerate(names):
-        cols[f"{lvl}_{q}"] = res["level"][:, i]
+        cols[f"{lvl}_{q}"] = res.level[:, i]
     for i in range(n):
         for j in range(n):
-            cols[f"allen_{names[i]}_{names[j]}"] = res["allen"][:, i, j]
+            cols[f"allen_{names[i]}_{names[j]}"] = res.allen[:, i, j]
     for i in range(n):
         for j in range(n):
             if i != j:
-                cols[f"morishima_{names[i]}_{names[j]}"] = res["morishima"][:, i, j]
-    if res["rts"] is not None:
-        cols["rts"] = res["rts"]
-    cols["max_eig"] = res["max_eig"]
-    cols["monotone"] = res["monotone"]
-    cols["concave"] = res["concave"]
-    cols["in_domain"] = res["in_domain"]
+                cols[f"morishima_{names[i]}_{names[j]}"] = res.morishima[:, i, j]
+    if res.rts is not None:
+        cols["rts"] = res.rts
+    cols["max_eig"] = res.max_eig
+    cols["monotone"] = res.monotone
+    cols["concave"] = res.concave
+    cols["in_domain"] = res.in_domain
     return pd.DataFrame(cols, index=index)
 
 
-__all__ = ["regularity", "RegularityReport", "RegularityWarning"]
+__all__ = ["regularity", "RegularityReport", "RegularitySummary", "Violations",
+           "ShareResidual", "RegularityWarning"]

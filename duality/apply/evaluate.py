@@ -10,7 +10,6 @@ progress bar (:func:`evaluate_file`), writing the output atomically.
 from __future__ import annotations
 
 import os
-import tempfile
 import warnings
 from pathlib import Path
 from typing import Iterable, Mapping
@@ -20,6 +19,7 @@ import pandas as pd
 from tqdm import tqdm
 
 from ..errors import DualityError
+from .files import atomic_path
 from ..model.base import Model
 from ..solve.derive import cost, indirect_utility
 from ..solve.result import Derived, NumericWarning
@@ -200,40 +200,31 @@ def evaluate_file(what, source: str | os.PathLike, target: str | os.PathLike, *,
     keep = list(keep)
     total = _count_rows(source, kind_in)
     bar = _progress(total, progress, f"evaluating {source.name}")
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".part", dir=target.parent)
-    os.close(fd)
     rows = 0
     writer = None
     try:
-        for start, chunk in _chunks(source, kind_in, chunksize):
-            missing = [c for c in keep if c not in chunk.columns]
-            if missing:
-                raise DualityError(f"column(s) {', '.join(missing)} to keep are not in "
-                                   f"{source.name}")
+        with atomic_path(target) as tmp:
             try:
-                res = evaluate(fns, chunk, columns=columns)
-            except DualityError as exc:
-                raise DualityError(f"{source.name}, rows {start + 1}–{start + len(chunk)}: "
-                                   f"{exc}") from None
-            out = pd.concat([chunk[keep].reset_index(drop=True),
-                             res.reset_index(drop=True)], axis=1)
-            writer = _write_chunk(out, tmp, kind_out, writer, first=rows == 0)
-            rows += len(chunk)
-            bar.update(len(chunk))
-        if writer is not None and kind_out == "parquet":
-            writer.close()
-        elif rows == 0:
-            pd.DataFrame(columns=keep + list(fns)).to_csv(tmp, index=False)
-        os.replace(tmp, target)
-    except BaseException:
-        if writer is not None and kind_out == "parquet":
-            try:
-                writer.close()
-            except Exception:  # noqa: BLE001 - already failing
-                pass
-        if os.path.exists(tmp):
-            os.remove(tmp)
-        raise
+                for start, chunk in _chunks(source, kind_in, chunksize):
+                    missing = [c for c in keep if c not in chunk.columns]
+                    if missing:
+                        raise DualityError(f"column(s) {', '.join(missing)} to keep are not "
+                                           f"in {source.name}")
+                    try:
+                        res = evaluate(fns, chunk, columns=columns)
+                    except DualityError as exc:
+                        raise DualityError(f"{source.name}, rows {start + 1}–"
+                                           f"{start + len(chunk)}: {exc}") from None
+                    out = pd.concat([chunk[keep].reset_index(drop=True),
+                                     res.reset_index(drop=True)], axis=1)
+                    writer = _write_chunk(out, tmp, kind_out, writer, first=rows == 0)
+                    rows += len(chunk)
+                    bar.update(len(chunk))
+                if rows == 0 and writer is None:
+                    pd.DataFrame(columns=keep + list(fns)).to_csv(tmp, index=False)
+            finally:
+                if writer is not None and kind_out == "parquet":
+                    writer.close()
     finally:
         bar.close()
     return rows

@@ -15,7 +15,7 @@ Schema
 ------
 Top level
     ``title`` (text, required), ``description`` (text), ``exports`` (list of target
-    names: python, latex, latex-document, json, r, julia, octave, c, stata, bundle),
+    names: those of :data:`duality.apply.export.REGISTRY` — python, latex, json, c, …),
     and the tables ``[model]`` (required), ``[baseline]`` (required),
     ``[variants.<name>]`` (any number) and ``[data]`` (optional).
 
@@ -30,15 +30,15 @@ Top level
         The function as text (see :mod:`duality.model.formula`).  Exactly one of ``formula``
         and ``form``.
     ``form`` and ``size``
-        A flexible form from the catalogue instead of a formula: ``translog_cost``,
-        ``generalized_leontief_cost`` (technology, cost side) or ``aids_expenditure``
-        (preference, expenditure side), with ``size`` prices (an integer >= 2).
+        A flexible form from the dual-side catalogue instead of a formula (a name in
+        :data:`duality.solve.dual_forms.DUAL_FORMS`, e.g. ``translog_cost``, which also
+        fixes role and side), with ``size`` prices (an integer >= 2).
     ``quantities``
         List of input or good names.  Required for the primal side; on the dual side
         they default from the price names (``w1 -> x1``).
     ``prices``
         List of price names, one per quantity.  Required with ``formula``; with ``form``
-        they default to ``w1..wn`` (cost forms) or ``p1..pn`` (AIDS).
+        they default to the form's price letter: ``w1..wn`` (cost forms) or ``p1..pn`` (AIDS).
     ``output``, ``output_price``
         Technology only: the names of the output (default ``y``) and its price
         (default ``p``).
@@ -120,7 +120,6 @@ import math
 import numbers
 import os
 import re
-import tempfile
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -132,17 +131,12 @@ import tomli_w
 from ..errors import DualityError, FormulaError
 from ..model import base as _model, dual_side
 from ..solve import dual_forms
+from .export import NAMES as EXPORT_NAMES
+from .files import write_atomic
 
-#: export target names accepted in ``exports`` (the exporters arrive separately)
-EXPORT_TARGETS = ("python", "latex", "latex-document", "json", "r", "julia", "octave", "c",
-                  "stata", "bundle")
-ROLES = ("technology", "preference")
-SIDES = {"primal": None, "cost": "technology", "profit": "technology",
-         "expenditure": "preference", "indirect_utility": "preference"}
-#: form -> (role, side, default price letter)
-FORMS = {"translog_cost": ("technology", "cost", "w"),
-         "generalized_leontief_cost": ("technology", "cost", "w"),
-         "aids_expenditure": ("preference", "expenditure", "p")}
+ROLES = _model.ROLES
+#: side -> the role it belongs to (None: either)
+SIDES = {"primal": None, **_model.SIDES}
 
 _NAME = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
 _TOP_KEYS = ("title", "description", "exports", "model", "baseline", "variants", "data")
@@ -176,7 +170,7 @@ class ModelSpec:
         """The model's price names (given, or the defaults of a flexible form)."""
         if self.prices is not None:
             return self.prices
-        letter = FORMS[self.form][2]
+        letter = dual_forms.BY_NAME[self.form].price_letter
         return tuple(f"{letter}{i + 1}" for i in range(self.size))
 
     @property
@@ -238,7 +232,7 @@ class Scenario:
         key = "model.form" if spec.form is not None else "model.formula"
         try:
             if spec.form is not None:
-                builder = getattr(dual_forms, spec.form)
+                builder = dual_forms.BY_NAME[spec.form].build
                 prices = list(spec.prices) if spec.prices is not None else spec.size
                 qkey = "goods" if spec.role == "preference" else "quantities"
                 kw = dict(params=dict(spec.parameters), name=self.title,
@@ -259,7 +253,7 @@ class Scenario:
                                           utility=spec.utility, params=dict(spec.parameters),
                                           name=self.title)
             else:
-                fn = getattr(dual_side, f"{spec.side}_function")
+                fn = dual_side.BUILDERS[spec.side]
                 qs = None if spec.quantities is None else list(spec.quantities)
                 if spec.role == "technology":
                     m = fn(spec.formula, list(spec.prices), qs, output=spec.output,
@@ -432,9 +426,9 @@ class _Validator:
             self.fail("exports", f"expected a list of export target names, got {_kind(exports)}")
         for i, t in enumerate(exports):
             self.text(t, f"exports[{i}]")
-            if t not in EXPORT_TARGETS:
+            if t not in EXPORT_NAMES:
                 self.fail(f"exports[{i}]", f"unknown export target {t!r}; expected one of "
-                          + ", ".join(EXPORT_TARGETS))
+                          + ", ".join(EXPORT_NAMES))
             if t in exports[:i]:
                 self.fail(f"exports[{i}]", f"export target {t!r} is listed twice")
         return Scenario(title=title, description=description, model=model,
@@ -446,12 +440,12 @@ class _Validator:
         form = t.get("form")
         if form is not None:
             self.text(form, "model.form")
-            if form not in FORMS:
+            if form not in dual_forms.BY_NAME:
                 self.fail("model.form", f"unknown form {form!r}; expected one of "
-                          + ", ".join(FORMS))
+                          + ", ".join(dual_forms.BY_NAME))
             if "formula" in t:
                 self.fail("model.formula", "give either 'formula' or 'form', not both")
-            frole, fside, _ = FORMS[form]
+            frole, fside = dual_forms.BY_NAME[form].role, dual_forms.BY_NAME[form].side
             if "size" not in t:
                 self.fail("model.size", f"missing required key: the number of prices of "
                           f"the {form} form (an integer, at least 2)")
@@ -678,84 +672,20 @@ def dumps(s: Scenario) -> str:
     return tomli_w.dumps(to_dict(s), multiline_strings=False)
 
 
-def _write_and_sync(fd: int, data: bytes) -> None:
-    view = memoryview(data)
-    while view:
-        n = os.write(fd, view)
-        view = view[n:]
-    os.fsync(fd)
-
-
 def save(s: Scenario, path: str | os.PathLike | None = None, *, backup: bool = True) -> Path:
     """Write the scenario atomically and return the path written.
 
     The text goes to a temporary file in the same folder, is flushed to disk, then
-    replaces the target in one step (``os.replace``).  The previous version is kept as
-    ``<name>.bak`` (e.g. ``bakery.toml.bak``) when ``backup`` is true.  If anything fails
-    part-way, the original file is untouched and the temporary file is removed.
+    replaces the target in one step (:func:`duality.apply.files.write_atomic`).  The
+    previous version is kept as ``<name>.bak`` (e.g. ``bakery.toml.bak``) when ``backup``
+    is true.  If anything fails part-way, the original file is untouched and the temporary
+    file is removed.
     """
     target = Path(path) if path is not None else s.path
     if target is None:
         raise DualityError("save: no path given and the scenario has none")
-    data = dumps(s).encode("utf-8")
-    folder = target.parent if str(target.parent) else Path(".")
-    try:
-        fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
-    except OSError as exc:
-        raise DualityError(f"{target}: cannot write in {folder} ({exc.strerror or exc})") \
-            from None
-    try:
-        try:
-            _write_and_sync(fd, data)
-        finally:
-            os.close(fd)
-        if backup and target.exists():
-            bak = target.with_name(target.name + ".bak")
-            _copy_synced(target, bak)
-        os.replace(tmp, target)
-    except BaseException as exc:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        if isinstance(exc, OSError):
-            raise DualityError(f"{target}: could not save ({exc.strerror or exc}); the "
-                               "previous file is unchanged") from exc
-        raise
-    _sync_dir(folder)
-    return target
-
-
-def _copy_synced(src: Path, dst: Path) -> None:
-    """Copy ``src`` to ``dst`` atomically too (a half-written backup is never left)."""
-    data = src.read_bytes()
-    fd, tmp = tempfile.mkstemp(prefix=f".{dst.name}.", suffix=".tmp", dir=dst.parent)
-    try:
-        try:
-            _write_and_sync(fd, data)
-        finally:
-            os.close(fd)
-        os.replace(tmp, dst)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
-
-
-def _sync_dir(folder: Path) -> None:
-    try:
-        fd = os.open(folder, os.O_RDONLY)
-    except OSError:  # pragma: no cover - e.g. Windows
-        return
-    try:
-        os.fsync(fd)
-    except OSError:  # pragma: no cover
-        pass
-    finally:
-        os.close(fd)
+    return write_atomic(target, dumps(s), backup=backup, what="save")
 
 
 __all__ = ["Scenario", "ModelSpec", "Baseline", "Variant", "DataSpec", "load", "loads",
-           "dumps", "save", "from_dict", "to_dict", "EXPORT_TARGETS", "FORMS"]
+           "dumps", "save", "from_dict", "to_dict"]

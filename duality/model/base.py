@@ -19,15 +19,11 @@ import sympy as sp
 from ..errors import DualityError, ModelError
 from .formula import parse
 from .lambdas import numpy_function
+from .roles import DUAL_KINDS, FUNCTIONS, ROLE_OF, ROLES as _ROLES, Function, Role
 
-ROLES = ("technology", "preference")
-#: side -> (role, level kind, what the formula may contain besides prices and params)
-SIDES = {
-    "cost": "technology",
-    "profit": "technology",
-    "expenditure": "preference",
-    "indirect_utility": "preference",
-}
+ROLES = tuple(_ROLES)
+#: dual side -> the role it belongs to
+SIDES = {kind: ROLE_OF[kind] for kind in DUAL_KINDS}
 _NAME = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
 _ASSUMPTIONS = ("positive", "negative", "nonnegative", "nonpositive", "real")
 
@@ -115,6 +111,18 @@ class Model:
         return self.role == "technology"
 
     @property
+    def role_info(self) -> Role:
+        """The role in words: primal function, duals, level, quantity, level curve
+        (:mod:`duality.model.roles`)."""
+        return _ROLES[self.role]
+
+    @property
+    def given(self) -> Function:
+        """The function this model was given as (production or utility function, or a
+        dual), with its label and head letters."""
+        return FUNCTIONS[self.role_info.primal if self.is_primal else self.side]
+
+    @property
     def numeric_expr(self) -> sp.Expr:
         """The function with every parameter value substituted."""
         return self.expr.xreplace(self.values)
@@ -164,14 +172,10 @@ class Model:
         """One line: role, formula and parameter values."""
         vals = ", ".join(f"{p.name}={p.value:g}" if p.value is not None else f"{p.name} free"
                          for p in self.params)
-        if not self.is_primal:
-            head = {"cost": "c", "profit": "π", "expenditure": "e", "indirect_utility": "v"}
-            args = ", ".join(map(str, self.dual_args))
-            return (f"{self.side.replace('_', ' ')} function {head[self.side]}({args}) = "
-                    f"{self.expr}" + (f"  ({vals})" if vals else ""))
-        what = "production function" if self.is_technology else "utility function"
-        lhs = str(self.level)
-        return f"{what} {lhs} = {self.expr}" + (f"  ({vals})" if vals else "")
+        f = self.given
+        lhs = str(self.level) if self.is_primal else \
+            f"{f.letter}({', '.join(map(str, self.dual_args))})"
+        return f"{f.label} {lhs} = {self.expr}" + (f"  ({vals})" if vals else "")
 
 
 # -- constructors --------------------------------------------------------------------
@@ -284,7 +288,7 @@ def _build(role: str, formula: str | sp.Expr, quantities: list[str], prices: lis
     if len(prices) != len(quantities):
         raise ModelError(f"{len(quantities)} quantities but {len(prices)} prices; "
                          "give one price per quantity")
-    qword = "input" if role == "technology" else "good"
+    qword = _ROLES[role].quantity
     values, psyms = _names_and_parameters(role, [(qword, quantities), ("price", prices)],
                                           level, output_price, income, params, assume)
     qsyms = {q: sp.Symbol(q, positive=True) for q in quantities}
@@ -327,7 +331,7 @@ def _names_and_parameters(role: str, groups: list, level: str, output_price: str
     """
     params = dict(params or {})
     assume = dict(assume or {})
-    extra = [("output" if role == "technology" else "utility level", [level])]
+    extra = [(_ROLES[role].level, [level])]
     if output_price is not None:
         extra.append(("output price", [output_price]))
     if income is not None:
@@ -391,7 +395,7 @@ def _check_monotone(model: Model) -> None:
             val = _safe_eval(fn, up)
             if val is not None and val < base - 1e-9 * max(1.0, abs(base)):
                 where = ", ".join(f"{q}={v:g}" for q, v in zip(model.quantities, x))
-                what = "production function" if model.is_technology else "utility function"
+                what = model.given.label
                 raise ModelError(
                     f"the {what} decreases in {model.quantities[i]} at {where}; it must be "
                     "non-decreasing in every quantity (check the sign of its parameters)")
@@ -399,7 +403,7 @@ def _check_monotone(model: Model) -> None:
         raise ModelError("the formula has no real, finite value at any quantity point tried "
                          "(all quantities 1, 2, 5, 10 and random points in [1, 10])")
     if len(values) == 1:
-        what = "production function" if model.is_technology else "utility function"
+        what = model.given.label
         raise ModelError(f"the {what} takes the same value ({values.pop():g}) at every "
                          "quantity point tried (all quantities 1, 2, 5, 10 and random points "
                          "in [1, 10]); no quantity changes it (check its parameters)")
@@ -445,7 +449,7 @@ def _build_dual(side: str, formula, prices, quantities, *, level: str,
     if len(quantities) != len(prices):
         raise ModelError(f"{len(prices)} prices but {len(quantities)} quantities; give one "
                          "quantity name per price")
-    qword = "input" if role == "technology" else "good"
+    qword = _ROLES[role].quantity
     values, psyms = _names_and_parameters(role, [("price", prices), (qword, quantities)],
                                           level, output_price, income, params, assume)
     price_syms = {p: sp.Symbol(p, positive=True) for p in prices}

@@ -67,5 +67,10 @@ def indirect_utility_function(formula, prices: Sequence[str], goods: Sequence[st
                        name=name, form=form)
 
 
+#: side -> the constructor of a model given on that side
+BUILDERS = {"cost": cost_function, "profit": profit_function,
+            "expenditure": expenditure_function,
+            "indirect_utility": indirect_utility_function}
+
 __all__ = ["cost_function", "profit_function", "expenditure_function",
-           "indirect_utility_function", "SIDES"]
+           "indirect_utility_function", "SIDES", "BUILDERS"]

@@ -30,7 +30,7 @@ from .budget import run_with_budget
 from ..errors import BudgetExceeded, DualityError, NoSolutionError
 from .forms import recognise
 from ..model.base import Model
-from .result import Derived, Solution
+from .result import Derived, Evaluators, Solution, Unavailable
 from ..model.lambdas import numpy_function
 from sympy.solvers.solveset import NonlinearError
 
@@ -97,58 +97,48 @@ def _need(model: Model, role: str, what: str) -> None:
 def _derived(model: Model, kind: str, demand_kind: str, args: tuple, sol: Solution,
              numeric_kind: str) -> Derived:
     positive = frozenset(a for a in args if a.is_positive)
-    values = model.values
     names = [str(q) for q in model.quantities]
-    given = sol.extra.get("numeric")
-    if given is not None:  # numeric evaluators from the dual side (inversions)
-        return _derived_from_evaluators(model, kind, demand_kind, args, sol, given)
+    if sol.evaluators is not None:  # numeric evaluators from the dual side (inversions)
+        return _derived_from_evaluators(model, kind, demand_kind, args, sol, positive)
     batch = _numeric.Batch(model, numeric_kind) if sol.route == "numeric" else None
 
-    def numeric_value(point):
-        return batch(point)["value"]
+    def make(what, name, expr, numeric, **more):
+        return Derived(kind=what, args=args, expr=expr, route=sol.route, method=sol.method,
+                       params=model.values, source=sol.source, notes=sol.notes,
+                       conditions=sol.conditions, name=name, positive_args=positive,
+                       numeric=None if expr is not None else numeric, solver=batch, **more)
 
     def factory():
         out = {}
         if kind == "profit":
             yname = str(model.level)
-            yexpr = sol.extra.get("supply")
-            out[yname] = Derived(
-                "supply", args, yexpr, sol.route, sol.method, values, sol.source,
-                sol.notes, sol.conditions, yname, positive,
-                numeric=None if yexpr is not None else (lambda pt: batch(pt)["y"]),
-                solver=batch)
+            out[yname] = make("supply", yname, sol.supply, lambda pt: batch(pt).output)
         for i, name in enumerate(names):
             e = None if sol.demands is None else sol.demands[i]
-            out[name] = Derived(
-                demand_kind, args, e, sol.route, sol.method, values, sol.source, sol.notes,
-                sol.conditions, name, positive,
-                numeric=None if e is not None else (lambda pt, i=i: batch(pt)["x"][i]),
-                solver=batch)
+            out[name] = make(demand_kind, name, e,
+                             lambda pt, i=i: batch(pt).quantities[i])
         return out
 
-    return Derived(kind, args, sol.value, sol.route, sol.method, values, sol.source,
-                   sol.notes, sol.conditions, kind, positive,
-                   numeric=numeric_value if sol.value is None else None,
-                   demand_factory=factory, solver=batch)
+    return make(kind, kind, sol.value, lambda pt: batch(pt).value, demand_factory=factory)
 
 
-def _derived_from_evaluators(model, kind, demand_kind, args, sol, ev) -> Derived:
-    positive = frozenset(a for a in args if a.is_positive)
-    values = model.values
+def _derived_from_evaluators(model, kind, demand_kind, args, sol, positive) -> Derived:
+    ev = sol.evaluators
     names = [str(q) for q in model.quantities]
+
+    def make(what, name, numeric, **more):
+        return Derived(kind=what, args=args, expr=None, route="numeric", method=sol.method,
+                       params=model.values, notes=sol.notes, name=name,
+                       positive_args=positive, numeric=numeric, **more)
 
     def factory():
         out = {}
         if kind == "profit":
-            out[str(model.level)] = Derived("supply", args, None, "numeric", sol.method,
-                                            values, None, sol.notes, (), str(model.level),
-                                            positive, numeric=ev["y"])
+            out[str(model.level)] = make("supply", str(model.level), ev.output)
         for i, name in enumerate(names):
-            out[name] = Derived(demand_kind, args, None, "numeric", sol.method, values, None,
-                                sol.notes, (), name, positive, numeric=ev["x"][i])
+            out[name] = make(demand_kind, name, ev.quantities[i])
         return out
-    return Derived(kind, args, None, "numeric", sol.method, values, None, sol.notes, (),
-                   kind, positive, numeric=ev["value"], demand_factory=factory)
+    return make(kind, kind, ev.value, demand_factory=factory)
 
 
 # -- the dual side -------------------------------------------------------------------------
@@ -163,27 +153,32 @@ def _dual_spending(model: Model, budget) -> Solution:
         _dual.check_monotone_level(model, model.expr, m)
         e = _dual.invert(model, model.expr, m, u, budget, notes, "v(p, m) = u for m")
         if e is not None:
-            return Solution(e, tuple(d.xreplace({m: e}) for d in g.demands), "symbolic",
-                            "v(p, m) = u solved for m; Hicksian demands are the Marshallian "
-                            "ones at m = e(p, u)", g.source, tuple(notes))
+            return Solution(value=e, demands=tuple(d.xreplace({m: e}) for d in g.demands),
+                            route="symbolic",
+                            method="v(p, m) = u solved for m; Hicksian demands are the "
+                            "Marshallian ones at m = e(p, u)", source=g.source,
+                            notes=tuple(notes))
         value, xs = _dual.numeric_inverse(model, model.expr, m, u, list(g.demands), log=True)
-        return Solution(None, None, "numeric", "v(p, m) = u solved for m by bisection",
-                        None, tuple(notes), (), {"numeric": {"value": value, "x": xs}})
+        return Solution(value=None, demands=None, route="numeric",
+                        method="v(p, m) = u solved for m by bisection", notes=tuple(notes),
+                        evaluators=Evaluators(value=value, quantities=tuple(xs)))
     # profit side: c(w, y) = p*·y − π(p*, w) where supply ∂π/∂p = y
     p, y = model.output_price, model.level
-    supply = g.extra["supply"]
+    supply = g.supply
     _dual.check_monotone_level(model, supply, p)
     pstar = _dual.invert(model, supply, p, y, budget, notes, "∂π/∂p = y for p")
     if pstar is not None:
         c = (p * y - model.expr).xreplace({p: pstar})
-        return Solution(c, tuple(d.xreplace({p: pstar}) for d in g.demands), "symbolic",
-                        "c(w, y) = max_p p·y − π(p, w), at the price where supply is y",
-                        g.source, tuple(notes))
+        return Solution(value=c, demands=tuple(d.xreplace({p: pstar}) for d in g.demands),
+                        route="symbolic",
+                        method="c(w, y) = max_p p·y − π(p, w), at the price where supply "
+                        "is y", source=g.source, notes=tuple(notes))
     value, xs = _dual.numeric_inverse(model, supply, p, y,
                                       [p * y - model.expr] + list(g.demands), log=True)
-    return Solution(None, None, "numeric", "c(w, y) = max_p p·y − π(p, w) by bisection on "
-                    "the supply function", None, tuple(notes), (),
-                    {"numeric": {"value": xs[0], "x": xs[1:]}})
+    return Solution(value=None, demands=None, route="numeric",
+                    method="c(w, y) = max_p p·y − π(p, w) by bisection on the supply "
+                    "function", notes=tuple(notes),
+                    evaluators=Evaluators(value=xs[0], quantities=tuple(xs[1:])))
 
 
 def _dual_indirect(model: Model, budget) -> Solution:
@@ -195,12 +190,14 @@ def _dual_indirect(model: Model, budget) -> Solution:
     _dual.check_monotone_level(model, model.expr, u)
     v = _dual.invert(model, model.expr, u, m, budget, notes, "e(p, u) = m for u")
     if v is not None:
-        return Solution(v, tuple(d.xreplace({u: v}) for d in g.demands), "symbolic",
-                        "e(p, u) = m solved for u; Marshallian demands are the Hicksian ones "
-                        "at u = v(p, m)", g.source, tuple(notes))
+        return Solution(value=v, demands=tuple(d.xreplace({u: v}) for d in g.demands),
+                        route="symbolic",
+                        method="e(p, u) = m solved for u; Marshallian demands are the "
+                        "Hicksian ones at u = v(p, m)", source=g.source, notes=tuple(notes))
     value, xs = _dual.numeric_inverse(model, model.expr, u, m, list(g.demands), log=False)
-    return Solution(None, None, "numeric", "e(p, u) = m solved for u by bisection", None,
-                    tuple(notes), (), {"numeric": {"value": value, "x": xs}})
+    return Solution(value=None, demands=None, route="numeric",
+                    method="e(p, u) = m solved for u by bisection", notes=tuple(notes),
+                    evaluators=Evaluators(value=value, quantities=tuple(xs)))
 
 
 def _dual_numeric_profit(model: Model, spend: Solution, notes: list) -> Solution:
@@ -214,9 +211,11 @@ def _dual_numeric_profit(model: Model, spend: Solution, notes: list) -> Solution
     value, xs = _dual.numeric_inverse(model, mc, y, p,
                                       [p * y - spend.value, y] + list(spend.demands),
                                       log=True)
-    return Solution(None, None, "numeric", "π(p, w) = max_y p·y − c(w, y) by bisection on "
-                    "marginal cost", None, tuple(notes), (),
-                    {"numeric": {"value": xs[0], "y": xs[1], "x": xs[2:]}})
+    return Solution(value=None, demands=None, route="numeric",
+                    method="π(p, w) = max_y p·y − c(w, y) by bisection on marginal cost",
+                    notes=tuple(notes),
+                    evaluators=Evaluators(value=xs[0], output=xs[1],
+                                          quantities=tuple(xs[2:])))
 
 
 def _spending_result(model: Model, kind: str, demand_kind: str, budget) -> Derived:
@@ -235,17 +234,24 @@ def _spending_solution(model: Model, budget) -> Solution:
     notes = list(notes)
     if match is not None:
         core = match.form.solve(match.pieces, xs, ws, match.to_core(level))
-        return Solution(core.value, core.demands, "catalogue",
-                        f"recognised as {match.description}", match.form.source,
-                        tuple(notes) + core.notes, tuple(match.conditions) + core.conditions,
-                        {"match": match})
+        return Solution(value=core.value, demands=core.demands, route="catalogue",
+                        method=f"recognised as {match.description}", source=match.form.source,
+                        notes=tuple(notes) + core.notes,
+                        conditions=tuple(match.conditions) + core.conditions, match=match)
     notes.append("not a catalogue form")
     found = _symbolic(model, budget, notes, _spending_candidates, _verify_spending)
     if found is not None:
         method, value, demands = found
-        return Solution(value, demands, "symbolic", method, None, tuple(notes))
+        return Solution(value=value, demands=demands, route="symbolic", method=method,
+                        notes=tuple(notes))
     _numeric_allowed(model, notes)
-    return Solution(None, None, "numeric", _numeric.SOLVER, None, tuple(notes))
+    return _numeric_solution(notes)
+
+
+def _numeric_solution(notes: list) -> Solution:
+    """The batched numeric route (:mod:`duality.solve.numeric`), after ``notes``."""
+    return Solution(value=None, demands=None, route="numeric", method=_numeric.SOLVER,
+                    notes=tuple(notes))
 
 
 def _numeric_allowed(model: Model, notes: list) -> None:
@@ -268,10 +274,11 @@ def _symbolic(model: Model, budget, notes: list, candidates_fn, verify_fn):
 def first_verified(methods, budget, notes: list, run, verify, *, deadline=None):
     """The first candidate of the first method that passes ``verify``, or None.
 
-    ``run(method, remaining_seconds)`` returns a list of candidates or a string saying why
-    the method does not apply (it runs in a worker under the budget); ``verify(candidate)``
-    returns ``(ok, why)``.  Every method that fails, times out or finds nothing leaves a
-    note saying so.  Returns ``(method, candidate)``.
+    ``run(method, remaining_seconds)`` returns a list of candidates or an
+    :class:`~duality.solve.result.Unavailable` saying why the method does not apply (it
+    runs in a worker under the budget); ``verify(candidate)`` returns ``(ok, why)``.
+    Every method that fails, times out or finds nothing leaves a note saying so.
+    Returns ``(method, candidate)``.
     """
     if deadline is None:
         deadline = None if budget is None else time.monotonic() + float(budget)
@@ -292,8 +299,8 @@ def first_verified(methods, budget, notes: list, run, verify, *, deadline=None):
         except Exception as exc:  # noqa: BLE001 - a failing route is a note, not an error
             notes.append(f"{method} route failed: {type(exc).__name__}: {exc}")
             continue
-        if isinstance(cands, str):
-            notes.append(f"{method} route not applicable: {cands}")
+        if isinstance(cands, Unavailable):
+            notes.append(f"{method} route not applicable: {cands.reason}")
             continue
         rejected = []
         for cand in cands:
@@ -313,7 +320,8 @@ def first_verified(methods, budget, notes: list, run, verify, *, deadline=None):
 
 
 def _spending_candidates(method: str, model: Model):
-    """Worker: candidate (value, demands) pairs of min w·x s.t. f = level, or a reason."""
+    """Worker: candidate (value, demands) pairs of min w·x s.t. f = level, or
+    :class:`Unavailable` with the reason the method does not apply."""
     xs, ws, y = list(model.quantities), list(model.prices), model.level
     f = model.expr
     n = len(xs)
@@ -328,9 +336,9 @@ def _spending_candidates(method: str, model: Model):
         try:
             A, b = sp.linear_eq_to_matrix(eqs, zs)
         except NonlinearError:
-            return "the first-order conditions are not linear in log-quantities"
+            return Unavailable("the first-order conditions are not linear in log-quantities")
         if A.det() == 0:
-            return "the log-linear system is singular"
+            return Unavailable("the log-linear system is singular")
         zsol = A.LUsolve(b)
         demands = tuple(_exp_of_logs(z) for z in zsol)
         value = sp.Add(*[w * d for w, d in zip(ws, demands)])
@@ -345,7 +353,8 @@ def _spending_candidates(method: str, model: Model):
         for i in range(1, n):
             r = (grads[i] / grads[0]).xreplace(sub)
             if not _free_of_numerically(r, xs[0]):
-                return "the tangency conditions depend on scale (not homothetic)"
+                return Unavailable("the tangency conditions depend on scale "
+                                   "(not homothetic)")
             # the slope ratio does not depend on scale, so read it off at x1 = 1
             r = sp.powsimp(sp.simplify(r.xreplace({xs[0]: 1})), force=True)
             ratios.append(sp.Eq(r, ws[i] / ws[0]))
@@ -477,15 +486,16 @@ def _indirect_solution(model: Model, budget) -> Solution:
     xs, ps, m = list(model.quantities), list(model.prices), model.income
     spend = _spending_solution(model, budget)
     notes = list(spend.notes)
-    match = spend.extra.get("match")
+    match = spend.match
     if match is not None:
         core_level, conds = match.form.level(match.pieces, xs, ps, m)
         v = match.from_core(core_level)
         marsh = match.form.marshallian(match.pieces, xs, ps, m)
         if marsh is None:
             marsh = tuple(d.xreplace({model.level: v}) for d in spend.demands)
-        return Solution(v, tuple(marsh), "catalogue", spend.method, spend.source,
-                        tuple(notes), tuple(match.conditions) + tuple(conds))
+        return Solution(value=v, demands=tuple(marsh), route="catalogue",
+                        method=spend.method, source=spend.source, notes=tuple(notes),
+                        conditions=tuple(match.conditions) + tuple(conds))
     if spend.route == "symbolic":
         try:
             cands = run_with_budget(_invert_candidates, spend.value, model.level, m,
@@ -500,12 +510,12 @@ def _indirect_solution(model: Model, budget) -> Solution:
             marsh = tuple(d.xreplace({model.level: v}) for d in spend.demands)
             ok, why = _verify_utility(model, v, marsh)
             if ok:
-                return Solution(v, marsh, "symbolic",
-                                f"e(p, u) = m solved for u; e by the {spend.method} route",
-                                None, tuple(notes))
+                return Solution(value=v, demands=marsh, route="symbolic",
+                                method=f"e(p, u) = m solved for u; e by the {spend.method} "
+                                "route", notes=tuple(notes))
             notes.append(f"candidate v(p, m) rejected by the numeric check: {why}")
     _numeric_allowed(model, notes)
-    return Solution(None, None, "numeric", _numeric.SOLVER, None, tuple(notes))
+    return _numeric_solution(notes)
 
 
 def _invert_candidates(e, u, m):
@@ -589,7 +599,7 @@ def _profit_solution(model: Model, budget) -> Solution:
     if not model.free_params:
         _check_returns_numerically(model)
     _numeric_allowed(model, notes)
-    return Solution(None, None, "numeric", _numeric.SOLVER, None, tuple(notes))
+    return _numeric_solution(notes)
 
 
 def _profit_from_supply(model, spend: Solution, ystar, notes, conds, method,
@@ -599,9 +609,10 @@ def _profit_from_supply(model, spend: Solution, ystar, notes, conds, method,
     if value is None:
         value = p * ystar - spend.value.xreplace({y: ystar})
     route = "catalogue" if spend.route == "catalogue" else "symbolic"
-    return Solution(value, demands, route, f"{method}; cost function {spend.method}",
-                    spend.source, tuple(notes), tuple(spend.conditions) + tuple(conds),
-                    {"supply": ystar})
+    return Solution(value=value, demands=demands, route=route,
+                    method=f"{method}; cost function {spend.method}", source=spend.source,
+                    notes=tuple(notes), conditions=tuple(spend.conditions) + tuple(conds),
+                    supply=ystar)
 
 
 def _scale_elasticity(c, y, prices):
@@ -663,19 +674,21 @@ def _check_returns_numerically(model: Model) -> None:
             "needs decreasing returns to scale")
 
 
-def duals(model: Model, *, budget: float | None = DEFAULT_BUDGET) -> dict[str, Derived | str]:
+def duals(model: Model, *,
+          budget: float | None = DEFAULT_BUDGET) -> dict[str, Derived | Unavailable]:
     """Every dual of ``model`` by kind: ``cost`` and ``profit`` for a technology,
     ``indirect_utility`` and ``expenditure`` for a preference.  A dual that does not exist
     (:class:`NoSolutionError`, e.g. no profit function under constant returns) maps to
-    the reason, as text; any other error is raised."""
+    an :class:`~duality.solve.result.Unavailable` with the reason; any other error is
+    raised."""
     makers = ((("cost", cost), ("profit", profit)) if model.is_technology else
               (("indirect_utility", indirect_utility), ("expenditure", expenditure)))
-    out: dict[str, Derived | str] = {}
+    out: dict[str, Derived | Unavailable] = {}
     for kind, make in makers:
         try:
             out[kind] = make(model, budget=budget)
         except NoSolutionError as exc:
-            out[kind] = exc.reason
+            out[kind] = Unavailable(exc.reason)
     return out
 
 

@@ -19,7 +19,8 @@ from .budget import run_with_budget
 from ..errors import BudgetExceeded, NoSolutionError
 from ..model.lambdas import numpy_function
 from ..model.base import Model, _safe_eval
-from .dual_forms import DUAL_CATALOGUE
+from .dual_forms import BY_NAME as DUAL_FORMS
+from .points import sample_points
 from .result import Solution
 
 LEMMA = {"cost": "Shephard's lemma", "expenditure": "Shephard's lemma",
@@ -27,41 +28,31 @@ LEMMA = {"cost": "Shephard's lemma", "expenditure": "Shephard's lemma",
 
 
 def dual_source(model: Model) -> str | None:
-    form = DUAL_CATALOGUE.get(model.form)
-    return None if form is None else form["source"]
+    form = DUAL_FORMS.get(model.form)
+    return None if form is None else form.source
 
 
-def given(model: Model):
+def given(model: Model) -> Solution:
     """Solution of the function the model was given as, demands by its lemma."""
     e = model.expr
     ps = list(model.prices)
     if model.side in ("cost", "expenditure"):
         demands = tuple(sp.diff(e, p) for p in ps)
-        extra = {}
+        supply = None
     elif model.side == "profit":
         demands = tuple(-sp.diff(e, w) for w in ps)
-        extra = {"supply": sp.diff(e, model.output_price)}
+        supply = sp.diff(e, model.output_price)
     else:
         vm = sp.diff(e, model.income)
         demands = tuple(-sp.diff(e, p) / vm for p in ps)
-        extra = {}
+        supply = None
     src = dual_source(model)
     route = "catalogue" if src else "symbolic"
     what = model.form.replace("_", " ") + " " if model.form else ""
     method = (f"given as a {what}{model.side.replace('_', ' ')} function; demands by "
               f"{LEMMA[model.side]}")
-    return Solution(e, demands, route, method, src, (), (), extra)
-
-
-def _sample(model: Model, n: int = 6, seed: int = 3):
-    rng = np.random.default_rng(seed)
-    pts = []
-    for _ in range(n):
-        pt = {s: model.values.get(s, float(rng.uniform(0.2, 0.6))) for s in model.free_params}
-        pt.update({s: v for s, v in model.values.items()})
-        pt.update(zip(model.prices, rng.uniform(0.5, 3.0, len(model.prices))))
-        pts.append(pt)
-    return pts
+    return Solution(value=e, demands=demands, route=route, method=method, source=src,
+                    supply=supply)
 
 
 def _fn(expr, syms):
@@ -87,7 +78,7 @@ def invert(model: Model, expr, var, target, budget, notes: list, label: str):
     for cand in cands:
         g = _fn(cand, syms)
         ok = True
-        for pt in _sample(model):
+        for pt in sample_points(model, levels=False):
             pt = dict(pt)
             pt[target] = float(np.random.default_rng(len(pt)).uniform(1.0, 3.0)) \
                 if target.is_positive else 0.7

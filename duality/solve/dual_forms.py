@@ -18,30 +18,14 @@ the formula, checks values against them and imposes them.
 """
 from __future__ import annotations
 
-from typing import Mapping, Sequence
+from dataclasses import dataclass
+from typing import Callable, Mapping, Sequence
 
 import sympy as sp
 
 from ..model.dual_side import cost_function, expenditure_function
 from ..errors import ModelError
 from ..model.base import Model
-
-DUAL_CATALOGUE: dict[str, dict] = {
-    "translog_cost": {
-        "title": "translog cost function",
-        "source": "Christensen, Jorgenson and Lau, 'Transcendental logarithmic production "
-                  "frontiers', Review of Economics and Statistics 55 (1973) (from memory)"},
-    "generalized_leontief_cost": {
-        "title": "generalized Leontief cost function",
-        "source": "Diewert, 'An application of the Shephard duality theorem: a generalized "
-                  "Leontief production function', Journal of Political Economy 79 (1971) "
-                  "(from memory)"},
-    "aids_expenditure": {
-        "title": "Almost Ideal expenditure function",
-        "source": "Deaton and Muellbauer, 'An almost ideal demand system', American "
-                  "Economic Review 70 (1980) (from memory)"},
-}
-
 
 def _names(n_or_names, letter: str) -> list[str]:
     if isinstance(n_or_names, int):
@@ -174,5 +158,54 @@ def aids_share_equations(model: Model, *, index: str = "exact",
             + sym[f"b{i + 1}"] * (sp.log(m) - lnP) for i in range(n)]
 
 
-__all__ = ["DUAL_CATALOGUE", "translog_cost", "generalized_leontief_cost", "aids_expenditure",
+@dataclass(frozen=True)
+class DualForm:
+    """One flexible form of the dual-side catalogue.
+
+    ``build(prices, **options) -> Model`` is its builder (``prices`` a number or the price
+    names); ``role`` and ``side`` say which model it gives, ``price_letter`` how its
+    default price names begin, ``source`` where it was published.
+    """
+
+    name: str
+    title: str
+    source: str
+    role: str
+    side: str
+    price_letter: str
+    build: Callable[..., Model]
+
+
+#: the dual-side catalogue, in the order it is listed (the one source of it)
+DUAL_FORMS: tuple[DualForm, ...] = (
+    DualForm("translog_cost", "translog cost function",
+             "Christensen, Jorgenson and Lau, 'Transcendental logarithmic production "
+             "frontiers', Review of Economics and Statistics 55 (1973) (from memory)",
+             "technology", "cost", "w", translog_cost),
+    DualForm("generalized_leontief_cost", "generalized Leontief cost function",
+             "Diewert, 'An application of the Shephard duality theorem: a generalized "
+             "Leontief production function', Journal of Political Economy 79 (1971) "
+             "(from memory)",
+             "technology", "cost", "w", generalized_leontief_cost),
+    DualForm("aids_expenditure", "Almost Ideal expenditure function",
+             "Deaton and Muellbauer, 'An almost ideal demand system', American "
+             "Economic Review 70 (1980) (from memory)",
+             "preference", "expenditure", "p", aids_expenditure),
+)
+#: form name -> :class:`DualForm`
+BY_NAME: dict[str, DualForm] = {f.name: f for f in DUAL_FORMS}
+#: form name -> ``{"title", "source"}`` (derived from :data:`DUAL_FORMS`)
+DUAL_CATALOGUE: dict[str, dict[str, str]] = {
+    f.name: {"title": f.title, "source": f.source} for f in DUAL_FORMS}
+
+
+def get_form(name: str) -> DualForm:
+    """The :class:`DualForm` called ``name``; an unknown name's error lists the forms."""
+    if name not in BY_NAME:
+        raise ModelError(f"unknown dual-side form {name!r}; the forms are "
+                         f"{', '.join(BY_NAME)}")
+    return BY_NAME[name]
+
+
+__all__ = ["DualForm", "DUAL_FORMS", "BY_NAME", "get_form", "DUAL_CATALOGUE", "translog_cost", "generalized_leontief_cost", "aids_expenditure",
            "aids_share_equations"]

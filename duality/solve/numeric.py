@@ -29,7 +29,7 @@ from ..errors import NoSolutionError
 from ..model.base import Model
 from ..model.lambdas import numpy_function
 from . import batch
-from .result import NumericWarning
+from .result import BatchSolution, NumericWarning
 
 #: First-order conditions must hold to this (relative) accuracy for a point to count.
 KKT_TOL = 1e-9
@@ -319,8 +319,8 @@ class Batch:
     """Solve one problem at every point of a broadcast batch, remembering the last batch.
 
     ``kind`` is ``spending``, ``utility`` or ``profit``.  Calling with a point dict (symbol
-    -> array, as :class:`~duality.solve.result.Derived` passes it) returns a dict with
-    ``value``, ``x`` (one array per quantity), ``y`` (profit only) and ``ok``.
+    -> array, as :class:`~duality.solve.result.Derived` passes it) returns a
+    :class:`~duality.solve.result.BatchSolution`.
     """
 
     def __init__(self, model: Model, kind: str):
@@ -329,20 +329,20 @@ class Batch:
         self._last_key = None
         self._last = None
 
-    def __call__(self, point: dict) -> dict:
+    def __call__(self, point: dict) -> BatchSolution:
         key = tuple((str(k), np.asarray(v).tobytes(), np.shape(v)) for k, v in
                     sorted(point.items(), key=lambda kv: str(kv[0])))
         if key != self._last_key:
             self._last, self._last_key = self._solve(point), key
         out = self._last
-        bad = int((~out["ok"]).sum())
+        bad = int((~out.converged).sum())
         if bad:
             warnings.warn(f"the numeric solver did not converge at {bad} of "
-                          f"{out['ok'].size} point(s); those are returned as NaN",
+                          f"{out.converged.size} point(s); those are returned as NaN",
                           NumericWarning, stacklevel=3)
         return out
 
-    def _solve(self, point: dict) -> dict:
+    def _solve(self, point: dict) -> BatchSolution:
         m = self.model
         missing = [str(s) for s in self.comp.params if s not in point]
         if missing:
@@ -373,11 +373,11 @@ class Batch:
                 value[k], Y[k], X[k], ok[k] = profit_point(
                     F, float(flat[m.output_price][k]), prices[k])
         ys = np.full(ok.size, np.nan) if Y is None else Y
-        return {"value": value.reshape(shape), "x": [X[:, i].reshape(shape)
-                                                     for i in range(X.shape[1])],
-                "y": ys.reshape(shape), "ok": ok.reshape(shape),
-                "iterations": res.iterations.reshape(shape),
-                "residual": res.residual.reshape(shape)}
+        return BatchSolution(
+            value=value.reshape(shape),
+            quantities=tuple(X[:, i].reshape(shape) for i in range(X.shape[1])),
+            output=ys.reshape(shape), converged=ok.reshape(shape),
+            iterations=res.iterations.reshape(shape), residual=res.residual.reshape(shape))
 
 
 __all__ = ["Batch", "compile_model", "spending_point", "utility_point", "profit_point",

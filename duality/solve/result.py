@@ -18,15 +18,14 @@ import sympy as sp
 
 from ..errors import DomainError, DualityError
 from ..model.lambdas import numpy_function
+from ..model.roles import DUAL_KINDS, FUNCTIONS
+from .forms.base import Match
 
 ROUTES = ("catalogue", "symbolic", "numeric")
 
 #: kind -> (label, LaTeX head)
 KINDS: dict[str, tuple[str, str]] = {
-    "cost": ("cost function", "c"),
-    "profit": ("profit function", r"\pi"),
-    "expenditure": ("expenditure function", "e"),
-    "indirect_utility": ("indirect utility function", "v"),
+    **{k: (FUNCTIONS[k].label, FUNCTIONS[k].latex) for k in DUAL_KINDS},
     "conditional_demand": ("conditional input demand", "x"),
     "supply": ("output supply", "y"),
     "factor_demand": ("unconditional input demand", "x"),
@@ -44,7 +43,41 @@ class NumericWarning(UserWarning):
     """Some points of a batch could not be computed and were returned as NaN."""
 
 
-@dataclass(frozen=True, eq=False)
+@dataclass(frozen=True)
+class Unavailable:
+    """A result that does not exist, and why: e.g. no profit function under constant
+    returns to scale.  Falsy, and prints as its reason, so ``if d:`` and ``str(d)`` read
+    naturally where a result may be missing."""
+
+    reason: str
+
+    def __bool__(self) -> bool:
+        return False
+
+    def __str__(self) -> str:
+        return self.reason
+
+
+@dataclass(frozen=True, kw_only=True)
+class SolverReport:
+    """Per point, how the numeric solver did (arrays shaped like the point).
+
+    Attributes
+    ----------
+    iterations : ndarray of int
+        Newton iterations used.
+    residual : ndarray
+        Max-norm of the first-order conditions in logs after the last iteration.
+    converged : ndarray of bool
+        Whether the point met the tolerance (points that did not are NaN in results).
+    """
+
+    iterations: np.ndarray
+    residual: np.ndarray
+    converged: np.ndarray
+
+
+@dataclass(frozen=True, eq=False, kw_only=True)
 class Derived:
     """A derived function of prices (and output, income or utility level).
 
@@ -84,7 +117,7 @@ class Derived:
     positive_args: frozenset = frozenset()
     numeric: Callable[..., np.ndarray] | None = field(default=None, repr=False)
     demand_factory: Callable[[], dict] | None = field(default=None, repr=False)
-    solver: Callable[[dict], dict] | None = field(default=None, repr=False)
+    solver: Callable[[dict], "BatchSolution"] | None = field(default=None, repr=False)
 
     def __post_init__(self) -> None:
         if self.route not in ROUTES:
@@ -227,9 +260,9 @@ class Derived:
             return float(out.reshape(-1)[0])
         return out
 
-    def solver_report(self, **values) -> dict[str, np.ndarray]:
-        """Per point, how the numeric solver did: ``iterations``, ``residual`` (max-norm
-        of the first-order conditions in logs) and ``converged``.
+    def solver_report(self, **values) -> SolverReport:
+        """Per point, how the numeric solver did (:class:`SolverReport`: ``iterations``,
+        ``residual``, ``converged``).
 
         Only for numeric results; arguments as for calling the function.
         """
@@ -240,8 +273,8 @@ class Derived:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", NumericWarning)
             out = self.solver(point)
-        return {"iterations": out["iterations"], "residual": out["residual"],
-                "converged": out["ok"]}
+        return SolverReport(iterations=out.iterations, residual=out.residual,
+                            converged=out.converged)
 
     def _point(self, values: Mapping[str, object]) -> tuple[dict, bool]:
         names = {str(a): a for a in self.args}
@@ -318,12 +351,32 @@ def _first_bad(arr: np.ndarray, finite: bool = False) -> str:
     return f"{flat[idx]:g}" + (f" at index {idx}" if flat.size > 1 else "")
 
 
-__all__ = ["Derived", "KINDS", "ROUTES", "NumericWarning"]
+@dataclass(frozen=True, kw_only=True)
+class Evaluators:
+    """Numeric functions of a point dict (symbol -> array) for a dual with no closed form
+    (e.g. found by inverting the other dual): its value, one per quantity, and profit's
+    output supply."""
+
+    value: Callable[[dict], np.ndarray]
+    quantities: tuple[Callable[[dict], np.ndarray], ...]
+    output: Callable[[dict], np.ndarray] | None = None
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Solution:
-    """A solved problem: value, the optimal quantities, and how they were found."""
+    """A solved problem: value, the optimal quantities, and how they were found.
+
+    Attributes
+    ----------
+    value, demands : sympy expressions, or None on the numeric route
+    route, method, source, notes, conditions : as in :class:`Derived`
+    supply : sympy.Expr or None
+        Output supply of a profit problem, when it has a closed form.
+    match : Match or None
+        The catalogue match a catalogue solution came from (reused for the other dual).
+    evaluators : Evaluators or None
+        Numeric functions when the solution is numeric but not from the batched solver.
+    """
 
     value: sp.Expr | None
     demands: tuple[sp.Expr, ...] | None
@@ -332,4 +385,35 @@ class Solution:
     source: str | None = None
     notes: tuple[str, ...] = ()
     conditions: tuple = ()
-    extra: dict = field(default_factory=dict)
+    supply: sp.Expr | None = None
+    match: Match | None = None
+    evaluators: Evaluators | None = None
+
+
+@dataclass(frozen=True, kw_only=True)
+class BatchSolution:
+    """The numeric solver's answer at every point of a batch (arrays shaped like the
+    broadcast point; NaN where a point did not converge).
+
+    Attributes
+    ----------
+    value : ndarray
+        Minimal spending, maximal utility or maximal profit.
+    quantities : tuple of ndarray
+        The optimal quantity of each good or input, in model order.
+    output : ndarray
+        Output supplied (profit problems; NaN otherwise).
+    converged, iterations, residual : ndarray
+        As in :class:`SolverReport`.
+    """
+
+    value: np.ndarray
+    quantities: tuple[np.ndarray, ...]
+    output: np.ndarray
+    converged: np.ndarray
+    iterations: np.ndarray
+    residual: np.ndarray
+
+
+__all__ = ["Derived", "KINDS", "ROUTES", "NumericWarning", "Unavailable", "SolverReport",
+           "Solution", "Evaluators", "BatchSolution"]

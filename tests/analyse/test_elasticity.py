@@ -64,3 +64,35 @@ def test_numeric_route_elasticities_match_the_symbolic_route():
 def test_missing_point_values_are_named():
     with pytest.raises(dy.DualityError, match="need a value for y"):
         dy.elasticities(dy.technology("x1^0.3*x2^0.5", ["x1", "x2"]), w1=1, w2=1)
+
+
+def test_one_function_gives_substitution_elasticities_at_points_rows_and_in_closed_form():
+    # Cobb–Douglas cost c = y prod_i w_i^a_i (sum a_i = 1): c_i = a_i c / w_i,
+    # c_ij = a_i a_j c / (w_i w_j), c_ii = a_i (a_i - 1) c / w_i^2, hence σ_ij = 1 and
+    # σ_ii = (a_i - 1) / a_i, M_ij = 1 and ε_ij = a_j − δ_ij (Blackorby and Russell, AER 79
+    # (1989); Varian, Microeconomic Analysis, 3rd ed. (1992), ch. 4; from memory)
+    from duality.analyse.elasticity import substitution_elasticities
+    rng = np.random.default_rng(2)
+    a = np.array([0.2, 0.3, 0.5])
+    w = rng.uniform(0.5, 3.0, (40, 3))
+    c = rng.uniform(1.0, 9.0, 40) * np.prod(w ** a, axis=1)
+    g = a * c[:, None] / w
+    H = (a[:, None] * a[None, :]) * c[:, None, None] / (w[:, :, None] * w[:, None, :])
+    idx = np.arange(3)
+    H[:, idx, idx] = a * (a - 1) * c[:, None] / w ** 2
+    rows = substitution_elasticities(c, g, H, w)
+    off = ~np.eye(3, dtype=bool)
+    assert np.allclose(rows.allen_uzawa[:, off], 1.0, rtol=1e-12)
+    assert np.allclose(np.diagonal(rows.allen_uzawa, axis1=1, axis2=2), (a - 1) / a)
+    assert np.allclose(rows.morishima[:, off], 1.0, rtol=1e-12)
+    assert np.all(np.diagonal(rows.morishima, axis1=1, axis2=2) == 0)
+    assert np.allclose(rows.price, a[None, None, :] - np.eye(3)[None], atol=1e-12)
+    # one point gives the same numbers as its row
+    one = substitution_elasticities(c[7], g[7], H[7], w[7])
+    assert np.array_equal(one.allen_uzawa, rows.allen_uzawa[7])
+    assert np.array_equal(one.morishima, rows.morishima[7])
+    # and the closed-form matrices of dy.morishima come from the same function
+    cd = dy.cost(dy.technology("x1^0.2*x2^0.3*x3^0.5", ["x1", "x2", "x3"]))
+    M = dy.morishima(cd)
+    assert all(sp.simplify(M[i, j] - (0 if i == j else 1)) == 0
+               for i in range(3) for j in range(3))

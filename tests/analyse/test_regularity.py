@@ -2,6 +2,8 @@
 closed forms evaluated independently here, violation detection, and bad input."""
 from __future__ import annotations
 
+import json
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -164,8 +166,8 @@ def test_generalized_leontief_demands_match_diewert(rng):
     assert np.allclose(rep.rows["rts"], 1.0, rtol=1e-12)
     assert np.allclose(rep.rows[[f"output_elast_x{i}" for i in (1, 2, 3)]], 1.0, rtol=1e-12)
     # non-negative b_ij: GL is globally concave and monotone (Diewert 1971)
-    assert rep.summary["curvature"]["count"] == 0
-    assert rep.summary["monotonicity"]["count"] == 0
+    assert rep.summary.curvature.count == 0
+    assert rep.summary.monotonicity.count == 0
 
 
 # -- violations --------------------------------------------------------------------------------
@@ -204,11 +206,11 @@ def test_curvature_violations_are_the_rows_with_a_positive_eigenvalue(rng):
     rel = top / norm
     away = np.abs(rel - 0.05) > 1e-6
     assert ((~loose.rows["concave"].to_numpy())[away] == (rel > 0.05)[away]).all()
-    assert loose.summary["curvature"]["count"] < rep.summary["curvature"]["count"]
+    assert loose.summary.curvature.count < rep.summary.curvature.count
     labels = list(data.index[~rep.rows["concave"].to_numpy()])
     assert rep.violations("curvature") == labels
-    assert rep.summary["curvature"]["rows"] == labels
-    assert rep.summary["curvature"]["count"] == len(labels)
+    assert rep.summary.curvature.rows == labels
+    assert rep.summary.curvature.count == len(labels)
 
 
 # a small a_1 lets the share of x1 fall below zero; ay, gyy make ∂c/∂y < 0 at small y
@@ -229,7 +231,7 @@ def test_monotonicity_violations_at_negative_shares_and_falling_cost(rng):
     expect = bad_share | bad_y
     assert (rep.rows["monotone"].to_numpy() == ~expect).all()
     assert rep.violations("monotonicity") == list(data.index[expect])
-    assert rep.summary["monotonicity"]["count"] == int(expect.sum())
+    assert rep.summary.monotonicity.count == int(expect.sum())
 
 
 def test_observed_share_residuals(rng):
@@ -245,8 +247,13 @@ def test_observed_share_residuals(rng):
     assert np.allclose(rep.rows["resid_x1"], -noise, atol=1e-12)
     assert np.allclose(rep.rows["resid_x2"], noise, atol=1e-12)
     assert np.allclose(rep.rows["resid_x3"], 0, atol=1e-12)
-    assert rep.summary["share_residuals"]["x1"]["max_abs"] == pytest.approx(
+    assert rep.summary.share_residuals["x1"].max_abs == pytest.approx(
         np.abs(noise).max(), abs=1e-12)
+    # the summary as plain data carries the same numbers
+    back = json.loads(json.dumps(rep.summary.to_dict(), default=str))
+    assert back["share_residuals"]["x1"]["max_abs"] == rep.summary.share_residuals["x1"].max_abs
+    assert back["curvature"]["count"] == rep.summary.curvature.count
+    assert back["at_mean"]["allen_uzawa"] == rep.summary.at_mean.allen_uzawa.tolist()
 
 
 # -- equivalence with the one-point function ----------------------------------------------------
@@ -263,7 +270,7 @@ def test_summary_at_sample_mean_equals_one_point_elasticities(rng, which):
     rep = regularity(model, data)
     means = {k: float(v) for k, v in data.mean().items()}
     ref = dy.elasticities(model, **means)
-    got = rep.summary["at_mean"]
+    got = rep.summary.at_mean
     assert got.point == pytest.approx(ref.point, rel=1e-14)
     for attr in ("shares", "price", "level", "allen_uzawa", "morishima"):
         assert np.allclose(getattr(got, attr), getattr(ref, attr), rtol=1e-9, atol=1e-12), attr
@@ -292,7 +299,7 @@ def test_text_report_names_violating_rows(rng):
     first = rep.violations("curvature")[0]
     text = rep.as_text()
     assert str(first) in text
-    assert f"{rep.summary['curvature']['count']} violate it" in text
+    assert f"{rep.summary.curvature.count} violate it" in text
     with pytest.raises(DualityError, match="unknown condition 'sign'"):
         rep.violations("sign")
 
@@ -402,7 +409,7 @@ def test_slutsky_route_without_expenditure_function_agrees(rng, monkeypatch):
     monkeypatch.setattr(reg, "_ENGINES", {})
     monkeypatch.setattr(reg, "expenditure", no_expenditure)
     slutsky = regularity(model, data)
-    assert any("Slutsky" in n for n in slutsky.summary["notes"])
+    assert any("Slutsky" in n for n in slutsky.summary.notes)
     cols = [c for c in full.rows.columns if c.startswith(("hicks_", "allen_", "morishima_"))]
     assert len(cols) == 9 + 9 + 6
     assert np.allclose(slutsky.rows[cols], full.rows[cols], rtol=1e-9, atol=1e-9)

@@ -180,9 +180,9 @@ def test_fitted_model_works_with_the_rest_of_the_package(electricity, translog_f
     assert not m.free_params
     assert dy.violations(m, tol=1e-9) == []
     rep = dy.regularity(m, electricity, columns={"y": "q"} if "y" in m.symbols else None)
-    assert rep.summary["n_rows"] == 123
+    assert rep.summary.n_rows == 123
     assert translog_fit.curvature["rows violating"] == \
-        f"{rep.summary['curvature']['count']} of 123"
+        f"{rep.summary.curvature.count} of 123"
 
 
 # -- elasticities and their standard errors ----------------------------------------------------
@@ -416,7 +416,7 @@ def test_local_concavity_is_imposed_where_the_data_violate_it(rng):
     # the regularity check (an independent route) finds the unconstrained fit non-concave
     # at the reference point; the constrained one reaches the boundary there (M̃ = 0)
     point = pd.DataFrame({"w1": [1.0], "w2": [1.0], "w3": [1.0], "y": [1.0]})
-    assert dy.regularity(free.model, point).summary["curvature"]["count"] == 1
+    assert dy.regularity(free.model, point).summary.curvature.count == 1
     assert np.abs(_m_block(res)).max() < 1e-6
     assert any("binds at its boundary" in n for n in res.notes)
     assert after <= before

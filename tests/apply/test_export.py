@@ -350,7 +350,8 @@ def test_write_is_atomic(small_cost, tmp_path, monkeypatch):
         raise OSError("disk full")
 
     monkeypatch.setattr(os, "fsync", no_sync)
-    with pytest.raises(OSError):
+    with pytest.raises(DualityError, match=r"out\.py: could not write \(disk full\); the "
+                                           "previous file is unchanged"):
         write(small_cost, "python", path)
     monkeypatch.undo()
     assert path.read_text() == "old contents\n"

@@ -51,8 +51,8 @@ def main() -> None:
             rep = regularity(model, data)
             best = min(best, time.perf_counter() - t0)
         print(f"{N:>8} {best:>10.4f} {N / best:>12.0f} "
-              f"{rep.summary['monotonicity']['count']:>13} "
-              f"{rep.summary['curvature']['count']:>12}")
+              f"{rep.summary.monotonicity.count:>13} "
+              f"{rep.summary.curvature.count:>12}")
         last = best
     print(f"time at 1e5 rows: {last:.3f} s")
 

@@ -115,7 +115,8 @@ def test_non_convergent_points_are_reported_not_returned(rng):
     assert list(res.failed) == [0, 1, 2, 3, 4]
     c = dy.cost(t, budget=1)
     rep = c.solver_report(w1=np.array([1.0, 2.0]), w2=1.0, y=4.0)
-    assert not rep["converged"].any()
+    assert not rep.converged.any()
+    assert rep.iterations.shape == rep.residual.shape == (2,)
     with pytest.warns(dy.NumericWarning, match="did not converge at 2 of 2"):
         c(w1=np.array([1.0, 2.0]), w2=1.0, y=4.0)
 

@@ -250,3 +250,24 @@ def test_a_near_miss_of_a_catalogue_form_falls_through_instead_of_failing():
     e = dy.expenditure(p, budget=1)
     assert e.route == "numeric"
     assert np.isfinite(e(p1=1.0, p2=2.0, u=10.0))
+
+
+def test_a_dual_that_does_not_exist_is_unavailable_with_its_reason():
+    # constant returns to scale: profit is unbounded or zero, so there is no profit function
+    # (Varian, Microeconomic Analysis, 3rd ed. (1992), ch. 2; from memory)
+    found = derive.duals(dy.technology("x1^0.5 * x2^0.5", ["x1", "x2"]))
+    assert isinstance(found["cost"], dy.Derived)
+    gone = found["profit"]
+    assert isinstance(gone, dy.Unavailable) and not gone
+    assert "constant returns to scale" in gone.reason and str(gone) == gone.reason
+
+
+def test_a_route_that_does_not_apply_leaves_its_reason_as_a_note():
+    # f = x1 + x2 + x1 x2 is neither a power form nor homothetic (its slope ratio
+    # (1 + x2) / (1 + x1) changes along rays; common practice, no source), so both
+    # shortcut routes say why they stop before the Lagrangian answers
+    c = dy.cost(dy.technology("x1 + x1*x2 + x2", ["x1", "x2"]), budget=20)
+    assert c.route == "symbolic"
+    assert ("log-linear route not applicable: the first-order conditions are not linear "
+            "in log-quantities") in c.notes
+    assert any(n.startswith("homothetic route not applicable") for n in c.notes)

@@ -9,11 +9,12 @@ import sympy as sp
 from ...errors import DualityError, NoSolutionError
 from ...model.base import Model
 from ...model.lambdas import numpy_function
+from ...model.roles import ROLES
 from ...solve.derive import cost, expenditure
 from ...solve.result import Derived
 from .dual import _check_concave, _check_homogeneous, _rationalise
 from .numeric import _Engine
-from .result import _ROLE_OF_KIND, _WORDS, SYMBOLIC_METHODS, Recovered
+from .result import _ROLE_OF_KIND, SYMBOLIC_METHODS, Recovered
 from .symbolic import _Context, _symbolic
 
 
@@ -71,8 +72,8 @@ def recover(model_or_dual, *, budget: float | None = 5.0,
         dual = cost(m, budget=budget) if m.role == "technology" else \
             expenditure(m, budget=budget)
         if m.is_primal:
-            notes.append(f"the {_WORDS[m.role][1]} was given; recovered from its "
-                         f"{_WORDS[m.role][0]} (a round trip)")
+            notes.append(f"the {m.given.label} was given; recovered from its "
+                         f"{m.role_info.main_function.label} (a round trip)")
     elif isinstance(model_or_dual, Derived):
         dual = model_or_dual
     else:
@@ -83,7 +84,8 @@ def recover(model_or_dual, *, budget: float | None = 5.0,
         raise DualityError(f"recover() works from a cost or an expenditure function; this is "
                            f"a {dual.label} — derive the cost or expenditure function first")
     role = _ROLE_OF_KIND[dual.kind]
-    label = _WORDS[role][0]
+    words = ROLES[role]
+    label, head = words.main_function.label, words.main_function.letter
     if dual.expr is None:
         raise NoSolutionError(f"the {label} has no closed form (numeric only); recovering "
                               "the primal needs the dual as a formula")
@@ -118,8 +120,8 @@ def recover(model_or_dual, *, budget: float | None = 5.0,
         concave, where = _check_concave(c_expr, prices, level, levels, *zb)
         if not concave:
             notes.append(f"the {label} is {where[0]}; the recovered "
-                         f"{_WORDS[role][1]} is that of its concave hull in prices (the "
-                         "max–min formula sees only the hull)")
+                         f"{words.primal_function.label} is that of its concave hull in "
+                         "prices (the max–min formula sees only the hull)")
         engine = _Engine(c_expr, prices, level, positive_level, concave, zb)
 
     exact = {sym: _rationalise(sp.Float(v)) for sym, v in dual.params.items()}
@@ -136,7 +138,7 @@ def recover(model_or_dual, *, budget: float | None = 5.0,
     if found is not None:
         method, expr = found
         return Recovered(role, xs, prices, level, expr, "symbolic",
-                         f"Shephard's lemma x = ∇{_WORDS[role][5]}(w, level) with w1 = 1 "
+                         f"Shephard's lemma x = ∇{head}(w, level) with w1 = 1 "
                          f"solved for prices and level ({method} route); verified numerically",
                          tuple(notes), concave, dual, engine, free, zb)
     if free:
@@ -146,7 +148,7 @@ def recover(model_or_dual, *, budget: float | None = 5.0,
             + ", ".join(map(str, free)))
     return Recovered(role, xs, prices, level, None, "numeric",
                      f"max–min formula: level = max {{y : min_w (w·x − "
-                     f"{_WORDS[role][5]}(w, y)) >= 0}} (Brent's method on the level; inner "
+                     f"{head}(w, y)) >= 0}} (Brent's method on the level; inner "
                      "minimisation over normalised prices by grid + L-BFGS-B with analytic "
                      "gradients)", tuple(notes), concave, dual, engine, free, zb)
 

@@ -10,15 +10,13 @@ import sympy as sp
 
 from ...errors import DualityError, NoSolutionError
 from ...model.lambdas import numpy_function
+from ...model.roles import ROLES
 
 #: symbolic methods, cheapest first
 SYMBOLIC_METHODS = ("log-linear", "ratio", "solve")
 
-_ROLE_OF_KIND = {"cost": "technology", "expenditure": "preference"}
-_WORDS = {"technology": ("cost function", "production function", "isoquant", "output",
-                         "input", "c"),
-          "preference": ("expenditure function", "utility function", "indifference curve",
-                         "utility level", "good", "e")}
+#: the dual a recovery starts from -> its role (cost: technology, expenditure: preference)
+_ROLE_OF_KIND = {r.main_dual: r.name for r in ROLES.values()}
 
 
 
@@ -67,7 +65,7 @@ class Recovered:
     # -- views -------------------------------------------------------------------------
     @property
     def label(self) -> str:
-        return _WORDS[self.role][1]
+        return ROLES[self.role].primal_function.label
 
     def __repr__(self) -> str:
         body = "numeric only" if self.expr is None else str(self.expr)
@@ -133,8 +131,9 @@ class Recovered:
         if scalar:
             v = float(out.reshape(-1)[0])
             if not math.isfinite(v):
-                raise NoSolutionError(f"no {_WORDS[self.role][3]} level found at this point: "
-                                      f"w·x >= {_WORDS[self.role][5]}(w, level) has no "
+                words = ROLES[self.role]
+                raise NoSolutionError(f"no {words.level} level found at this point: w·x >= "
+                                      f"{words.main_function.letter}(w, level) has no "
                                       "bracketed boundary level there")
             return v
         return out
@@ -170,7 +169,7 @@ class Recovered:
         if not np.isfinite(level):
             raise DualityError("the level must be finite")
         if eng.positive_level and not level > 0:
-            raise DualityError(f"the {_WORDS[self.role][3]} must be positive; got {level:g}")
+            raise DualityError(f"the {ROLES[self.role].level} must be positive; got {level:g}")
         if int(n) < 1:
             raise DualityError("n must be at least 1")
         if ratios is None:

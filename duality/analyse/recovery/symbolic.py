@@ -9,6 +9,7 @@ from sympy.solvers.solveset import NonlinearError
 
 from ...solve.budget import run_with_budget
 from ...solve.derive import first_verified
+from ...solve.result import Unavailable
 from ...errors import BudgetExceeded
 from ...model.lambdas import numpy_function
 from .result import SYMBOLIC_METHODS
@@ -17,10 +18,14 @@ from .result import SYMBOLIC_METHODS
 
 
 
+_NOT_LOG_LINEAR = Unavailable("the logs of the demands are not linear in the log-prices "
+                              "and log-level")
+
+
 # -- symbolic route (workers run in a killable process) ----------------------------------
 def _candidates(method: str, c, prices, level, xs, level_positive: bool):
     """Worker: list of (level expr, {price: expr}) solving Shephard's lemma, w_1 = 1; or
-    a reason (str) when the method does not apply."""
+    :class:`Unavailable` with the reason when the method does not apply."""
     w1, rest = prices[0], list(prices[1:])
     c1 = c.xreplace({w1: sp.Integer(1)})
     ds = [sp.diff(c, w).xreplace({w1: sp.Integer(1)}) for w in prices]
@@ -40,11 +45,11 @@ def _candidates(method: str, c, prices, level, xs, level_positive: bool):
         try:
             A, b = sp.linear_eq_to_matrix(eqs, unknowns)
         except (NonlinearError, ValueError):
-            return "the logs of the demands are not linear in the log-prices and log-level"
+            return _NOT_LOG_LINEAR
         if A.free_symbols & set(unknowns) or b.free_symbols & set(unknowns):
-            return "the logs of the demands are not linear in the log-prices and log-level"
+            return _NOT_LOG_LINEAR
         if A.det() == 0:
-            return "the log-linear system is singular"
+            return Unavailable("the log-linear system is singular")
         sol = A.LUsolve(b)
         lev = sp.exp(sol[-1])
         ws = {w: sp.exp(sol[i]) for i, w in enumerate(rest)}
@@ -53,7 +58,7 @@ def _candidates(method: str, c, prices, level, xs, level_positive: bool):
     if method == "ratio":
         ratios = [sp.simplify(d / ds[0]) for d in ds[1:]]
         if any(level in r.free_symbols for r in ratios):
-            return "the demand ratios depend on the level (not homothetic)"
+            return Unavailable("the demand ratios depend on the level (not homothetic)")
         if not rest:
             wsols = [{}]
         else:

@@ -319,10 +319,9 @@ def _curvature(result: Estimation, frame, columns, budget) -> dict:
         rep = regularity(m, frame, columns=cols, budget=budget, restrictions="ignore")
     except DualityError as exc:
         return {"checked": f"no: {exc}"}
-    d = rep.summary["curvature"]
-    mono = rep.summary["monotonicity"]
-    return {"rows violating": f"{d['count']} of {rep.summary['n_rows']}",
-            "monotonicity violated": f"{mono['count']} of {rep.summary['n_rows']}"}
+    s = rep.summary
+    return {"rows violating": f"{s.curvature.count} of {s.n_rows}",
+            "monotonicity violated": f"{s.monotonicity.count} of {s.n_rows}"}
 
 
 __all__ = ["estimate"]

@@ -20,6 +20,7 @@ import numpy as np
 import sympy as sp
 
 from ...errors import DualityError
+from ...model.roles import FUNCTIONS
 from ...solve.result import Derived
 
 
@@ -86,8 +87,8 @@ def log_linear_equation(d: Derived, *, normalise: str | None = None) -> LinearEq
                            "(translog-like); use its share equations instead")
     coef = {a: sp.simplify(poly.coeff_monomial(L[a])) for a in d.args}
     const = sp.simplify(poly.coeff_monomial(1))
-    value = sp.Symbol({"cost": "c", "expenditure": "e", "profit": "pi",
-                       "indirect_utility": "v"}.get(d.kind, d.kind), positive=True)
+    value = sp.Symbol(FUNCTIONS[d.kind].code if d.kind in FUNCTIONS else d.kind,
+                      positive=True)
     regressors = {str(a): sp.log(a) for a in d.args}
     coefficients = {"const": const, **{str(a): coef[a] for a in d.args}}
     dependent = sp.log(value)

@@ -13,11 +13,9 @@ Marshallian demands and the expenditure function with Hicksian demands; duals th
 exist or have no closed form are listed as not exported), a
 :class:`~duality.solve.result.Derived` (with its demands), or a list or dict of them.
 
-Targets (:data:`TARGETS`): ``python`` (numpy module), ``latex`` (equation snippets),
-``latex-document`` (standalone article), ``json`` (schema in
-:mod:`duality.apply.export.jsonfmt`), ``r``, ``julia``, ``octave`` (Octave/MATLAB), ``c``
-(C99), ``stata`` (``nl`` expressions) and ``bundle`` (share equations for estimation,
-schema in :mod:`duality.apply.export.bundle`).  How parameters appear with ``values=True`` and
+The targets are the records of :data:`REGISTRY` (name, exporter, file suffix, description),
+the one list that the command line, the scenario schema and the app read; :data:`TARGETS`
+and :data:`SUFFIXES` are derived from it.  How parameters appear with ``values=True`` and
 ``values=False`` in each target: see :mod:`duality.apply.export.code`.
 
 Every target is strict: a construct it cannot express (Piecewise or min in Stata, a
@@ -26,12 +24,12 @@ naming the target and the construct; nothing wrong is ever printed.
 """
 from __future__ import annotations
 
-import os
-import tempfile
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Callable
 
 from ...errors import DualityError
+from ..files import write_atomic
 from ._collect import check_export_name, collect
 from .bundle import export_bundle
 from .code import (export_c, export_julia, export_octave, export_python, export_r,
@@ -48,34 +46,65 @@ def _on_collection(fn: Callable) -> Callable:
     return run
 
 
-#: target name -> exporter ``(what, *, name, values, **options) -> str``
-TARGETS: dict[str, Callable[..., str]] = {
-    "python": _on_collection(export_python),
-    "latex": _on_collection(export_latex),
-    "latex-document": _on_collection(export_latex_document),
-    "json": _on_collection(export_json),
-    "r": _on_collection(export_r),
-    "julia": _on_collection(export_julia),
-    "octave": _on_collection(export_octave),
-    "c": _on_collection(export_c),
-    "stata": _on_collection(export_stata),
-    "bundle": export_bundle,
-}
+@dataclass(frozen=True)
+class ExportTarget:
+    """One export target: its name, its exporter, its file suffix and what it writes.
 
-#: usual file suffix per target (for front ends)
-SUFFIXES = {"python": ".py", "latex": ".tex", "latex-document": ".tex", "json": ".json",
-            "r": ".R", "julia": ".jl", "octave": ".m", "c": ".h", "stata": ".do",
-            "bundle": ".json"}
+    ``function(what, *, name, values, **options) -> str``; ``stem`` is added to the export
+    name in :func:`file_name` so that two targets with one suffix get distinct files;
+    ``options`` are the keyword options the target accepts beyond ``name`` and ``values``.
+    """
+
+    name: str
+    function: Callable[..., str]
+    suffix: str
+    description: str
+    stem: str = ""
+    options: tuple[str, ...] = ()
+
+
+#: every export target, in the order front ends list them (the one source of them)
+REGISTRY: tuple[ExportTarget, ...] = (
+    ExportTarget("python", _on_collection(export_python), ".py", "numpy module"),
+    ExportTarget("latex", _on_collection(export_latex), ".tex", "LaTeX equation snippets"),
+    ExportTarget("latex-document", _on_collection(export_latex_document), ".tex",
+                 "standalone LaTeX article", stem="_document"),
+    ExportTarget("json", _on_collection(export_json), ".json",
+                 "JSON (schema in duality.apply.export.jsonfmt)"),
+    ExportTarget("r", _on_collection(export_r), ".R", "R functions"),
+    ExportTarget("julia", _on_collection(export_julia), ".jl", "Julia functions"),
+    ExportTarget("octave", _on_collection(export_octave), ".m", "Octave/MATLAB functions"),
+    ExportTarget("c", _on_collection(export_c), ".h", "C99 header"),
+    ExportTarget("stata", _on_collection(export_stata), ".do", "Stata nl expressions"),
+    ExportTarget("bundle", export_bundle, ".json",
+                 "share equations for estimation (schema in duality.apply.export.bundle)",
+                 stem="_bundle", options=("columns", "fixed")),
+)
+
+#: target name -> :class:`ExportTarget`
+BY_NAME: dict[str, ExportTarget] = {t.name: t for t in REGISTRY}
+#: target name -> exporter ``(what, *, name, values, **options) -> str``
+TARGETS: dict[str, Callable[..., str]] = {t.name: t.function for t in REGISTRY}
+#: target name -> usual file suffix (for front ends)
+SUFFIXES: dict[str, str] = {t.name: t.suffix for t in REGISTRY}
+#: the target names, in order
+NAMES: tuple[str, ...] = tuple(BY_NAME)
+
+
+def get_target(name: str) -> ExportTarget:
+    """The :class:`ExportTarget` called ``name``; an unknown name's error lists the valid
+    ones."""
+    if not isinstance(name, str) or name not in BY_NAME:
+        raise DualityError(f"unknown export target {name!r}; the targets are "
+                           f"{', '.join(NAMES)}")
+    return BY_NAME[name]
 
 
 def file_name(name: str, target: str) -> str:
     """The usual file name of export ``name`` in ``target`` (distinct for every target:
     ``model.tex`` and ``model_document.tex``, ``model.json`` and ``model_bundle.json``)."""
-    if target not in TARGETS:
-        raise DualityError(f"unknown export target {target!r}; the targets are "
-                           f"{', '.join(TARGETS)}")
-    stem = name + {"latex-document": "_document", "bundle": "_bundle"}.get(target, "")
-    return stem + SUFFIXES[target]
+    t = get_target(target)
+    return name + t.stem + t.suffix
 
 
 def export(what, target: str, *, name: str = "model", values: bool = True, **options) -> str:
@@ -100,45 +129,27 @@ def export(what, target: str, *, name: str = "model", values: bool = True, **opt
         Unknown target (the message lists the valid ones), a function without a closed
         form, or a construct the target cannot express.
     """
-    if not isinstance(target, str) or target not in TARGETS:
-        raise DualityError(f"unknown export target {target!r}; the targets are "
-                           f"{', '.join(TARGETS)}")
+    spec = get_target(target)
     check_export_name(name)
     if not isinstance(values, bool):
         raise DualityError(f"values must be True or False, not {values!r}")
-    fn = TARGETS[target]
-    if options and target != "bundle":
-        raise DualityError(f"the {target} export takes no option(s) "
-                           f"{', '.join(sorted(options))}")
-    return fn(what, name=name, values=values, **options)
+    extra = sorted(set(options) - set(spec.options))
+    if extra:
+        raise DualityError(f"the {spec.name} export takes no option(s) {', '.join(extra)}")
+    # looked up at call time, so that TARGETS stays the table a test may patch
+    return TARGETS[spec.name](what, name=name, values=values, **options)
 
 
 def write(what, target: str, path, **kw) -> Path:
     """Export and write to ``path`` atomically; returns the path.
 
-    The text is produced first; it is then written to a temporary file in the same folder,
-    flushed to disk and moved over ``path`` with :func:`os.replace`.  On any failure the
-    temporary file is removed and an existing ``path`` is left as it was.
+    The text is produced first, then written with :func:`duality.apply.files.write_atomic`
+    (a temporary file in the same folder, flushed to disk, moved over ``path``); on any
+    failure an existing ``path`` is left as it was.
     """
-    path = Path(path)
     text = export(what, target, **kw)
-    folder = path.parent if str(path.parent) else Path(".")
-    if not folder.is_dir():
-        raise DualityError(f"cannot write {path}: folder {folder} does not exist")
-    fd, tmp = tempfile.mkstemp(dir=folder, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except FileNotFoundError:
-            pass
-        raise
-    return path
+    return write_atomic(path, text)
 
 
-__all__ = ["TARGETS", "SUFFIXES", "export", "file_name", "write", "load_json", "collect"]
+__all__ = ["ExportTarget", "REGISTRY", "BY_NAME", "NAMES", "TARGETS", "SUFFIXES", "get_target",
+           "export", "file_name", "write", "load_json", "collect"]

@@ -17,6 +17,7 @@ import sympy as sp
 from ...errors import DualityError, NoSolutionError
 from ...model.base import Model
 from ...model.formula import to_text
+from ...model.roles import FUNCTIONS
 from ...solve.derive import cost, expenditure, indirect_utility, profit
 from ...solve.result import KINDS, Derived
 
@@ -65,7 +66,7 @@ class Item:
         d = self.derived
         if d.kind in _DEMAND_KINDS and d.name:
             return d.name
-        return {"profit": "pi"}.get(d.kind, KINDS[d.kind][1])
+        return FUNCTIONS[d.kind].code if d.kind in FUNCTIONS else KINDS[d.kind][1]
 
 
 @dataclass

@@ -41,6 +41,7 @@ import numpy as np
 import sympy as sp
 
 from ...errors import DualityError
+from ...texts import CAUTION
 from ...model.base import Model
 from ...analyse.demand import shares as shares_of
 from ...analyse.restrictions import derive_restrictions, impose
@@ -48,7 +49,7 @@ from ...solve.derive import cost, expenditure
 from ...solve.dual_forms import aids_share_equations
 from ...solve.result import Derived
 from ._collect import _item, check_names, no_closed_form, tidy
-from .code import DISCLAIMER, _version
+from .code import _version
 from .jsonfmt import function_record, text_of
 
 FORMAT = "duality-estimation-bundle"
@@ -215,7 +216,7 @@ def export_bundle(what, *, name: str, values: bool = True,
                           for it in kept}}
     doc = {
         "format": FORMAT, "version": VERSION, "duality_version": _version(), "name": name,
-        "disclaimer": DISCLAIMER, "system": what_share,
+        "disclaimer": CAUTION, "system": what_share,
         "dual": {**function_record(dual_item, "bundle"), "function": dual_item.name},
         "equations": [rec(it) for it in kept],
         "dropped": {**rec(dropped), "reason": reason},

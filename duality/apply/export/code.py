@@ -38,10 +38,10 @@ from sympy.printing.str import StrPrinter
 
 from ..._version import __version__
 from ...errors import DualityError
+from ...texts import CAUTION
 from ._collect import (BASE_ALLOWED, CASES_ALLOWED, Collection, Item, check_names,
                        check_supported, condition_text, cse, fmt_float, formula_text)
 
-DISCLAIMER = "Results hold only for the assumed functional form and parameter values."
 
 
 def _version() -> str:
@@ -64,7 +64,7 @@ def _describe(it: Item) -> list[str]:
 def _header(col: Collection, name: str, target: str) -> list[str]:
     lines = [f"{name}: {target} functions exported by duality {_version()}.",
              "Generated text; edit the model and export again instead of editing this.",
-             DISCLAIMER]
+             CAUTION]
     if col.model is not None:
         lines.append(f"model: {col.model.describe()}")
     vals = [f"{p.name} = {fmt_float(v)}" for p, v in col.params.items() if v is not None]
@@ -165,7 +165,7 @@ def _py_doc(it: Item, values: bool) -> list[str]:
                   f"    Parameter (model value {fmt_float(it.values[s])})."]
     lines += ["", "Returns", "-------", "numpy.ndarray or float", "", "Notes", "-----"]
     lines += _describe(it)[1:]
-    lines.append(DISCLAIMER)
+    lines.append(CAUTION)
     text = "\n".join(("    " + ln) if ln else "" for ln in lines).replace('"""', "'''")
     return ['    r"""' + text.lstrip(), '    """']
 
@@ -549,4 +549,4 @@ def export_stata(col: Collection, *, name: str, values: bool = True) -> str:
 
 
 __all__ = ["export_python", "export_r", "export_julia", "export_octave", "export_c",
-           "export_stata", "DISCLAIMER"]
+           "export_stata"]

@@ -48,10 +48,11 @@ import json
 import sympy as sp
 
 from ...errors import DualityError
+from ...texts import CAUTION
 from ...model.formula import MAX_LENGTH, parse, to_text
 from ...solve.result import Derived
 from ._collect import Collection, Item, construct_name
-from .code import DISCLAIMER, _version
+from .code import _version
 
 FORMAT = "duality-export"
 VERSION = 1
@@ -125,7 +126,7 @@ def model_record(m) -> dict | None:
 def export_json(col: Collection, *, name: str, values: bool = True) -> str:
     doc = {
         "format": FORMAT, "version": VERSION, "duality_version": _version(), "name": name,
-        "disclaimer": DISCLAIMER,
+        "disclaimer": CAUTION,
         "model": model_record(col.model),
         "params": {p.name: v for p, v in col.params.items()},
         "functions": {it.name: function_record(it) for it in col.items},
@@ -175,10 +176,11 @@ def load_function(fname: str, rec: dict) -> Derived:
     args = tuple(table[a] for a in rec["args"])
     params = {table[k]: float(v) for k, v in (rec.get("params") or {}).items()}
     route = rec.get("route", "symbolic")
-    return Derived(rec.get("kind", "cost"), args, expr, route, rec.get("method", ""),
-                   params, rec.get("source"), tuple(rec.get("notes", ())), tuple(conditions),
-                   rec.get("name", ""),
-                   frozenset(table[a] for a in rec.get("positive_args", ())))
+    return Derived(kind=rec.get("kind", "cost"), args=args, expr=expr, route=route,
+                   method=rec.get("method", ""), params=params, source=rec.get("source"),
+                   notes=tuple(rec.get("notes", ())), conditions=tuple(conditions),
+                   name=rec.get("name", ""),
+                   positive_args=frozenset(table[a] for a in rec.get("positive_args", ())))
 
 
 def load_json(text: str) -> dict:

@@ -12,8 +12,10 @@ from __future__ import annotations
 import sympy as sp
 from sympy.printing.latex import LatexPrinter
 
+from ...model.roles import FUNCTIONS
+from ...texts import CAUTION
 from ._collect import CASES_ALLOWED, BASE_ALLOWED, Collection, Item, check_supported, fmt_float
-from .code import DISCLAIMER, _version
+from .code import _version
 
 
 class _Latex(LatexPrinter):
@@ -29,8 +31,7 @@ def _tex(expr) -> str:
 
 def _lhs(it: Item) -> str:
     d = it.derived
-    head = _tex(sp.Symbol(it.head)) if it.quantity else {
-        "cost": "c", "profit": r"\pi", "expenditure": "e", "indirect_utility": "v"}[d.kind]
+    head = _tex(sp.Symbol(it.head)) if it.quantity else FUNCTIONS[d.kind].latex
     return f"{head}({', '.join(_tex(a) for a in it.args)})"
 
 
@@ -54,7 +55,7 @@ def _equation(it: Item, name: str) -> list[str]:
 
 
 def export_latex(col: Collection, *, name: str, values: bool = True) -> str:
-    out = [f"% {name}: LaTeX exported by duality {_version()}. {DISCLAIMER}"]
+    out = [f"% {name}: LaTeX exported by duality {_version()}. {CAUTION}"]
     for it in col.items:
         out.append(f"% {it.name}: {it.derived.label}; route {it.derived.route}"
                    + (f"; source: {it.derived.source}" if it.derived.source else ""))
@@ -70,12 +71,11 @@ def export_latex_document(col: Collection, *, name: str, values: bool = True) ->
            r"\usepackage{amsmath}", r"\usepackage{booktabs}", "",
            f"\\title{{{escape(name)}: derivation}}",
            f"\\author{{exported by duality {escape(_version())}}}", r"\date{}", "",
-           r"\begin{document}", r"\maketitle", "", escape(DISCLAIMER), ""]
+           r"\begin{document}", r"\maketitle", "", escape(CAUTION), ""]
     m = col.model
     if m is not None:
         out += [r"\section{Model}"]
-        what = ("production function" if m.is_technology else "utility function") \
-            if m.is_primal else f"{m.side.replace('_', ' ')} function"
+        what = m.given.label
         lhs = _tex(m.level) if m.is_primal else "F"
         out += [f"The model is a {escape(m.role)} given by its {escape(what)}"
                 + (f" ({escape(m.name)})" if m.name else "") + ":",

@@ -22,7 +22,7 @@ MAXITER = 60
 RAY_STEP = 10.0
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class BatchResult:
     """Solutions at N points.
 
@@ -383,7 +383,8 @@ def _spending_result(comp, W, P, v, iters, norm, tol, notes) -> BatchResult:
     value = np.einsum("ij,ij->i", W, X)
     lam = np.exp(v[:, comp.n])
     lam[~conv] = np.nan
-    return BatchResult(value, X, lam, iters, norm, conv, None, notes)
+    return BatchResult(value=value, quantities=X, multiplier=lam, iterations=iters,
+                       residual=norm, converged=conv, notes=notes)
 
 
 def second_order(comp: Compiled, X, P) -> np.ndarray:

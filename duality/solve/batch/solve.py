@@ -77,7 +77,8 @@ def _spending_solve(comp, W, Y, P, tol, maxiter, notes=()) -> BatchResult:
     bad = np.flatnonzero(~conv)
     if bad.size:
         X[bad], value[bad], lam[bad] = np.nan, np.nan, np.nan
-    return BatchResult(value, X, lam, iters, norm, conv, None, tuple(notes))
+    return BatchResult(value=value, quantities=X, multiplier=lam, iterations=iters,
+                       residual=norm, converged=conv, notes=tuple(notes))
 
 
 
@@ -181,7 +182,8 @@ def solve_utility(model: Model, Pr, M, P, *, tol: float = TOL,
     value[~conv] = np.nan
     lam = np.exp(v[:, n])
     lam[~conv] = np.nan
-    return BatchResult(value, X, lam, iters, norm, conv)
+    return BatchResult(value=value, quantities=X, multiplier=lam, iterations=iters,
+                       residual=norm, converged=conv)
 
 
 # -- profit -----------------------------------------------------------------------------------
@@ -230,5 +232,6 @@ def solve_profit(model: Model, price, W, P, *, tol: float = TOL,
     value = price * Y - np.einsum("ij,ij->i", W, X)
     value[~conv] = np.nan
     Y = np.where(conv, Y, np.nan)
-    return BatchResult(value, X, np.where(conv, price, np.nan), iters,
-                       np.abs(logp - l_cur), conv, Y)
+    return BatchResult(value=value, quantities=X, multiplier=np.where(conv, price, np.nan),
+                       iterations=iters, residual=np.abs(logp - l_cur), converged=conv,
+                       output=Y)

@@ -126,9 +126,10 @@ def _aids_shares(what, dual: Derived) -> list | None:
     if model is None or model.form != "aids_expenditure":
         return None
     args = tuple(model.prices) + (model.income,)
-    return [(str(q), Derived("share", args, e, dual.route, "Marshallian budget share "
-                             "(exact translog price index)", dual.params, dual.source,
-                             dual.notes, (), f"s_{q}", frozenset(args)))
+    return [(str(q), Derived(kind="share", args=args, expr=e, route=dual.route,
+                             method="Marshallian budget share (exact translog price index)",
+                             params=dual.params, source=dual.source, notes=dual.notes,
+                             name=f"s_{q}", positive_args=frozenset(args)))
             for q, e in zip(model.quantities, aids_share_equations(model, index="exact"))]
 
 

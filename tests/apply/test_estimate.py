@@ -477,3 +477,26 @@ def test_files_and_dask_are_read_in_chunks(electricity, tmp_path):
     bad.to_csv(csv, index=False)
     with pytest.raises(dy.DualityError, match="electricity.csv: column 'pk' .* row 61"):
         dy.estimate(_translog(), csv, chunksize=20, **kw)
+
+
+def test_typed_nonlinear_cost_function_against_curve_fit(rng):
+    """A CES cost function c = y (d w1^r + (1−d) w2^r)^(1/r): ln c is nonlinear in d and r;
+    scipy's curve_fit on the same equation is the oracle (estimates and s²(J'J)⁻¹)."""
+    from scipy.optimize import curve_fit
+    n = 300
+    w1, w2 = np.exp(rng.normal(0, .4, n)), np.exp(rng.normal(0, .4, n))
+    y = np.exp(rng.normal(0, 1, n))
+    c = y * (0.4 * w1 ** -0.5 + 0.6 * w2 ** -0.5) ** (1 / -0.5) * np.exp(rng.normal(0, .01, n))
+    data = pd.DataFrame({"w1": w1, "w2": w2, "y": y, "c": c})
+    model = dy.cost_function("y*(d*w1^r + (1-d)*w2^r)^(1/r)", ["w1", "w2"], output="y",
+                             params={"d": None, "r": None})
+    res = dy.estimate(model, data, start={"d": 0.5, "r": -1}, curvature="none")
+    assert "nonlinear least squares" in res.estimator
+
+    def lnc(X, d, r):
+        a, b, q = X
+        return np.log(q) + np.log(d * a ** r + (1 - d) * b ** r) / r
+    p, cov = curve_fit(lnc, (w1, w2, y), np.log(c), p0=(0.5, -1))
+    np.testing.assert_allclose([res.params["d"], res.params["r"]], p, rtol=1e-6)
+    np.testing.assert_allclose([res.std_errors["d"], res.std_errors["r"]],
+                               np.sqrt(np.diag(cov)), rtol=1e-4)

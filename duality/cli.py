@@ -38,7 +38,7 @@ from .solve.derive import DEFAULT_BUDGET, duals as derive_duals
 from .solve.dual_forms import aids_expenditure, generalized_leontief_cost, translog_cost
 from .errors import DualityError
 from .solve.points import complete_point, default_point, value_at
-from .solve.result import KINDS, Derived, Unavailable
+from .solve.result import KINDS, Unavailable
 from .texts import CAUTION
 
 #: The built-in default model: a small decreasing-returns technology.

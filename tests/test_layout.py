@@ -1,5 +1,7 @@
 """The package's layout: imports point down the pipeline (model ← solve ← analyse ← apply ←
-cli/app), and a function-level import says why it is there.  Common practice, no source."""
+cli/app), a function-level import says why it is there, and the tests mirror the package
+(one test module per module, never skipping over the package itself).  Common practice, no
+source."""
 from __future__ import annotations
 
 import ast
@@ -8,6 +10,7 @@ from pathlib import Path
 import pytest
 
 PKG = Path(__file__).resolve().parents[1] / "duality"
+TESTS = Path(__file__).resolve().parent
 
 #: stage of each top-level part of the package; a module may import its own stage or lower
 STAGE = {"errors": 0, "_version": 0, "texts": 0, "model": 1, "solve": 2, "analyse": 3,
@@ -95,3 +98,60 @@ def test_former_import_paths_still_work():
     for old, new in duality._FORMER_PATHS.items():
         assert importlib.import_module(f"duality.{old}") is importlib.import_module(
             f"duality.{new}")
+
+
+def test_tests_never_skip_over_the_package_itself():
+    # a missing or broken module of our own must fail loudly, not skip (importorskip is for
+    # optional third-party packages only)
+    for path in sorted(TESTS.rglob("*.py")):
+        text = path.read_text()
+        if "importorskip" not in text:
+            continue
+        for node in ast.walk(ast.parse(text, str(path))):
+            if (isinstance(node, ast.Call) and isinstance(node.func, ast.Attribute)
+                    and node.func.attr == "importorskip" and node.args
+                    and isinstance(node.args[0], ast.Constant)):
+                root = str(node.args[0].value).split(".")[0]
+                assert root not in ("duality", "app"), (
+                    f"{path.relative_to(TESTS)}:{node.lineno} skips when "
+                    f"{node.args[0].value} cannot be imported; import it directly")
+
+
+#: parts of the package whose test module has another name: the model builder, and each
+#: sub-package or group of modules tested through its entry points by one module
+TESTED_BY = {
+    "model/base": "model/test_model.py",
+    "solve/batch": "solve/test_batch.py",
+    "solve/forms": "solve/test_catalogue.py",
+    "analyse/recovery": "analyse/test_recover.py",
+    "analyse/restrictions": "analyse/test_restrictions.py",
+    "apply/export": "apply/test_export.py",
+    "conjugate/grid": "conjugate/test_grid_conjugate.py",
+    **{f"conjugate/{m}": "conjugate/test_conjugate.py"
+       for m in ("common", "core", "multi", "piecewise", "univariate")},
+    "app/main": "webapp/test_views.py",
+    "app/serve": "webapp/test_launcher.py",
+}
+
+
+def _units() -> list[str]:
+    """Each module directly in a stage folder or in app/, and each sub-package, as
+    'folder/name'."""
+    out = []
+    for folder in [PKG / s for s in STAGES] + [PKG.parent / "app"]:
+        for p in sorted(folder.iterdir()):
+            if p.suffix == ".py" and not p.name.startswith("_"):
+                out.append(f"{folder.name}/{p.stem}")
+            elif p.is_dir() and (p / "__init__.py").is_file():
+                out.append(f"{folder.name}/{p.name}")
+    return out
+
+
+@pytest.mark.parametrize("unit", _units())
+def test_tests_mirror_the_package(unit):
+    folder, name = unit.split("/")
+    want = TESTED_BY.get(unit, f"{'webapp' if folder == 'app' else folder}/test_{name}.py")
+    where = "app" if folder == "app" else f"duality/{folder}"
+    assert (TESTS / want).is_file(), (
+        f"{where}/{name} has no test module: write tests/{want} (tests mirror the package; "
+        "a sub-package has one test module named in TESTED_BY)")

@@ -95,8 +95,8 @@ def complete_point(model: Model, point: Mapping[str, float],
                    duals: Mapping[str, object]) -> dict[str, float]:
     """``point`` (by name) completed for a preference: the utility level that income buys,
     u = v(p, m), when no level is given, or the income that a given level costs,
-    m = e(p, u).  ``duals`` maps kinds to :class:`~duality.solve.result.Derived` (a dual
-    that does not exist may map to anything else).  A technology's point is returned as
+    m = e(p, u).  ``duals`` maps kinds to :class:`~duality.solve.result.Derived` or, for a
+    dual that does not exist, :class:`~duality.solve.result.Unavailable`.  A technology's point is returned as
     it is."""
     pt = {k: float(v) for k, v in point.items()}
     if model.is_technology:

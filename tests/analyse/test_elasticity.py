@@ -66,13 +66,12 @@ def test_missing_point_values_are_named():
         dy.elasticities(dy.technology("x1^0.3*x2^0.5", ["x1", "x2"]), w1=1, w2=1)
 
 
-def test_one_function_gives_substitution_elasticities_at_points_rows_and_in_closed_form():
+def test_one_function_gives_substitution_elasticities_at_points_rows_and_in_closed_form(rng):
     # Cobb–Douglas cost c = y prod_i w_i^a_i (sum a_i = 1): c_i = a_i c / w_i,
     # c_ij = a_i a_j c / (w_i w_j), c_ii = a_i (a_i - 1) c / w_i^2, hence σ_ij = 1 and
     # σ_ii = (a_i - 1) / a_i, M_ij = 1 and ε_ij = a_j − δ_ij (Blackorby and Russell, AER 79
     # (1989); Varian, Microeconomic Analysis, 3rd ed. (1992), ch. 4; from memory)
     from duality.analyse.elasticity import substitution_elasticities
-    rng = np.random.default_rng(2)
     a = np.array([0.2, 0.3, 0.5])
     w = rng.uniform(0.5, 3.0, (40, 3))
     c = rng.uniform(1.0, 9.0, 40) * np.prod(w ** a, axis=1)

@@ -17,11 +17,8 @@ from duality.errors import DualityError, NoSolutionError
 from duality.analyse.recovery import Recovered, recover
 
 X1, X2, X3 = sp.symbols("x1 x2 x3", positive=True)
-RNG = np.random.default_rng(2024)
-
-
-def _points(k=6, n=2):
-    return RNG.uniform(0.3, 4.0, (k, n))
+def _points(rng, k=6, n=2):
+    return rng.uniform(0.3, 4.0, (k, n))
 
 
 def _grid_w(m=801, lo=-9.0, hi=9.0):
@@ -30,7 +27,7 @@ def _grid_w(m=801, lo=-9.0, hi=9.0):
 
 
 # -- symbolic round trips ------------------------------------------------------------------
-def test_cobb_douglas_technology_round_trip():
+def test_cobb_douglas_technology_round_trip(rng):
     # Cobb–Douglas cost/production pair, Varian (1992), ch. 4 and ch. 6 (from memory)
     t = dy.technology("A*x1^a*x2^b", ["x1", "x2"], params={"A": 2, "a": 0.3, "b": 0.5})
     r = recover(dy.cost(t))
@@ -38,7 +35,7 @@ def test_cobb_douglas_technology_round_trip():
     assert r.route == "symbolic" and r.role == "technology"
     assert r.concave_in_prices is True
     assert [str(q) for q in r.quantities] == ["x1", "x2"]
-    for x1, x2 in _points():
+    for x1, x2 in _points(rng):
         assert r(x1=x1, x2=x2) == pytest.approx(2 * x1 ** 0.3 * x2 ** 0.5, rel=1e-10)
     expected = 2 * X1 ** sp.Rational(3, 10) * X2 ** sp.Rational(1, 2)
     assert sp.simplify(r.expr - expected) == 0
@@ -68,24 +65,24 @@ def test_cobb_douglas_with_free_parameters_comes_back_symbolically():
 
 
 @pytest.mark.parametrize("rho", [0.5, -1.0])
-def test_ces_round_trip(rho):
+def test_ces_round_trip(rho, rng):
     # CES, Arrow, Chenery, Minhas and Solow (1961) (from memory)
     t = dy.technology("(x1^r + 2*x2^r)^(1/r)", ["x1", "x2"], params={"r": rho})
     r = recover(dy.cost(t))
     assert r.route == "symbolic"
-    for x1, x2 in _points():
+    for x1, x2 in _points(rng):
         assert r(x1=x1, x2=x2) == pytest.approx((x1 ** rho + 2 * x2 ** rho) ** (1 / rho),
                                                 rel=1e-10)
 
 
-def test_cobb_douglas_utility_from_expenditure_function():
+def test_cobb_douglas_utility_from_expenditure_function(rng):
     p = dy.preference("x1^a*x2^(1-a)", ["x1", "x2"], params={"a": 0.3})
     e = dy.expenditure(p)
     r = recover(e)
     assert r.role == "preference" and r.route == "symbolic"
     # same ordinal representation as the expenditure function: U(h(p, u)) = u
     h1, h2 = e.demands["x1"], e.demands["x2"]
-    for p1, p2, u in RNG.uniform(0.5, 3.0, (5, 3)):
+    for p1, p2, u in rng.uniform(0.5, 3.0, (5, 3)):
         x1, x2 = h1(p1=p1, p2=p2, u=u), h2(p1=p1, p2=p2, u=u)
         assert r(x1=x1, x2=x2) == pytest.approx(u, rel=1e-10)
         assert e(p1=p1, p2=p2, u=r(x1=x1, x2=x2)) == pytest.approx(p1 * x1 + p2 * x2,
@@ -93,11 +90,11 @@ def test_cobb_douglas_utility_from_expenditure_function():
     assert sp.simplify(r.expr - X1 ** sp.Rational(3, 10) * X2 ** sp.Rational(7, 10)) == 0
 
 
-def test_dual_side_ces_cost_function():
+def test_dual_side_ces_cost_function(rng):
     cf = dy.cost_function("y*(w1^0.5 + w2^0.5)^2", ["w1", "w2"])
     c = dy.cost(cf)
     r = recover(cf)
-    for w1, w2, y in RNG.uniform(0.5, 3.0, (5, 3)):
+    for w1, w2, y in rng.uniform(0.5, 3.0, (5, 3)):
         x1 = c.demands["x1"](w1=w1, w2=w2, y=y)
         x2 = c.demands["x2"](w1=w1, w2=w2, y=y)
         assert r(x1=x1, x2=x2) == pytest.approx(y, rel=1e-10)
@@ -108,12 +105,12 @@ def test_dual_side_ces_cost_function():
 
 
 # -- numeric route --------------------------------------------------------------------------
-def test_numeric_route_agrees_with_the_closed_form():
+def test_numeric_route_agrees_with_the_closed_form(rng):
     t = dy.technology("A*x1^a*x2^b", ["x1", "x2"], params={"A": 2, "a": 0.3, "b": 0.5})
     r = recover(t, budget=0)
     assert r.route == "numeric" and r.expr is None
     assert any("skipped" in n for n in r.notes)
-    pts = _points(4)
+    pts = _points(rng, 4)
     got = r(x1=pts[:, 0], x2=pts[:, 1])
     np.testing.assert_allclose(got, 2 * pts[:, 0] ** 0.3 * pts[:, 1] ** 0.5, rtol=1e-10)
 
@@ -146,7 +143,7 @@ def test_isoquant_points_are_shephard_bundles_sorted_by_x1():
 
 
 # -- duals that are not concave in prices -------------------------------------------------------
-def test_non_concave_cost_recovers_the_concave_hull():
+def test_non_concave_cost_recovers_the_concave_hull(rng):
     cf = dy.cost_function("y*(w1^2 + w2^2)/(w1 + w2)", ["w1", "w2"])
     c = dy.cost(cf)
     r = recover(cf)
@@ -156,7 +153,7 @@ def test_non_concave_cost_recovers_the_concave_hull():
     # by hand: on the simplex c(t, 1−t) = y(2t² − 2t + 1) is convex, so its concave hull
     # is the chord y(w1 + w2), the cost function of f = min(x1, x2) (Leontief); derived in
     # the test from the max–min formula, Shephard (1953) duality theorem (from memory)
-    for x1, x2 in _points(4):
+    for x1, x2 in _points(rng, 4):
         assert r(x1=x1, x2=x2) == pytest.approx(min(x1, x2), rel=1e-9)
     y = 1.5
     pts, ws = r.isoquant(y, n=15, with_prices=True)

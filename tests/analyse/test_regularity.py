@@ -24,11 +24,6 @@ AIDS = dict(a0=0.5, a1=0.3, a2=0.4, a3=0.3, g11=0.05, g12=-0.02, g13=-0.03, g22=
 GL = dict(b11=1.0, b12=0.5, b13=0.2, b22=0.8, b23=0.3, b33=2.0)
 
 
-@pytest.fixture
-def rng():
-    return np.random.default_rng(20240607)
-
-
 def _gmat(params, n=3, prefix="g"):
     G = np.empty((n, n))
     for i in range(n):

@@ -12,11 +12,6 @@ from duality.apply.evaluate import evaluate, evaluate_dask, evaluate_file
 
 
 @pytest.fixture
-def rng():
-    return np.random.default_rng(7)
-
-
-@pytest.fixture
 def frame(rng):
     n = 500
     return pd.DataFrame({"w1": rng.uniform(0.5, 2, n), "w2": rng.uniform(0.5, 2, n),
@@ -122,13 +117,12 @@ def test_file_errors(tmp_path, closed):
         evaluate_file(closed, tmp_path / "a.xlsx", tmp_path / "out.csv")
 
 
-def test_long_columns_are_evaluated_block_by_block_with_the_same_numbers():
+def test_long_columns_are_evaluated_block_by_block_with_the_same_numbers(rng):
     # Cobb–Douglas cost, written out (Varian, Microeconomic Analysis, 3rd ed. 1992, ch. 4;
     # from memory); 3 blocks and a remainder, one scalar argument broadcast
     from duality.solve.result import EVAL_BLOCK
     t = dy.technology("A*x1^a*x2^b", ["x1", "x2"], params={"A": 2, "a": 0.3, "b": 0.5})
     c = dy.cost(t)
-    rng = np.random.default_rng(5)
     n = 3 * EVAL_BLOCK + 7
     w1, w2 = rng.uniform(0.5, 2, n), rng.uniform(0.5, 2, n)
     k = 0.8

@@ -48,8 +48,7 @@ def _reference(exprs, cols):
 
 
 @pytest.mark.parametrize("expr", EXPRESSIONS, ids=[str(e)[:40] for e in EXPRESSIONS])
-def test_buffered_function_agrees_with_lambdify_with_derivatives(expr):
-    rng = np.random.default_rng(5)
+def test_buffered_function_agrees_with_lambdify_with_derivatives(expr, rng):
     N = 64
     cols = [rng.uniform(-1.0, 4.0, N) for _ in range(3)] + [rng.uniform(0.1, 0.9, N)]
     cols[0][:4] = [0.0, 1.0, -2.0, 4.0]           # zero, the kink, a negative base

@@ -9,11 +9,6 @@ import duality as dy
 from duality.solve import batch
 
 
-@pytest.fixture
-def rng():
-    return np.random.default_rng(20261202)
-
-
 def _cols(W):
     return {f"w{i + 1}": W[:, i] for i in range(W.shape[1])}
 

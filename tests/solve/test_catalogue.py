@@ -874,7 +874,6 @@ TEXT_CASES = [
                          ids=["cd", "ces", "leontief", "linear"])
 def test_text_formulas_with_unusual_names(role, text, qs, params, pt, want_value, want_x,
                                           source):
-    pytest.importorskip("duality.model.formula")
     c = dy.cost(dy.technology(text, qs, params=params))
     assert c.route == "catalogue" and source in c.source
     close(c(**pt), want_value)
@@ -882,7 +881,6 @@ def test_text_formulas_with_unusual_names(role, text, qs, params, pt, want_value
 
 
 def test_text_stone_geary_and_quasi_linear():
-    pytest.importorskip("duality.model.formula")
     sg = dy.preference("beta1*log(food - gamma1) + beta2*log(rent - gamma2)", ["food", "rent"],
                        params={"beta1": 0.3, "beta2": 0.7, "gamma1": 1.0, "gamma2": 2.0})
     v = dy.indirect_utility(sg)

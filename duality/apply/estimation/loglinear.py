@@ -84,7 +84,8 @@ def log_linear_equation(d: Derived, *, normalise: str | None = None) -> LinearEq
                            "arguments") from None
     if poly.total_degree() > 1:
         raise DualityError(f"the log of the {d.label} has second-order terms in the logs "
-                           "(translog-like); use its share equations instead")
+                           "(translog-like); estimate it with duality.estimate, which "
+                           "derives its equations and share equations")
     coef = {a: sp.simplify(poly.coeff_monomial(L[a])) for a in d.args}
     const = sp.simplify(poly.coeff_monomial(1))
     value = sp.Symbol(FUNCTIONS[d.kind].code if d.kind in FUNCTIONS else d.kind,

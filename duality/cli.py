@@ -491,12 +491,16 @@ _FORM_BUILDERS = {"translog_cost": translog_cost,
               help="Single log-linear equation of a technology's cost function, with "
                    "homogeneity imposed by dividing by this price.")
 @click.option("--rows", default=None, help="Row range to use, e.g. 1-145 (1-based).")
+@click.option("--chunksize", type=click.IntRange(min=1), default=None,
+              help="Read the CSV or Parquet file in chunks of this many rows (a linear "
+                   "system estimated from cross-products, with a progress bar): for files "
+                   "larger than memory.")
 @json_option
 @click.pass_context
 @guarded
 def estimate_cmd(ctx, scenario_path, budget, form, data_path, column_map, share_map, fix_map,
                  equations, method, index, drop, share_tol, with_elasticities, normalise,
-                 rows, as_json, **model_kw):
+                 rows, chunksize, as_json, **model_kw):
     """Estimate a model from the equations derived from it (theory imposed)."""
     columns = _pairs(column_map, "--column", "c=cost")
     shares = _pairs(share_map, "--shares", "L=sl")
@@ -518,7 +522,9 @@ def estimate_cmd(ctx, scenario_path, budget, form, data_path, column_map, share_
         model, _ = _model_of(ctx, model_kw, scenario_path)
     if not Path(data_path).exists():
         raise _Fail(f"--data {data_path}: no such file")
-    table = pd.read_csv(data_path)
+    if chunksize is not None and (rows or normalise is not None):
+        raise _Fail("--chunksize reads the whole file in chunks; drop --rows and --normalise")
+    table = data_path if chunksize is not None else pd.read_csv(data_path)
     if rows:
         try:
             lo, hi = (int(x) for x in rows.split("-"))
@@ -530,7 +536,8 @@ def estimate_cmd(ctx, scenario_path, budget, form, data_path, column_map, share_
         return
     res = estimate(model, table, columns=columns, shares=shares, fixed=fixed,
                    equations=equations, method=method, index=index, drop=drop,
-                   share_tol=share_tol, budget=budget)
+                   share_tol=share_tol, budget=budget, chunksize=chunksize or 100_000,
+                   progress=chunksize is not None)
     el = res.elasticities() if with_elasticities else None
     if as_json:
         out = res.to_dict()

@@ -199,6 +199,14 @@ def test_estimate_a_translog_cost_and_share_system(tmp_path):
     assert text.exit_code == 0, text.output
     assert "dropped for adding-up: share F" in text.output
     assert "residual standard error" not in text.output
+    chunked = _run("estimate", "--form", "translog_cost", "--prices", "pl,pk,pf", "-q",
+                   "L,K,F", "--data", str(csv), "--column", "c=cost,y=q", "--shares",
+                   "L=sl,K=sk,F=sf", "--fix", "gyy=0", "--chunksize", "40", "--json")
+    assert chunked.exit_code == 0, chunked.output
+    doc = json.loads(chunked.output[chunked.output.index("{"):])
+    assert "cross-products" in doc["estimator"]
+    for k, p in out["parameters"].items():
+        assert abs(doc["parameters"][k]["estimate"] - p["estimate"]) < 1e-6, k
 
 
 def test_estimate_bad_options_are_one_line(tmp_path):
@@ -245,7 +253,7 @@ def test_each_command_has_exactly_its_option_groups():
         "estimate": model | {"--scenario", "--budget", "--data", "--normalise", "--column",
                              "--rows", "--json", "--form", "--shares", "--fix", "--equations",
                              "--method", "--index", "--drop", "--share-tol",
-                             "--elasticities"},
+                             "--elasticities", "--chunksize"},
         "scenarios": set(),
         "app": {"--port", "--save-dir"},
     }

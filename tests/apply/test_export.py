@@ -415,3 +415,17 @@ def test_bundle_marks_fixed_parameters_and_gives_aids_marshallian_shares():
     assert doc["adding_up_at_values"] is True
     with pytest.raises(dy.DualityError, match="fixed parameter zz"):
         dy.export.export(m, "bundle", name="aids", fixed={"zz": 0})
+
+
+def test_bundle_holds_the_estimating_equations_with_theory_imposed():
+    import json as _json
+    m = dy.translog_cost(["pl", "pk", "pf"], quantities=["L", "K", "F"], output="q")
+    doc = _json.loads(dy.export.export(m, "bundle", name="tl", fixed={"gyy": 0}))
+    est = doc["estimating_equations"]
+    assert [e["name"] for e in est["equations"]] == ["ln c", "share L", "share K"]
+    assert est["dropped"] == "share F" and est["fixed"] == {"gyy": 0.0}
+    # homogeneity (Christensen, Jorgenson and Lau 1973, from memory): a3 = 1 − a1 − a2
+    assert dy.parse(est["eliminated"]["a3"]) == dy.parse("1 - a1 - a2")
+    names = {s.name for e in est["equations"] for s in dy.parse(e["rhs"]).free_symbols}
+    assert "a3" not in names and "gyy" not in names and "a1" in names
+    assert est["equations"][1]["dependent"] == "s_L"

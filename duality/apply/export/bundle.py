@@ -18,8 +18,16 @@ Schema (``"format": "duality-estimation-bundle"``, ``"version": 1``)::
       "imposed": null | {"eliminated": {param: formula}, "kept": [param],
                           "equations": {function: formula}},
       "adding_up_at_values": true | false | null,
+      "estimating_equations": null | {"equations": [{"name", "dependent", "rhs",
+                                      "observed"}], "free": [param], "fixed": {param: v},
+                                      "eliminated": {param: formula}, "dropped": str | null},
       "notes": [str]
     }
+
+``estimating_equations`` (for a model) are the equations :func:`duality.estimate` fits: the
+log cost equation and the share equations of a cost function (or an Almost Ideal model's
+budget shares), each ``dependent = rhs`` with the theory restrictions and the fixed values
+substituted, so that ``rhs`` holds only the free parameters and observed names.
 
 Shares are ``w_i x_i / c`` (cost) or ``p_i h_i / e`` (expenditure) or ``p_i x_i / m``
 (indirect utility), from :func:`duality.shares`; for an Almost Ideal model they are its
@@ -47,6 +55,7 @@ from ...analyse.demand import shares as shares_of
 from ...analyse.restrictions import derive_restrictions, impose
 from ...solve.derive import cost, expenditure
 from ...solve.dual_forms import aids_share_equations
+from ..estimation.equations import derive_system
 from ...solve.result import Derived
 from ._collect import _item, check_names, no_closed_form, tidy
 from .code import _version
@@ -131,6 +140,28 @@ def _aids_shares(what, dual: Derived) -> list | None:
                              params=dual.params, source=dual.source, notes=dual.notes,
                              name=f"s_{q}", positive_args=frozenset(args)))
             for q, e in zip(model.quantities, aids_share_equations(model, index="exact"))]
+
+
+def _estimating(what, fixed: Mapping, notes: list) -> dict | None:
+    """The equations duality.estimate fits, in text, or None (with a note) when the model
+    has none."""
+    if not isinstance(what, Model):
+        return None
+    qs = [str(q) for q in what.quantities]
+    equations = "shares" if what.form == "aids_expenditure" else "cost+shares"
+    try:
+        system = derive_system(what, equations=equations, shares=qs, fixed=dict(fixed),
+                               index="exact")
+    except DualityError as exc:
+        notes.append(f"no estimating equations: {exc}")
+        return None
+    return {"equations": [{"name": e.name, "dependent": text_of(e.dependent, "bundle"),
+                           "rhs": text_of(e.rhs, "bundle"), "observed": e.observed}
+                          for e in system.equations],
+            "free": [p.name for p in system.free],
+            "fixed": {p.name: v for p, v in system.fixed.items()},
+            "eliminated": {p.name: text_of(e, "bundle") for p, e in system.derived.items()},
+            "dropped": system.dropped}
 
 
 def export_bundle(what, *, name: str, values: bool = True,
@@ -230,6 +261,7 @@ def export_bundle(what, *, name: str, values: bool = True,
         "columns": colmap,
         "restrictions": recs, "restrictions_note": note, "imposed": imposed_rec,
         "adding_up_at_values": _adding_up([it.derived for it in items], values_map),
+        "estimating_equations": _estimating(what, fixed, notes),
         "notes": notes,
     }
     return json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False) + "\n"

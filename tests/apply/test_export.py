@@ -429,3 +429,42 @@ def test_bundle_holds_the_estimating_equations_with_theory_imposed():
     names = {s.name for e in est["equations"] for s in dy.parse(e["rhs"]).free_symbols}
     assert "a3" not in names and "gyy" not in names and "a1" in names
     assert est["equations"][1]["dependent"] == "s_L"
+
+
+def test_estimating_equations_export_as_code(tmp_path):
+    """export(model, target, equations=True): the equations duality.estimate fits, with the
+    restrictions imposed; the Python module reproduces them and the cost stays finite for a
+    negative coefficient (written as exp of its log)."""
+    from duality.apply.estimation.equations import derive_system
+    m = dy.translog_cost(["pl", "pk", "pf"], quantities=["L", "K", "F"], output="q")
+    path = tmp_path / "tl_eq.py"
+    write(m, "python", path, name="tl", equations=True, fixed={"gyy": 0})
+    mod = _import(path, "tl_eq")
+    assert list(mod.FUNCTIONS) == ["cost_equation", "share_L_equation", "share_K_equation"]
+    system = derive_system(m, equations="cost+shares", shares=["L", "K", "F"],
+                           fixed={"gyy": 0})
+    rng = np.random.default_rng(5)
+    point = {"pl": 1.3, "pk": 0.7, "pf": 2.1, "q": 4.0}
+    theta = {p.name: float(rng.uniform(-0.3, 0.3)) for p in system.free}
+    sub = {**{sp_sym: point[sp_sym.name] for sp_sym in system.data.values()
+              if sp_sym.name in point},
+           **{p: theta[p.name] for p in system.free}}
+    for (fname, fn), eq in zip(mod.FUNCTIONS.items(), system.equations):
+        kw = {k: v for k, v in {**point, **theta}.items()
+              if k in fn.__code__.co_varnames[:fn.__code__.co_argcount]}
+        got = fn(**kw)
+        want = float(eq.rhs.xreplace(sub))
+        got = np.log(got) if fname == "cost_equation" else got
+        assert got == pytest.approx(want, rel=1e-12), fname
+    cd = dy.cost_function("exp(b0)*q^bq*pl^bl*pk^bk*pf^bf", ["pl", "pk", "pf"], output="q",
+                          params=dict.fromkeys(["b0", "bq", "bl", "bk", "bf"]))
+    path = tmp_path / "cd_eq.py"
+    write(cd, "python", path, name="cd", equations=True)
+    cd_mod = _import(path, "cd_eq")
+    v = cd_mod.cost_equation(pl=1.2, pk=0.8, pf=2.0, q=10.0, b0=-4.7, bq=0.72, bl=0.59,
+                             bk=-0.0085)
+    assert np.isfinite(v) and v > 0
+    for target in ("r", "julia", "octave", "stata", "latex", "json", "c"):
+        assert "share_L_equation" in export(m, target, name="tl", equations=True)
+    with pytest.raises(DualityError, match="give equations=True"):
+        export(m, "python", name="tl", fixed={"a0": 1})

@@ -206,11 +206,11 @@ class Estimation:
             out["returns to scale"] = 1 / cy
         elif s.shares_exact:
             shares = [self._subst(e) for e in s.shares_exact]
-            extra = {}
-            a0 = next((p for p in s.model.param_symbols if p.name == "a0"), None)
-            if a0 is not None and any(a0 in e.free_symbols for e in shares):
-                extra = {a0: 0}
-            shares = [e.xreplace(extra) for e in shares]
+            loose = sorted({p.name for e in shares for p in e.free_symbols}
+                           & {p.name for p in s.model.param_symbols} - set(self.names))
+            if loose:
+                raise DualityError(f"elasticities need a value for {', '.join(loose)}; fix "
+                                   "it in the estimate")
             m = s.level
             ps = list(s.prices)
             eta = [1 + _dlog(shares[i], m) / shares[i] for i in range(len(qs))]

@@ -417,30 +417,58 @@ _TARGET_HELP = ", ".join(f"{t.name} ({t.description})" for t in _exp.REGISTRY)
 @click.option("--out", "out_path", default=None, type=click.Path(),
               help="File (one target) or folder (several); default: print one target.")
 @click.option("--name", default="model", show_default=True, help="Name of the export.")
+@click.option("--equations", "as_equations", is_flag=True,
+              help="Export the model's estimating equations (theory imposed) instead of its "
+                   "duals; the bundle always holds them.")
+@click.option("--fix", "fix_map", multiple=True, metavar="NAME=VALUE",
+              help="Hold a parameter at a value in the estimating equations (and mark it "
+                   "fixed in the bundle), e.g. a0=0.")
 @click.pass_context
 @guarded
-def export_cmd(ctx, scenario_path, targets, out_path, name, **model_kw):
+def export_cmd(ctx, scenario_path, targets, out_path, name, as_equations, fix_map,
+               **model_kw):
     """Export every derived function as code, LaTeX, JSON or an estimation bundle."""
     model, scn = _model_of(ctx, model_kw, scenario_path)
     chosen = list(targets) or (list(scn.exports) if scn is not None else [])
     if not chosen:
         raise _Fail(f"give --target ({', '.join(_exp.NAMES)})")
+    fixed = _fixed(fix_map)
+
+    def options(target):
+        if target == "bundle":
+            return {"fixed": fixed} if fixed else {}
+        if as_equations:
+            return {"equations": True, "fixed": fixed or None}
+        if fixed:
+            raise _Fail("--fix applies to the estimating equations; add --equations")
+        return {}
     if out_path is None:
         if len(chosen) != 1:
             raise _Fail("several targets need --out FOLDER")
-        click.echo(_exp.export(model, chosen[0], name=name))
+        click.echo(_exp.export(model, chosen[0], name=name, **options(chosen[0])))
         return
     out = Path(out_path)
     if len(chosen) == 1 and not out.is_dir():
-        _exp.write(model, chosen[0], out, name=name)
+        _exp.write(model, chosen[0], out, name=name, **options(chosen[0]))
         click.echo(f"{chosen[0]} -> {out}")
         return
     if not out.is_dir():
         raise _Fail(f"--out {out}: several targets need an existing folder")
     for t in chosen:
         path = out / _exp.file_name(name, t)
-        _exp.write(model, t, path, name=name)
+        _exp.write(model, t, path, name=name, **options(t))
         click.echo(f"{t} -> {path}")
+
+
+def _fixed(fix_map) -> dict[str, float]:
+    """--fix NAME=VALUE items as numbers."""
+    fixed = {}
+    for k, v in _pairs(fix_map, "--fix", "a0=0").items():
+        try:
+            fixed[k] = float(v)
+        except ValueError:
+            raise _Fail(f"--fix {k}={v}: {v!r} is not a number") from None
+    return fixed
 
 
 def _pairs(items, option: str, example: str) -> dict[str, str]:
@@ -504,12 +532,7 @@ def estimate_cmd(ctx, scenario_path, budget, form, data_path, column_map, share_
     """Estimate a model from the equations derived from it (theory imposed)."""
     columns = _pairs(column_map, "--column", "c=cost")
     shares = _pairs(share_map, "--shares", "L=sl")
-    fixed = {}
-    for k, v in _pairs(fix_map, "--fix", "a0=0").items():
-        try:
-            fixed[k] = float(v)
-        except ValueError:
-            raise _Fail(f"--fix {k}={v}: {v!r} is not a number") from None
+    fixed = _fixed(fix_map)
     if form is not None:
         names = [p for p in (model_kw["prices"] or "").split(",") if p.strip()]
         if len(names) < 2:

@@ -209,6 +209,18 @@ def test_estimate_a_translog_cost_and_share_system(tmp_path):
         assert abs(doc["parameters"][k]["estimate"] - p["estimate"]) < 1e-6, k
 
 
+def test_export_estimating_equations(tmp_path):
+    r = _run("export", "--scenario", "scenarios/ferry_operator_translog.toml", "-t", "python",
+             "--equations", "--fix", "gyy=0")
+    assert r.exit_code == 0, r.output
+    assert "def cost_equation(" in r.output and "def share_fuel_equation(" in r.output
+    assert "gyy" not in r.output.split("def cost_equation(")[1].split(")")[0]
+    r = CliRunner().invoke(main, ["export", "--scenario",
+                                  "scenarios/ferry_operator_translog.toml", "-t", "python",
+                                  "--fix", "gyy=0"])
+    assert r.exit_code == 2 and "add --equations" in r.output
+
+
 def test_estimate_bad_options_are_one_line(tmp_path):
     csv = _electricity_csv(tmp_path)
     base = ["estimate", "--form", "translog_cost", "--prices", "pl,pk,pf", "-q", "L,K,F",
@@ -249,7 +261,8 @@ def test_each_command_has_exactly_its_option_groups():
         "run": {"--json"},
         "evaluate": model | {"--scenario", "--data", "--out", "--keep", "--chunksize",
                              "--json"},
-        "export": model | {"--scenario", "--target", "--out", "--name"},
+        "export": model | {"--scenario", "--target", "--out", "--name", "--equations",
+                           "--fix"},
         "estimate": model | {"--scenario", "--budget", "--data", "--normalise", "--column",
                              "--rows", "--json", "--form", "--shares", "--fix", "--equations",
                              "--method", "--index", "--drop", "--share-tol",

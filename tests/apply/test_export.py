@@ -464,6 +464,8 @@ def test_estimating_equations_export_as_code(tmp_path):
     v = cd_mod.cost_equation(pl=1.2, pk=0.8, pf=2.0, q=10.0, b0=-4.7, bq=0.72, bl=0.59,
                              bk=-0.0085)
     assert np.isfinite(v) and v > 0
+    stata = export(m, "stata", name="tl", equations=True)
+    assert "nl (c = pf*exp(" in stata and "nl (s_L = {a1}" in stata
     for target in ("r", "julia", "octave", "stata", "latex", "json", "c"):
         assert "share_L_equation" in export(m, target, name="tl", equations=True)
     with pytest.raises(DualityError, match="give equations=True"):

@@ -54,7 +54,9 @@ def estimating_collection(what, *, fixed: Mapping[str, float] | None = None) -> 
                         method="estimating equation (share)", params=starts, source=None,
                         notes=notes, name=f"s_{q}", positive_args=frozenset(args))
             name = f"share_{q}_equation"
-        items.append(_item(name, d))
+        it = _item(name, d)
+        it.dependent = e.observed
+        items.append(it)
     return Collection(items, what)
 
 

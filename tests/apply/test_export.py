@@ -466,7 +466,7 @@ def test_estimating_equations_export_as_code(tmp_path):
     assert np.isfinite(v) and v > 0
     stata = export(m, "stata", name="tl", equations=True)
     assert "nl (c = pf*exp(" in stata and "nl (s_L = {a1}" in stata
-    for target in ("r", "julia", "octave", "stata", "latex", "json", "c"):
+    for target in ("r", "julia", "octave", "latex", "json", "c"):
         assert "share_L_equation" in export(m, target, name="tl", equations=True)
     with pytest.raises(DualityError, match="give equations=True"):
         export(m, "python", name="tl", fixed={"a0": 1})

@@ -186,6 +186,7 @@ def test_fitted_model_works_with_the_rest_of_the_package(electricity, translog_f
 
 
 # -- elasticities and their standard errors ----------------------------------------------------
+@pytest.mark.slow
 def test_delta_method_against_finite_differences_and_simulation(electricity, translog_fit, rng):
     res = translog_fit
     table = res.elasticities(kinds=["Allen K,F", "returns to scale"])
@@ -244,7 +245,7 @@ def _aids_truth():
             "b2": -0.08, "b3": 0.03}
 
 
-def _aids_data(rng, n=600, noise=0.01):
+def _aids_data(rng, n=300, noise=0.01):
     truth = _aids_truth()
     m = dy.aids_expenditure(3, params=truth)
     eqs = dy.aids_share_equations(m, index="exact")
@@ -260,6 +261,7 @@ def _aids_data(rng, n=600, noise=0.01):
                          "s1": S[:, 0], "s2": S[:, 1], "s3": S[:, 2]}), truth
 
 
+@pytest.mark.slow
 def test_almost_ideal_exact_index_recovers_known_parameters(rng):
     data, truth = _aids_data(rng)
     res = dy.estimate(dy.aids_expenditure(3), data, shares={"x1": "s1", "x2": "s2", "x3": "s3"},
@@ -374,7 +376,7 @@ def test_bad_input_gets_one_line_messages(nerlove, electricity):
 
 
 # -- curvature ------------------------------------------------------------------------------------
-def _translog_rows(rng, gamma, n=300):
+def _translog_rows(rng, gamma, n=150):
     """Cost and shares of a translog with a = (0.3, 0.3, 0.4), ay = 1, and ``gamma``."""
     a = np.array([0.3, 0.3, 0.4])
     L = rng.normal(0, 0.2, (n, 3))
@@ -399,6 +401,7 @@ def _m_block(res):
     return G + np.outer(a, a) - np.diag(a)
 
 
+@pytest.mark.slow
 def test_local_concavity_is_imposed_where_the_data_violate_it(rng):
     # Γ with M̃ positive definite at the reference point: not concave there
     gamma = np.array([[0.3, -0.1, -0.2], [-0.1, 0.3, -0.2], [-0.2, -0.2, 0.4]])
@@ -422,6 +425,7 @@ def test_local_concavity_is_imposed_where_the_data_violate_it(rng):
     assert after <= before
 
 
+@pytest.mark.slow
 def test_local_concavity_that_does_not_bind_changes_nothing(electricity):
     d = electricity.copy()
     for c in ("pl", "pk", "pf", "q"):
@@ -451,6 +455,7 @@ def test_cross_products_by_chunks_equal_linearmodels(electricity, method):
     assert chunked.loglik == pytest.approx(lib.loglik, rel=1e-8)
 
 
+@pytest.mark.slow
 def test_files_and_dask_are_read_in_chunks(electricity, tmp_path):
     kw = dict(columns={"c": "cost"}, shares=SHARES, curvature="none")
     ref = dy.estimate(_translog(), electricity, engine="crossproducts", **kw)

@@ -26,6 +26,7 @@ from duality.solve.derive import DEFAULT_BUDGET, duals
 from duality.errors import DualityError
 from duality.apply.export import REGISTRY, export, file_name
 from duality.model.base import Model
+from duality.model.roles import ROLES
 from duality.solve.points import complete_point, value_at
 from duality.solve.result import Derived, Unavailable
 
@@ -164,7 +165,7 @@ def elasticity_tables(model: Model, point: dict) -> dict[str, pd.DataFrame] | Un
     except DualityError as exc:
         return Unavailable(str(exc))
     names = list(tab.names)
-    lvl = "output elasticity" if tab.role == "technology" else "income elasticity"
+    lvl = ROLES[tab.role].shifter + " elasticity"
     out = {"shares": pd.DataFrame({"share": tab.shares, lvl: tab.level}, index=names),
            "price": pd.DataFrame(tab.price, index=names, columns=names),
            "allen_uzawa": pd.DataFrame(tab.allen_uzawa, index=names, columns=names),
@@ -180,8 +181,7 @@ def elasticity_tables(model: Model, point: dict) -> dict[str, pd.DataFrame] | Un
 
 @lru_cache(maxsize=256)
 def _elasticities(model: Model, items: tuple):
-    level = model.level if model.is_technology else model.income
-    names = {str(s) for s in model.prices} | {str(level)}
+    names = {str(s) for s in model.prices} | {str(model.shifter)}
     return dy.elasticities(model, budget=BUDGET, **{k: v for k, v in items if k in names})
 
 

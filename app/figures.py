@@ -56,7 +56,7 @@ def _primal_fn(model: Model):
         article = "an" if side[0] in "aeiou" else "a"
         raise DualityError(f"the model was given as {article} {side} function, so there is "
                            "no production or utility function to draw its level curve from")
-    expr = model.expr.xreplace(model.values)
+    expr = model.numeric_expr
     if expr.free_symbols - set(model.quantities):
         missing = ", ".join(sorted(map(str, expr.free_symbols - set(model.quantities))))
         raise DualityError(f"parameter(s) {missing} need values to draw the level curve")
@@ -97,8 +97,7 @@ def level_curve(model: Model, dual: Derived, point: dict, pair: tuple[str, str] 
     spend = wi * xi0 + wj * xj0
     line_x = np.linspace(0.0, spend / wi, 50)
     line_y = (spend - wi * line_x) / wj
-    what = "isoquant" if model.is_technology else "indifference curve"
-    line = "isocost line" if model.is_technology else "budget line"
+    what, line = model.role_info.level_curve, model.role_info.price_line
     fig = go.Figure()
     ok = np.isfinite(xj)
     fig.add_trace(go.Scatter(x=xi[ok], y=xj[ok], mode="lines", name=f"{what} ({level:.4g})",

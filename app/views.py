@@ -16,7 +16,7 @@ import streamlit as st
 
 import duality as dy
 from duality.apply import scenario as sc
-from duality.errors import DualityError
+from duality.errors import DualityError, number_file_rows
 from duality.texts import CAUTION
 
 from . import analysis as A
@@ -262,8 +262,7 @@ def view_elasticities(model) -> None:
     st.caption("at the baseline: " + ", ".join(f"{k} = {v:.4g}" for k, v in pt.items()))
     left, right = st.columns([2, 3])
     with left:
-        st.markdown("**Shares and " + ("output" if model.is_technology else "income")
-                    + " elasticities**")
+        st.markdown(f"**Shares and {model.role_info.shifter} elasticities**")
         st.dataframe(tabs["shares"].style.format("{:.4f}"))
         st.dataframe(tabs["meta"])
     choices = [k for k in A.ELASTICITY_TITLES if k in tabs]
@@ -378,12 +377,11 @@ def view_data(model) -> None:
     scen = ss.scenario
     data, columns, where = None, None, ""
     up = st.file_uploader("Data file (.csv): one row per observation; columns named as the "
-                          "model's prices and " + ("output" if model.is_technology
-                                                    else "income"), type=["csv"],
+                          "model's prices and " + model.role_info.shifter, type=["csv"],
                           key="data_upload")
     if up is not None:
         try:
-            data = pd.read_csv(up)
+            data = number_file_rows(pd.read_csv(up))
             where = up.name
         except (ValueError, UnicodeDecodeError) as exc:
             st.error(f"{up.name}: cannot be read as CSV ({exc})")
@@ -394,7 +392,7 @@ def view_data(model) -> None:
         return
     elif scen.data is not None:
         try:
-            data = scen.read_data()
+            data = W.read_data(scen, _save_dir())
             columns = dict(scen.data.columns)
             where = scen.data.file
         except DualityError as exc:

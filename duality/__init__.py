@@ -27,6 +27,7 @@ from .analyse.checks import CheckRecord, check
 from .conjugate import Conjugate, biconjugate, conjugate
 from .analyse.demand import hotelling, roy, shares, shephard
 from .solve.derive import DEFAULT_BUDGET, cost, expenditure, indirect_utility, profit
+from .solve.budget import Budget, run_with_budget
 from .analyse.elasticity import ElasticityTable, allen_uzawa, elasticities, morishima, price_elasticities
 from .apply.estimation import Estimation, estimate
 from .apply.evaluate import evaluate, evaluate_dask, evaluate_file
@@ -89,4 +90,5 @@ __all__ = [
     "CATALOGUE", "DEFAULT_BUDGET",
     "DualityError", "FormulaError", "ModelError", "NoSolutionError", "DomainError",
     "BudgetExceeded", "NumericWarning", "Unavailable",
+    "Budget", "run_with_budget",
 ]

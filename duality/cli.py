@@ -14,18 +14,26 @@ of a built-in default technology.  Commands:
 * ``duality scenarios`` — list the scenario files of a folder
 * ``duality app``       — open the browser app on a scenario (127.0.0.1)
 
-Every bad input ends with a one-line message and a non-zero exit, never a traceback.
+Each command takes only the option groups it uses (the typed model, ``--at``, ``--budget``,
+``--json``, ``--scenario``); an option it would ignore is refused.  Every bad input ends
+with a one-line message and exit code 2 (one :func:`guarded` decorator on each command),
+never a traceback.
 """
 from __future__ import annotations
 
 import functools
 import importlib.util
 import json
+import math
+import os
+import signal
 import subprocess
 import sys
+import warnings
 from pathlib import Path
 
 import click
+import numpy as np
 import pandas as pd
 
 from . import (check as run_checks, conjugate as conj, cost, elasticities, expenditure,
@@ -36,14 +44,14 @@ from .apply.evaluate import evaluate_file, functions_of
 from .apply.welfare import scenario_table
 from .solve.derive import DEFAULT_BUDGET, duals as derive_duals
 from .solve.dual_forms import aids_expenditure, generalized_leontief_cost, translog_cost
-from .errors import DualityError
+from .errors import DualityError, number_file_rows
+from .model.formula import number_problem
 from .solve.points import complete_point, default_point, value_at
 from .solve.result import KINDS, Unavailable
 from .texts import CAUTION
 
 #: The built-in default model: a small decreasing-returns technology.
 DEFAULT = {"formula": "2*x1^0.3*x2^0.5", "role": "technology", "quantities": "x1,x2"}
-
 
 
 class _Fail(click.ClickException):
@@ -55,17 +63,42 @@ class _Fail(click.ClickException):
         click.echo(f"error: {self.format_message()}", err=True)
 
 
+def _exit_cleanly_on_signals() -> None:
+    """Let SIGTERM and SIGHUP end the command as Ctrl+C does: as an exception, so every
+    ``finally`` runs and a half-written temporary file is removed (the default action
+    would end the process on the spot and leave it behind)."""
+    def stop(signum, frame):
+        raise SystemExit(128 + signum)
+
+    for name in ("SIGTERM", "SIGHUP"):
+        sig = getattr(signal, name, None)
+        if sig is not None:
+            try:
+                signal.signal(sig, stop)
+            except (ValueError, OSError):   # not the main thread (e.g. a test runner)
+                pass
+
+
+class _Bug(_Fail):
+    """A failure the package did not foresee, still on one line (exit code 1)."""
+
+    exit_code = 1
+
+
 def guarded(fn):
     """Run a command body so that any error of ours becomes one line and exit code 2.
 
     A :class:`~duality.errors.DualityError` shows its first line; an unreadable or
     unwritable file its reason and name; a data file pandas cannot read says so.
-    Anything else is a bug and keeps its traceback.
+    Anything else is a defect, still shown on one line (exit code 1; ``DUALITY_DEBUG=1``
+    keeps its traceback).
     """
     @functools.wraps(fn)
     def run(*args, **kwargs):
         try:
             return fn(*args, **kwargs)
+        except click.ClickException:
+            raise
         except DualityError as exc:
             raise _Fail(str(exc).splitlines()[0]) from None
         except OSError as exc:  # unreadable or unwritable files
@@ -73,11 +106,21 @@ def guarded(fn):
             raise _Fail(f"{exc.strerror or exc}{where}") from None
         except UnicodeDecodeError as exc:
             raise _Fail(f"a file is not text (UTF-8): {exc.reason}") from None
+        except RecursionError:
+            raise _Fail("the input is nested too deeply to read") from None
+        except MemoryError:
+            raise _Fail("not enough memory for this input") from None
         except Exception as exc:  # pandas cannot read a data file
             if type(exc).__module__.startswith("pandas"):
                 raise _Fail(f"cannot read the data file: {str(exc).splitlines()[0]}") \
                     from None
-            raise
+            if os.environ.get("DUALITY_DEBUG"):
+                raise
+            # a failure the package did not foresee: still one line, never a traceback
+            text = (str(exc).splitlines() or [""])[0][:200]
+            raise _Bug(f"unexpected {type(exc).__name__}: {text} (a defect of duality; "
+                       "set DUALITY_DEBUG=1 to see where it happened, and please report "
+                       "it)") from None
     return run
 
 
@@ -128,7 +171,27 @@ def _parse_point(text: str) -> dict[str, float]:
             out[k.strip()] = float(v)
         except ValueError:
             raise _Fail(f"--at {item!r}: {v!r} is not a number") from None
+        problem = number_problem(out[k.strip()])
+        if problem:
+            raise _Fail(f"--at {item!r}: {problem}")
     return out
+
+
+def _check_point(model, point: dict[str, float]) -> None:
+    """Prices, output and income must be positive (the utility level may be any number)."""
+    positive = [*model.prices, model.output_price, model.income]
+    if model.is_technology:
+        positive.append(model.level)
+    for s in positive:
+        if s is not None and str(s) in point and not point[str(s)] > 0:
+            raise _Fail(f"--at {s}={point[str(s)]:g}: {s} must be positive")
+
+
+def _budget(ctx, param, value):
+    """--budget: a positive, finite number of seconds."""
+    if value is not None and not (math.isfinite(value) and value > 0):
+        raise _Fail(f"--budget {value:g}: expected a positive number of seconds")
+    return value
 
 
 def _report(model, budget, at, as_json: bool, with_checks: bool = True) -> None:
@@ -138,14 +201,17 @@ def _report(model, budget, at, as_json: bool, with_checks: bool = True) -> None:
         raise _Fail(f"--at: {exc}") from None
     found = derive_duals(model, budget=budget)
     duals = [(KINDS[kind][0], d) for kind, d in found.items()]
+    _check_point(model, point)
     point = complete_point(model, point, found)
     records = run_checks(model, budget=budget) if with_checks else []
     table = None
-    level = model.level if model.is_technology else model.income
+    level = model.shifter
     el_point = {k: v for k, v in point.items()
                 if k in {str(s) for s in model.prices} | {str(level)}}
     try:
-        table = elasticities(model, budget=budget, **el_point)
+        with np.errstate(all="ignore"), warnings.catch_warnings():
+            warnings.simplefilter("ignore", RuntimeWarning)
+            table = elasticities(model, budget=budget, **el_point)
     except (DualityError, ArithmeticError, ValueError):
         table = None
     if as_json:
@@ -230,8 +296,8 @@ point_option = click.option(
          "(default: prices 1, 2, 3, ...; y=5, p=4 or m=100; u = v(p, m)).")
 #: how long symbolic work may take
 budget_option = click.option(
-    "--budget", type=float, default=DEFAULT_BUDGET, show_default=True,
-    help="Seconds allowed for symbolic derivation before the numeric route.")
+    "--budget", type=float, default=DEFAULT_BUDGET, show_default=True, callback=_budget,
+    help="CPU seconds allowed for symbolic derivation before the numeric route.")
 #: JSON instead of text
 json_option = click.option("--json", "as_json", is_flag=True,
                            help="Print JSON instead of text.")
@@ -256,8 +322,29 @@ def _model_of(ctx: click.Context, kw: dict, scenario_path: str | None = None):
         None
 
 
-@click.group(invoke_without_command=True, context_settings={"help_option_names":
-                                                             ["-h", "--help"]})
+class _Group(click.Group):
+    """The command group; a usage error (unknown option, bad value) is one line too."""
+
+    def main(self, *args, standalone_mode: bool = True, **kwargs):
+        if not standalone_mode:
+            return super().main(*args, standalone_mode=False, **kwargs)
+        try:
+            code = super().main(*args, standalone_mode=False, **kwargs)
+        except click.UsageError as exc:
+            hint = f" (see {exc.ctx.command_path} --help)" if exc.ctx is not None else ""
+            click.echo(f"error: {exc.format_message()}{hint}", err=True)
+            sys.exit(2)
+        except click.ClickException as exc:
+            exc.show()
+            sys.exit(exc.exit_code)
+        except click.Abort:
+            click.echo("error: aborted", err=True)
+            sys.exit(1)
+        sys.exit(code if isinstance(code, int) else 0)
+
+
+@click.group(cls=_Group, invoke_without_command=True,
+             context_settings={"help_option_names": ["-h", "--help"]})
 @click.pass_context
 def main(ctx: click.Context) -> None:
     """Derive cost, profit, expenditure and indirect utility functions, their demand
@@ -265,6 +352,7 @@ def main(ctx: click.Context) -> None:
 
     With no command, shows everything for a built-in default technology
     (y = 2*x1^0.3*x2^0.5)."""
+    _exit_cleanly_on_signals()
     if ctx.invoked_subcommand is None:
         guarded(_report)(_model(DEFAULT["formula"], "technology", DEFAULT["quantities"], (),
                                 None), DEFAULT_BUDGET, None, False)
@@ -380,7 +468,7 @@ def _plain(x):
               help="Output file (.csv or .parquet), written atomically.")
 @click.option("--keep", multiple=True, help="Input column to copy to the output "
                                             "(repeatable).")
-@click.option("--chunksize", type=int, default=200_000, show_default=True,
+@click.option("--chunksize", type=click.IntRange(min=1), default=200_000, show_default=True,
               help="Rows per chunk (files larger than memory are fine).")
 @json_option
 @click.pass_context
@@ -468,6 +556,9 @@ def _fixed(fix_map) -> dict[str, float]:
             fixed[k] = float(v)
         except ValueError:
             raise _Fail(f"--fix {k}={v}: {v!r} is not a number") from None
+        problem = number_problem(fixed[k])
+        if problem:
+            raise _Fail(f"--fix {k}={v}: {problem}")
     return fixed
 
 
@@ -518,7 +609,9 @@ _FORM_BUILDERS = {"translog_cost": translog_cost,
 @click.option("--normalise", default=None,
               help="Single log-linear equation of a technology's cost function, with "
                    "homogeneity imposed by dividing by this price.")
-@click.option("--rows", default=None, help="Row range to use, e.g. 1-145 (1-based).")
+@click.option("--rows", default=None,
+              help="Rows of the data file to use, numbered as a spreadsheet shows them "
+                   "(the header is row 1), e.g. 2-146.")
 @click.option("--chunksize", type=click.IntRange(min=1), default=None,
               help="Read the CSV or Parquet file in chunks of this many rows (a linear "
                    "system estimated from cross-products, with a progress bar): for files "
@@ -547,13 +640,16 @@ def estimate_cmd(ctx, scenario_path, budget, form, data_path, column_map, share_
         raise _Fail(f"--data {data_path}: no such file")
     if chunksize is not None and (rows or normalise is not None):
         raise _Fail("--chunksize reads the whole file in chunks; drop --rows and --normalise")
-    table = data_path if chunksize is not None else pd.read_csv(data_path)
+    table = data_path if chunksize is not None else number_file_rows(pd.read_csv(data_path))
     if rows:
         try:
             lo, hi = (int(x) for x in rows.split("-"))
         except ValueError:
-            raise _Fail(f"--rows {rows!r}: expected a range such as 1-145") from None
-        table = table.iloc[lo - 1:hi]
+            raise _Fail(f"--rows {rows!r}: expected a range such as 2-146") from None
+        if not 2 <= lo <= hi:
+            raise _Fail(f"--rows {rows!r}: rows are numbered as a spreadsheet shows the "
+                        "file (the header is row 1, data starts at row 2)")
+        table = table.loc[lo:hi]
     if normalise is not None:
         _estimate_log_linear(model, budget, normalise, table, columns, as_json)
         return

@@ -17,6 +17,7 @@ import sympy as sp
 
 from .budget import run_with_budget
 from ..errors import BudgetExceeded, NoSolutionError
+from ..model.formula import substitute
 from ..model.lambdas import numpy_function
 from ..model.base import Model, _safe_eval
 from .dual_forms import BY_NAME as DUAL_FORMS
@@ -167,7 +168,7 @@ def check_monotone_level(model: Model, expr, var, why: str = "") -> None:
     """The given function must increase in its level argument for an inversion.
 
     Raises NoSolutionError (the other dual does not exist) with ``why`` appended."""
-    d = sp.diff(expr, var).xreplace(model.values)
+    d = substitute(sp.diff(expr, var), model.values)
     syms = sorted(d.free_symbols, key=str)
     fn = _fn(d, syms)
     rng = np.random.default_rng(1)

@@ -8,6 +8,7 @@ earlier routes stopped.  It is callable with keyword values; numpy arrays broadc
 """
 from __future__ import annotations
 
+import math
 import warnings
 from dataclasses import dataclass, field
 from functools import cached_property
@@ -206,6 +207,14 @@ class Derived:
         return fn, syms
 
     @cached_property
+    def _beyond_float(self) -> bool:
+        """Whether the closed form holds an exact number outside the float range."""
+        if self.expr is None:
+            return False
+        return any(abs(math.log2(abs(r.p)) - math.log2(r.q)) > 1000
+                   for r in self.expr.atoms(sp.Rational) if r != 0)
+
+    @cached_property
     def _condition_fns(self) -> list[tuple[str, Callable, list]]:
         out = []
         for c in self.conditions:
@@ -236,6 +245,11 @@ class Derived:
             else:
                 out = np.asarray(self.numeric(point), dtype=float)
             shape = np.broadcast(*point.values()).shape
+            if scalar and self._beyond_float and np.all((out == 0) | ~np.isfinite(out)):
+                raise DomainError(f"the {self.label} at this point is beyond the range of "
+                                  "floating-point numbers (about 1e-308 to 1e308): its "
+                                  "formula holds constants too large or too small; "
+                                  "rescale them")
             if out.shape != shape or not out.flags.writeable:
                 out = np.broadcast_to(out, shape).copy()
             bad = np.zeros(out.shape if self._condition_fns else (), dtype=bool)
@@ -376,6 +390,9 @@ class Solution:
         The catalogue match a catalogue solution came from (reused for the other dual).
     evaluators : Evaluators or None
         Numeric functions when the solution is numeric but not from the batched solver.
+    spent : float
+        CPU seconds its symbolic route used (a later step of the same call, such as the
+        supply of a profit problem, gets only what is left of the call's budget).
     """
 
     value: sp.Expr | None
@@ -388,6 +405,7 @@ class Solution:
     supply: sp.Expr | None = None
     match: Match | None = None
     evaluators: Evaluators | None = None
+    spent: float = 0.0
 
 
 @dataclass(frozen=True, kw_only=True)

@@ -480,7 +480,8 @@ def test_files_and_dask_are_read_in_chunks(electricity, tmp_path):
     bad = electricity.copy()
     bad.loc[bad.index[60], "pk"] = -1.0
     bad.to_csv(csv, index=False)
-    with pytest.raises(dy.DualityError, match="electricity.csv: column 'pk' .* row 61"):
+    # the row as a spreadsheet shows the file: header row 1, position 60 is row 62
+    with pytest.raises(dy.DualityError, match="electricity.csv: column 'pk' .* row 62"):
         dy.estimate(_translog(), csv, chunksize=20, **kw)
 
 

@@ -20,6 +20,7 @@ from __future__ import annotations
 
 import importlib.util
 import json
+import keyword
 import os
 import shutil
 import subprocess
@@ -178,6 +179,62 @@ def test_c_export_compiles_and_matches(cobb_douglas, substitutes, tmp_path):
         out = subprocess.run([str(exe)], capture_output=True, text=True, check=True).stdout
         got = [float(v) for v in out.split()]
         np.testing.assert_allclose(got, expected, rtol=RTOL, atol=0, err_msg=tag)
+
+
+@pytest.mark.parametrize("compiler, flags, suffix", [
+    ("gcc", ["-std=c99"], ".c"), ("g++", ["-std=c++17", "-x", "c++"], ".cpp")])
+def test_c_header_links_into_two_files_as_c_and_cpp(cobb_douglas, tmp_path, compiler, flags,
+                                                     suffix):
+    # the header is included by two translation units of one program: every symbol is
+    # static (inline), so nothing is defined twice; it also compiles as C++
+    cc = shutil.which(compiler)
+    if cc is None:
+        pytest.skip(f"{compiler} not installed: the C export is not compiled as {suffix}")
+    col = collect(cobb_douglas)
+    write(cobb_douglas, "c", tmp_path / "cd.h", name="cd")
+    it = col.items[0]
+    pts = _points(it.derived, n=1, seed=5)
+    args = ", ".join(repr(float(pts[str(a)][0])) for a in it.args)
+    (tmp_path / f"other{suffix}").write_text(
+        f'#include "cd.h"\ndouble from_other(void) {{ return {it.name}({args}); }}\n')
+    (tmp_path / f"main{suffix}").write_text(
+        '#include <stdio.h>\n#include "cd.h"\ndouble from_other(void);\n'
+        f'int main(void) {{ printf("%.17g %.17g\\n", {it.name}({args}), from_other()); '
+        'return 0; }\n')
+    exe = tmp_path / "two"
+    r = subprocess.run([cc, *flags, "-Wall", "-Werror", str(tmp_path / f"main{suffix}"),
+                        str(tmp_path / f"other{suffix}"), "-o", str(exe), "-lm"],
+                       capture_output=True, text=True)
+    assert r.returncode == 0, r.stderr
+    got = [float(v) for v in subprocess.run([str(exe)], capture_output=True, text=True,
+                                            check=True).stdout.split()]
+    want = float(it.derived(**pts)[0])
+    np.testing.assert_allclose(got, [want, want], rtol=RTOL, atol=0)
+
+
+@pytest.mark.parametrize("target, name", [
+    # <math.h> macros and C++ keywords in C headers; keywords of Julia, Octave and Stata
+    # (sources named beside each list in duality/apply/export/code.py)
+    ("c", "FP_NAN"), ("c", "HUGE_VALF"), ("c", "M_PI"), ("c", "M_E"), ("c", "bool"),
+    ("c", "class"), ("c", "sinf"), ("c", "isnan"), ("julia", "in"), ("julia", "isa"),
+    ("julia", "where"), ("octave", "endif"), ("octave", "endfor"), ("octave", "parfor"),
+    ("octave", "classdef"), ("stata", "str1"), ("stata", "str2045"), ("stata", "strL"),
+])
+def test_names_a_target_reserves_are_refused_by_name(target, name):
+    m = dy.technology("x1^0.3*x2^0.5", ["x1", "x2"], prices=[name, "w2"])
+    with pytest.raises(DualityError, match=rf"the {target} export cannot use the name "
+                                           rf"'{name}': it is a reserved word"):
+        export(dy.cost(m), target)
+    # the same model exports to JSON (which writes formula text: Python keywords excepted)
+    if not keyword.iskeyword(name):
+        assert f'"{name}"' in export(dy.cost(m), "json")
+
+
+def test_c_constant_names_cannot_become_math_macros():
+    # name "M" and parameter "PI" would make the constant M_PI, a <math.h> macro
+    m = dy.technology("PI*x1^0.3*x2^0.5", ["x1", "x2"], params={"PI": 2.0})
+    with pytest.raises(DualityError, match="'M_PI'"):
+        export(dy.cost(m), "c", name="M")
 
 
 # ----------------------------------------------------------------------------- R

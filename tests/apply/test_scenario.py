@@ -373,8 +373,11 @@ def test_keyboard_interrupt_during_save_removes_temp(tmp_path, monkeypatch):
 _RESERVED = {"y", "p", "u", "m"}
 NAME = st.from_regex(r"[A-Za-z_][A-Za-z0-9_]{0,7}", fullmatch=True).filter(
     lambda s: s not in _RESERVED)
-FINITE = st.floats(allow_nan=False, allow_infinity=False)
-POSITIVE = st.floats(min_value=0.0, exclude_min=True, allow_infinity=False)
+# the numbers a scenario accepts: zero, or about 1e-301..1e301 in size (the package's one
+# number range, duality.model.formula.MAX_BINARY_EXPONENT)
+_SIZE = st.floats(min_value=2.0 ** -1000, max_value=2.0 ** 1000)
+POSITIVE = _SIZE
+FINITE = st.one_of(st.just(0.0), _SIZE, _SIZE.map(lambda x: -x))
 TEXT = st.text(max_size=30)
 FORMULAS = ["{0}^a", "{0}^a * {1}^(1 - a)", "a*log({0}) + (1 - a)*log({1})",
             "min({0}, {1})", "({0}^r + {1}^r)^(1/r)", "{0} + b*log({1})"]

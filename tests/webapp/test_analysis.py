@@ -218,7 +218,7 @@ def test_latex_of_a_derived_function_has_its_head_and_arguments():
 
 def test_closed_conjugate_of_textbook_functions():
     # (x²/2)* = s²/2 and (eˣ)* = s ln s − s on s ≥ 0 (Boyd and Vandenberghe, Convex
-    # Optimization (2004), Example 3.21; from memory)
+    # Optimization (2004), §3.3.1, Examples 3.21–3.22; from memory)
     assert an.closed_conjugate("x^2/2", "x").startswith(r"f^*(s) = \frac{s^{2}}{2}")
     exp_conj = an.closed_conjugate("exp(x)", "x")
     assert r"s \left(\log{\left(s \right)} - 1\right)" in exp_conj

@@ -19,7 +19,7 @@ from typing import Mapping
 import numpy as np
 import sympy as sp
 
-from ...errors import DualityError
+from ...errors import DualityError, row_label
 from ...model.roles import FUNCTIONS
 from ...solve.result import Derived
 
@@ -173,7 +173,7 @@ def fit(eq: LinearEquation, data, *, columns: Mapping[str, str] | None = None) -
         bad = np.flatnonzero(~(arr > 0))
         if bad.size:
             raise DualityError(f"column '{col}' ({name}) must be positive for logs; row "
-                               f"{bad[0]} holds {arr[bad[0]]:g}")
+                               f"{row_label(data, bad[0])} holds {arr[bad[0]]:g}")
         arrays[s] = arr
     order = sorted(arrays, key=str)
     y = np.asarray(sp.lambdify(order, eq.dependent, "numpy")(*[arrays[s] for s in order]),

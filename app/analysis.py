@@ -13,6 +13,7 @@ view can show every part that does work.
 """
 from __future__ import annotations
 
+import math
 import re
 from dataclasses import dataclass
 from functools import lru_cache
@@ -412,6 +413,84 @@ def regularity(model: Model, data: pd.DataFrame, columns: dict | None = None):
     """Regularity report over ``data`` (library report object)."""
     return dy.regularity(model, data, columns=columns or None, budget=BUDGET,
                          restrictions="warn")
+
+
+# -- estimation ---------------------------------------------------------------------------
+NONE = "(not in the data)"
+
+
+def estimation_names(model: Model) -> list[tuple[str, str]]:
+    """The names an estimate can read from data, each with what it is: prices, output or
+    income, the observed cost, each observed share, and each quantity."""
+    out = [(str(p), "price") for p in model.prices]
+    if model.form == "aids_expenditure":
+        out.append((str(model.income), "total expenditure"))
+    else:
+        out.append((str(model.level), "output"))
+        out.append(("c", "observed cost"))
+    out += [(f"s_{q}", f"share of {q}") for q in model.quantities]
+    if model.form != "aids_expenditure":
+        out += [(str(q), f"quantity {q}") for q in model.quantities]
+    return out
+
+
+def mapping_table(model: Model, data_columns: list[str],
+                  given: dict | None = None) -> pd.DataFrame:
+    """The mapping table a user edits: model name, what it is, and the data column
+    (guessed when a column has the model's name)."""
+    given = dict(given or {})
+    rows = []
+    for name, what in estimation_names(model):
+        col = given.get(name, name if name in data_columns else NONE)
+        rows.append({"name": name, "meaning": what, "column": col})
+    return pd.DataFrame(rows)
+
+
+def _split(mapping: pd.DataFrame) -> tuple[dict, dict]:
+    """(columns, shares) from the mapping table; rows without a column are left out."""
+    columns, shares = {}, {}
+    for _, row in mapping.iterrows():
+        col = row["column"]
+        if col is None or col in ("", NONE) or (isinstance(col, float) and math.isnan(col)):
+            continue
+        name = str(row["name"])
+        if name.startswith("s_"):
+            shares[name[2:]] = col
+        else:
+            columns[name] = col
+    return columns, shares
+
+
+def estimate_from_mapping(model: Model, data: pd.DataFrame, mapping: pd.DataFrame, *,
+                          impose: bool = True, curvature: str = "check", **kw):
+    """``duality.estimate`` with the columns chosen in the mapping table (``kw``:
+    equations, method, fixed, index)."""
+    columns, shares = _split(mapping)
+    return dy.estimate(model, data, columns=columns, shares=shares, impose=impose,
+                       curvature=curvature, budget=BUDGET, **kw)
+
+
+def restriction_test(model: Model, data: pd.DataFrame, mapping: pd.DataFrame, **kw):
+    """Wald test of the theory restrictions, from an estimate that does not impose them;
+    or the reason there is none (a message)."""
+    try:
+        free = estimate_from_mapping(model, data, mapping, impose=False,
+                                     curvature="none", **kw)
+        return free.test()
+    except DualityError as exc:
+        return str(exc)
+
+
+def regularity_rows(result, data: pd.DataFrame, mapping: pd.DataFrame):
+    """Per-row regularity of the fitted model (library report), or the reason."""
+    cols, _ = _split(mapping)
+    names = {str(p) for p in result.model.prices} | {str(result.system.level)}
+    try:
+        return dy.regularity(result.model, data,
+                             columns={k: v for k, v in cols.items() if k in names},
+                             budget=BUDGET, restrictions="ignore")
+    except DualityError as exc:
+        return str(exc)
 
 
 # -- exports ------------------------------------------------------------------------------

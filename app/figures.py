@@ -13,6 +13,8 @@ exist for the model (no production function given, fewer than two quantities...)
 - :func:`elasticity_heatmap`: a matrix of elasticities;
 - :func:`welfare_bars`: welfare or cost changes per price variant;
 - :func:`comparison_bars`: two scenarios' numbers side by side.
+- :func:`regularity_by_row`: the fitted model's curvature measure at every data row,
+  rows that violate curvature or monotonicity marked.
 """
 from __future__ import annotations
 
@@ -368,3 +370,23 @@ def comparison_bars(frame: pd.DataFrame, names: tuple[str, str],
     fig.update_yaxes(title="", autorange="reversed")
     fig.update_xaxes(title=f"change from {names[1]} to {names[0]}, per cent")
     return _finish(fig, f"{names[0].capitalize()} against {names[1]}, {section}")
+
+
+def regularity_by_row(rows: pd.DataFrame, title: str = "Regularity of the fitted model, "
+                      "row by row") -> go.Figure:
+    """Largest eigenvalue of the substitution matrix (``max_eig``, ≤ 0 where the fitted
+    function is concave) at every row of a regularity report; violations marked."""
+    if rows.empty or "max_eig" not in rows:
+        raise DualityError("no rows to draw (the regularity report is empty)")
+    x = np.arange(1, len(rows) + 1)
+    ok = rows["concave"].to_numpy(bool) & rows["monotone"].to_numpy(bool)
+    fig = go.Figure()
+    fig.add_trace(go.Scatter(x=x[ok], y=rows["max_eig"].to_numpy(float)[ok], mode="markers",
+                             name="regular", marker=dict(color=PRIMAL, size=6)))
+    fig.add_trace(go.Scatter(x=x[~ok], y=rows["max_eig"].to_numpy(float)[~ok],
+                             mode="markers", name="curvature or monotonicity violated",
+                             marker=dict(color=ACCENT, size=8, symbol="x")))
+    fig.add_hline(y=0, line=dict(color=INK, width=1))
+    fig.update_xaxes(title="data row")
+    fig.update_yaxes(title="largest eigenvalue of the substitution matrix")
+    return _finish(fig, title)

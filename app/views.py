@@ -656,6 +656,83 @@ def _numeric_rows(main, data: pd.DataFrame, columns: dict) -> None:
     st.dataframe(frame)
 
 
+def view_estimation(model) -> None:
+    st.markdown("Estimate the parameters from data with the equations derived from the "
+                "model (log cost, shares, input–output or budget shares), homogeneity, "
+                "symmetry and adding-up imposed. Map the model's names to your columns.")
+    up = st.file_uploader("Data file (.csv)", type=["csv"], key="estimate_upload")
+    if up is None:
+        st.info("Upload a CSV file with observed prices, output (or total expenditure), "
+                "cost and shares to estimate this model.")
+        return
+    try:
+        data = pd.read_csv(up)
+    except (ValueError, UnicodeDecodeError) as exc:
+        st.error(f"{up.name}: cannot be read as CSV ({exc})")
+        return
+    st.caption(f"{len(data)} rows from {up.name}")
+    options = [A.NONE] + [str(c) for c in data.columns]
+    mapping = st.data_editor(
+        A.mapping_table(model, list(map(str, data.columns))), key="estimate_mapping",
+        hide_index=True, disabled=["name", "meaning"],
+        column_config={"column": st.column_config.SelectboxColumn(
+            "data column", options=options, required=True)})
+    c = st.columns(3)
+    equations = c[0].selectbox("equations", list(dy.estimation.EQUATIONS), key="est_eqs")
+    method = c[1].selectbox("method", list(dy.estimation.METHODS), key="est_method")
+    index = c[2].selectbox("price index (Almost Ideal)", ["exact", "stone"], key="est_index")
+    fixed_text = st.text_input("fixed parameters (name=value, comma-separated)", "",
+                               key="est_fixed")
+    fixed = {}
+    for part in (p for p in fixed_text.split(",") if p.strip()):
+        name, _, value = part.partition("=")
+        try:
+            fixed[name.strip()] = float(value)
+        except ValueError:
+            st.error(f"fixed parameter {part.strip()!r}: expected name=value, e.g. a0=0")
+            return
+    if not st.button("Estimate", key="est_run", type="primary"):
+        return
+    kw = dict(equations=equations, method=method, fixed=fixed, index=index)
+    with st.spinner("Estimating…"):
+        res = A.estimate_from_mapping(model, data, mapping, **kw)
+    st.caption(f"{res.estimator}; {res.n} rows; {len(res.system.equations)} equation(s)"
+               + (f"; dropped for adding-up: {res.dropped}" if res.dropped else ""))
+    with st.expander("estimating equations"):
+        for eq in res.system.equations:
+            st.latex(eq.as_latex())
+        st.text(res.system.as_text())
+    st.subheader("Estimates")
+    st.dataframe(res.table)
+    fits = pd.DataFrame([vars(f) for f in res.equation_fits])
+    st.dataframe(fits, hide_index=True)
+    st.caption(f"log likelihood {res.loglik:.4f}")
+    st.subheader("Elasticities at the sample mean")
+    el = res.elasticities()
+    st.dataframe(el, hide_index=True)
+    st.subheader("Tests of the theory restrictions")
+    test = A.restriction_test(model, data, mapping, **kw)
+    st.text(test if isinstance(test, str) else test.as_text())
+    st.subheader("Regularity of the fitted model")
+    rep = A.regularity_rows(res, data, mapping)
+    if isinstance(rep, str):
+        st.info(f"Not checked: {rep}")
+    else:
+        s = rep.summary
+        m = st.columns(3)
+        m[0].metric("rows", s.n_rows)
+        m[1].metric("monotonicity violations", s.monotonicity.count)
+        m[2].metric("curvature violations", s.curvature.count)
+        _figure(lambda: F.regularity_by_row(rep.rows), "est_regularity")
+    d = st.columns(3)
+    d[0].download_button("estimates (.csv)", res.table.to_csv(), "estimates.csv",
+                         key="dl_est")
+    d[1].download_button("elasticities (.csv)", el.to_csv(index=False), "elasticities.csv",
+                         key="dl_el")
+    d[2].download_button("table (.tex)", res.as_latex(), "estimates.tex", key="dl_tex")
+    st.caption("These estimates hold only for the assumed functional form and these data.")
+
+
 def view_conjugate(model) -> None:
     st.markdown("The Legendre–Fenchel conjugate f*(s) = sup_x (s·x − f(x)) of a function "
                 "of one variable. For a kinked or non-convex f it is the conjugate of the "
@@ -780,8 +857,8 @@ def view_compare(model) -> None:
 #: table of views; the first is shown on opening)
 VIEWS = {"Duals": view_duals, "Elasticities": view_elasticities, "Checks": view_checks,
          "Figures": view_figures, "Price scenarios": view_scenarios, "Data": view_data,
-         "Compare": view_compare, "Conjugate": view_conjugate,
-         "Export & save": view_export_save}
+         "Compare": view_compare, "Estimation": view_estimation,
+         "Conjugate": view_conjugate, "Export & save": view_export_save}
 FIRST_VIEW = next(iter(VIEWS))
 
 
@@ -821,7 +898,6 @@ def run() -> None:
     """The whole page (called by ``app/main.py``)."""
     st.markdown(_CSS, unsafe_allow_html=True)
     _init()
-    ss = st.session_state
     _source_picker()
     _editors()
     status = st.sidebar.container()   # filled last: a view may still edit the scenario

@@ -9,7 +9,8 @@ of a built-in default technology.  Commands:
 * ``duality run``       — a scenario file: every variant against its baseline, welfare
 * ``duality evaluate``  — the duals and demands on a CSV or Parquet file, chunk by chunk
 * ``duality export``    — code, LaTeX, JSON or an estimation bundle of every function
-* ``duality estimate``  — fit the log-linear equation of a dual by least squares
+* ``duality estimate``  — estimate a model from its derived equations (cost, shares, demand
+  systems), theory imposed
 * ``duality scenarios`` — list the scenario files of a folder
 * ``duality app``       — open the browser app on a scenario (127.0.0.1)
 
@@ -38,11 +39,12 @@ import pandas as pd
 from . import (check as run_checks, conjugate as conj, cost, elasticities, expenditure,
                preference, technology)
 from .apply import export as _exp, scenario as _scn
-from .apply.estimation import fit, log_linear_equation
+from .apply.estimation import EQUATIONS, METHODS, estimate, fit, log_linear_equation
 from .apply.evaluate import evaluate_file, functions_of
 from .apply.welfare import scenario_table
 from .solve.derive import DEFAULT_BUDGET, duals as derive_duals
 from .solve.display import decimals
+from .solve.dual_forms import aids_expenditure, generalized_leontief_cost, translog_cost
 from .errors import DualityError, number_file_rows
 from .model.formula import number_problem
 from .solve.points import complete_point, default_point, value_at
@@ -443,6 +445,14 @@ def run_cmd(scenario_file, as_json):
     click.echo(f"Caution: {CAUTION}")
 
 
+def _json_value(x):
+    """numpy numbers as floats, anything else as text (for json.dumps)."""
+    try:
+        return float(x)
+    except (TypeError, ValueError):
+        return str(x)
+
+
 def _plain(x):
     try:
         return float(x)
@@ -496,64 +506,142 @@ _TARGET_HELP = ", ".join(f"{t.name} ({t.description})" for t in _exp.REGISTRY)
 @click.option("--out", "out_path", default=None, type=click.Path(),
               help="File (one target) or folder (several); default: print one target.")
 @click.option("--name", default="model", show_default=True, help="Name of the export.")
+@click.option("--equations", "as_equations", is_flag=True,
+              help="Export the model's estimating equations (theory imposed) instead of its "
+                   "duals; the bundle always holds them.")
+@click.option("--fix", "fix_map", multiple=True, metavar="NAME=VALUE",
+              help="Hold a parameter at a value in the estimating equations (and mark it "
+                   "fixed in the bundle), e.g. a0=0.")
 @click.pass_context
 @guarded
-def export_cmd(ctx, scenario_path, targets, out_path, name, **model_kw):
+def export_cmd(ctx, scenario_path, targets, out_path, name, as_equations, fix_map,
+               **model_kw):
     """Export every derived function as code, LaTeX, JSON or an estimation bundle."""
     model, scn = _model_of(ctx, model_kw, scenario_path)
     chosen = list(targets) or (list(scn.exports) if scn is not None else [])
     if not chosen:
         raise _Fail(f"give --target ({', '.join(_exp.NAMES)})")
+    fixed = _fixed(fix_map)
+
+    def options(target):
+        if target == "bundle":
+            return {"fixed": fixed} if fixed else {}
+        if as_equations:
+            return {"equations": True, "fixed": fixed or None}
+        if fixed:
+            raise _Fail("--fix applies to the estimating equations; add --equations")
+        return {}
     if out_path is None:
         if len(chosen) != 1:
             raise _Fail("several targets need --out FOLDER")
-        click.echo(_exp.export(model, chosen[0], name=name))
+        click.echo(_exp.export(model, chosen[0], name=name, **options(chosen[0])))
         return
     out = Path(out_path)
     if len(chosen) == 1 and not out.is_dir():
-        _exp.write(model, chosen[0], out, name=name)
+        _exp.write(model, chosen[0], out, name=name, **options(chosen[0]))
         click.echo(f"{chosen[0]} -> {out}")
         return
     if not out.is_dir():
         raise _Fail(f"--out {out}: several targets need an existing folder")
     for t in chosen:
         path = out / _exp.file_name(name, t)
-        _exp.write(model, t, path, name=name)
+        _exp.write(model, t, path, name=name, **options(t))
         click.echo(f"{t} -> {path}")
+
+
+def _fixed(fix_map) -> dict[str, float]:
+    """--fix NAME=VALUE items as numbers."""
+    fixed = {}
+    for k, v in _pairs(fix_map, "--fix", "a0=0").items():
+        try:
+            fixed[k] = float(v)
+        except ValueError:
+            raise _Fail(f"--fix {k}={v}: {v!r} is not a number") from None
+        problem = number_problem(fixed[k])
+        if problem:
+            raise _Fail(f"--fix {k}={v}: {problem}")
+    return fixed
+
+
+def _pairs(items, option: str, example: str) -> dict[str, str]:
+    """NAME=VALUE items, each possibly a comma-separated list, as a dict."""
+    out = {}
+    for item in items:
+        for part in (p for p in item.split(",") if p.strip()):
+            if "=" not in part:
+                raise _Fail(f"{option} {part!r}: expected NAME=VALUE, e.g. {example}")
+            k, v = part.split("=", 1)
+            out[k.strip()] = v.strip()
+    return out
+
+
+_FORM_BUILDERS = {"translog_cost": translog_cost,
+                  "generalized_leontief_cost": generalized_leontief_cost,
+                  "aids_expenditure": aids_expenditure}
 
 
 @main.command(name="estimate", cls=_Command)
 @model_options
 @scenario_option
 @budget_option
+@click.option("--form", type=click.Choice(sorted(_FORM_BUILDERS)), default=None,
+              help="A flexible form from the catalogue instead of --formula (prices from "
+                   "--prices, quantities from --quantities).")
 @click.option("--data", "data_path", required=True, type=click.Path(dir_okay=False),
-              help="CSV file with the observed cost (or spending) and its arguments.")
-@click.option("--normalise", default=None,
-              help="Impose homogeneity in prices by dividing by this price.")
+              help="CSV file with the observed cost (or spending), prices and shares.")
 @click.option("--column", "column_map", multiple=True, metavar="NAME=COLUMN",
-              help="Data column for a name (repeatable), e.g. c=cost or y=output.")
+              help="Data column for a model name (repeatable or comma-separated), "
+                   "e.g. c=cost,y=output.")
+@click.option("--shares", "share_map", multiple=True, metavar="Q=COLUMN",
+              help="Observed share column of each quantity, e.g. L=sl,K=sk,F=sf.")
+@click.option("--fix", "fix_map", multiple=True, metavar="NAME=VALUE",
+              help="Hold a parameter at a value (repeatable or comma-separated), e.g. a0=0.")
+@click.option("--equations", type=click.Choice(list(EQUATIONS)), default="auto",
+              show_default=True, help="Which derived equations to estimate.")
+@click.option("--method", type=click.Choice(list(METHODS)), default="iterated",
+              show_default=True, help="Estimator for a system of equations.")
+@click.option("--index", type=click.Choice(["exact", "stone"]), default="exact",
+              show_default=True, help="Price index of an Almost Ideal system.")
+@click.option("--drop", default=None, help="Quantity whose share equation is dropped.")
+@click.option("--share-tol", type=float, default=1e-3, show_default=True,
+              help="How far observed shares may sum from one.")
+@click.option("--elasticities", "with_elasticities", is_flag=True,
+              help="Also print elasticities at the sample mean with standard errors.")
+@click.option("--normalise", default=None,
+              help="Single log-linear equation of a technology's cost function, with "
+                   "homogeneity imposed by dividing by this price.")
 @click.option("--rows", default=None,
               help="Rows of the data file to use, numbered as a spreadsheet shows them "
                    "(the header is row 1), e.g. 2-146.")
+@click.option("--chunksize", type=click.IntRange(min=1), default=None,
+              help="Read the CSV or Parquet file in chunks of this many rows (a linear "
+                   "system estimated from cross-products, with a progress bar): for files "
+                   "larger than memory.")
 @json_option
 @click.pass_context
 @guarded
-def estimate_cmd(ctx, scenario_path, budget, data_path, normalise, column_map, rows, as_json,
-                 **model_kw):
-    """Fit the log-linear equation of the cost function by least squares."""
-    model, _ = _model_of(ctx, model_kw, scenario_path)
-    d = cost(model, budget=budget) if model.is_technology else \
-        expenditure(model, budget=budget)
-    eq = log_linear_equation(d, normalise=normalise)
-    columns = {}
-    for item in column_map:
-        if "=" not in item:
-            raise _Fail(f"--column {item!r}: expected NAME=COLUMN, e.g. c=cost")
-        k, v = item.split("=", 1)
-        columns[k.strip()] = v.strip()
+def estimate_cmd(ctx, scenario_path, budget, form, data_path, column_map, share_map, fix_map,
+                 equations, method, index, drop, share_tol, with_elasticities, normalise,
+                 rows, chunksize, as_json, **model_kw):
+    """Estimate a model from the equations derived from it (theory imposed)."""
+    columns = _pairs(column_map, "--column", "c=cost")
+    shares = _pairs(share_map, "--shares", "L=sl")
+    fixed = _fixed(fix_map)
+    if form is not None:
+        names = [p for p in (model_kw["prices"] or "").split(",") if p.strip()]
+        if len(names) < 2:
+            raise _Fail("--form needs --prices with at least two names, e.g. pl,pk,pf")
+        qs = [q for q in model_kw["quantities"].split(",") if q.strip()]
+        kw = {"goods" if form == "aids_expenditure" else "quantities":
+              qs if len(qs) == len(names) else None}
+        model = _FORM_BUILDERS[form](names, **kw)
+    else:
+        model, _ = _model_of(ctx, model_kw, scenario_path)
     if not Path(data_path).exists():
         raise _Fail(f"--data {data_path}: no such file")
-    table = number_file_rows(pd.read_csv(data_path))
+    if chunksize is not None and (rows or normalise is not None):
+        raise _Fail("--chunksize reads the whole file in chunks; drop --rows and --normalise")
+    table = data_path if chunksize is not None else number_file_rows(pd.read_csv(data_path))
     if rows:
         try:
             lo, hi = (int(x) for x in rows.split("-"))
@@ -563,6 +651,37 @@ def estimate_cmd(ctx, scenario_path, budget, data_path, normalise, column_map, r
             raise _Fail(f"--rows {rows!r}: rows are numbered as a spreadsheet shows the "
                         "file (the header is row 1, data starts at row 2)")
         table = table.loc[lo:hi]
+    if normalise is not None:
+        _estimate_log_linear(model, budget, normalise, table, columns, as_json)
+        return
+    res = estimate(model, table, columns=columns, shares=shares, fixed=fixed,
+                   equations=equations, method=method, index=index, drop=drop,
+                   share_tol=share_tol, budget=budget, chunksize=chunksize or 100_000,
+                   progress=chunksize is not None)
+    el = res.elasticities() if with_elasticities else None
+    if as_json:
+        out = res.to_dict()
+        out["model"] = model.describe()
+        out["caution"] = CAUTION
+        if el is not None:
+            out["elasticities"] = el.to_dict(orient="records")
+        click.echo(json.dumps(out, indent=2, default=_json_value))
+        return
+    click.echo(res.system.as_text())
+    click.echo("")
+    click.echo(res.as_text())
+    if el is not None:
+        click.echo("")
+        click.echo("elasticities at the sample mean (delta-method standard errors):")
+        click.echo(el.to_string(index=False, float_format=lambda v: f"{v:.5g}"))
+    click.echo("")
+    click.echo(f"Caution: {CAUTION}")
+
+
+def _estimate_log_linear(model, budget, normalise, table, columns, as_json) -> None:
+    d = cost(model, budget=budget) if model.is_technology else \
+        expenditure(model, budget=budget)
+    eq = log_linear_equation(d, normalise=normalise)
     res = fit(eq, table, columns=columns)
     if as_json:
         click.echo(json.dumps({"equation": str(eq.dependent), "regressors":
@@ -570,6 +689,8 @@ def estimate_cmd(ctx, scenario_path, budget, data_path, normalise, column_map, r
                                "coefficients": res.coefficients,
                                "std_errors": res.std_errors,
                                "residual_std_error": res.residual_std_error,
+                               "r_squared": res.r_squared,
+                               "returns_to_scale": res.returns_to_scale,
                                "dof": res.dof, "n": res.n}, indent=2))
     else:
         click.echo(eq.as_text())

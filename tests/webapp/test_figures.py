@@ -276,3 +276,26 @@ def test_units_from_the_scenario_file_title_the_axes(pottery):
     assert cost.layout.xaxis.title.text == "output bowls (bowls)"
     level = F.level_curve(m, duals["cost"], pt, units=units)
     assert level.layout.xaxis.title.text == "quantity clay (kg)"
+
+
+def test_regularity_by_row_marks_the_rows_that_violate():
+    import pandas as pd
+    # a translog cost with Γ̃ + ãã' − diag(ã) positive definite at prices one: not concave
+    # there (Diewert and Wales, Econometrica 55 (1987), from memory); concave far from it
+    # it need not be, so the figure is checked against the report's own flags
+    m = dy.translog_cost(2, params=dict(a0=0, a1=0.5, a2=0.5, g11=0.4, g12=-0.4, g22=0.4,
+                                        ay=1, gyy=0, g1y=0, g2y=0))
+    data = pd.DataFrame({"w1": [1.0, 1.2, 0.9, 3.0], "w2": [1.0, 1.1, 1.0, 0.5],
+                         "y": [1.0, 2.0, 1.5, 1.0]})
+    rep = dy.regularity(m, data)
+    fig = F.regularity_by_row(rep.rows)
+    regular, bad = fig.data
+    flags = rep.rows["concave"].to_numpy(bool) & rep.rows["monotone"].to_numpy(bool)
+    assert list(regular.x) == [i + 1 for i in range(4) if flags[i]]
+    assert list(bad.x) == [i + 1 for i in range(4) if not flags[i]]
+    assert 1 in list(bad.x)     # the point of prices one violates curvature
+    np.testing.assert_allclose(list(bad.y) + list(regular.y),
+                               list(rep.rows["max_eig"].to_numpy()[~flags])
+                               + list(rep.rows["max_eig"].to_numpy()[flags]))
+    with pytest.raises(DualityError, match="no rows"):
+        F.regularity_by_row(rep.rows.iloc[:0])

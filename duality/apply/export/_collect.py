@@ -47,6 +47,7 @@ class Item:
     free: tuple                  # parameters without a value (sorted by name)
     valued: tuple                # parameters with a value (sorted by name)
     values: dict = field(default_factory=dict)   # Symbol -> float for ``valued``
+    dependent: str = ""          # observed variable it is fitted to (estimating equations)
 
     @property
     def params(self) -> tuple:

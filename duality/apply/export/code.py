@@ -582,7 +582,8 @@ def export_stata(col: Collection, *, name: str, values: bool = True) -> str:
     """One ``nl (<function name> = <expression>)`` line per function.
 
     Variables are the argument names (rename the data columns to match, or edit); the
-    dependent variable is named after the function.  Parameters are ``{a}``; with
+    dependent variable is named after the function, or for an estimating equation after
+    the observed variable it is fitted to (``c``, ``s_x1``).  Parameters are ``{a}``; with
     ``values=True`` the first occurrence carries the model's value as the initial value
     ``{a=0.3}`` (``nl`` estimates every parameter; values are starting points, not
     constants).  Stata's ``nl`` needs smooth expressions: Piecewise, min and max are
@@ -597,7 +598,7 @@ def export_stata(col: Collection, *, name: str, values: bool = True) -> str:
         p = _Stata(params, values)
         out.append("")
         out += ["* " + ln for ln in _describe(it)]
-        out.append(f"nl ({it.name} = {p.doprint(it.expr)})")
+        out.append(f"nl ({it.dependent or it.name} = {p.doprint(it.expr)})")
     return "\n".join(out) + "\n"
 
 

@@ -13,6 +13,7 @@ view can show every part that does work.
 """
 from __future__ import annotations
 
+import math
 import re
 from dataclasses import dataclass
 from functools import lru_cache
@@ -23,9 +24,13 @@ import sympy as sp
 
 import duality as dy
 from duality.solve.derive import DEFAULT_BUDGET, duals
+from duality.solve.display import decimals, lines, log_form, terms
+from duality.analyse import theory
+from duality.analyse.restrictions import check_values, describe_violation, impose
 from duality.errors import DualityError
 from duality.apply.export import REGISTRY, export, file_name
 from duality.model.base import Model
+from duality.model.roles import ROLES
 from duality.solve.points import complete_point, value_at
 from duality.solve.result import Derived, Unavailable
 
@@ -128,7 +133,7 @@ def tex(expr) -> str:
     """LaTeX with an explicit product dot and upright multi-letter names (names here are
     often words: A·clay^0.3, w_clay)."""
     names = {s: _symbol_tex(s) for s in getattr(expr, "free_symbols", ())}
-    return sp.latex(expr, mul_symbol="dot", symbol_names=names)
+    return sp.latex(expr, mul_symbol="dot", symbol_names=names, ln_notation=True)
 
 
 def _args_tex(args) -> str:
@@ -136,13 +141,34 @@ def _args_tex(args) -> str:
 
 
 def latex_of(d: Derived) -> str:
-    """``head(args) = closed form`` of a derived function, or a note that it is numeric."""
+    """``head(args) = closed form`` of a derived function, or a note that it is numeric.
+
+    Numeric constants built from roots and powers print as decimals (six figures), a
+    function of the form ``exp(…)`` prints in log form, ``ln c(…) = …``, and a long sum
+    is broken over lines.
+    """
     if d.expr is None:
         return d.latex()
     head = d.latex().split("(", 1)[0]
     if d.name and head == sp.latex(sp.Symbol(d.name)):
         head = tex(sp.Symbol(d.name))
-    return f"{head}({_args_tex(d.args)}) = {tex(d.expr)}"
+    lhs, expr = log_form(f"{head}({_args_tex(d.args)})", decimals(d.expr), ln=r"\ln ")
+    return broken(lhs, expr)
+
+
+#: rough width of one displayed line, in characters of LaTeX source
+LINE = 180
+
+
+def broken(lhs: str, expr) -> str:
+    """``lhs = expr`` in LaTeX; a long sum goes over several aligned lines, one break
+    between terms."""
+    full = f"{lhs} = {tex(expr)}"
+    if len(full) <= LINE or not expr.is_Add:
+        return full
+    rows = lines(terms(expr, tex), LINE)
+    return (r"\begin{aligned} " + lhs + " &= " + r" \\ &\quad ".join(rows)
+            + r" \end{aligned}")
 
 
 def model_latex(model: Model) -> str:
@@ -150,7 +176,8 @@ def model_latex(model: Model) -> str:
     head = model.given.latex
     if model.is_primal:
         return f"{tex(model.level)} = {head}({_args_tex(model.quantities)}) = {tex(model.expr)}"
-    return f"{head}({_args_tex(model.dual_args)}) = {tex(model.expr)}"
+    return broken(*log_form(f"{head}({_args_tex(model.dual_args)})", model.expr,
+                            ln=r"\ln "))
 
 
 # -- elasticities -------------------------------------------------------------------------
@@ -164,7 +191,7 @@ def elasticity_tables(model: Model, point: dict) -> dict[str, pd.DataFrame] | Un
     except DualityError as exc:
         return Unavailable(str(exc))
     names = list(tab.names)
-    lvl = "output elasticity" if tab.role == "technology" else "income elasticity"
+    lvl = ROLES[tab.role].shifter + " elasticity"
     out = {"shares": pd.DataFrame({"share": tab.shares, lvl: tab.level}, index=names),
            "price": pd.DataFrame(tab.price, index=names, columns=names),
            "allen_uzawa": pd.DataFrame(tab.allen_uzawa, index=names, columns=names),
@@ -180,10 +207,17 @@ def elasticity_tables(model: Model, point: dict) -> dict[str, pd.DataFrame] | Un
 
 @lru_cache(maxsize=256)
 def _elasticities(model: Model, items: tuple):
-    level = model.level if model.is_technology else model.income
-    names = {str(s) for s in model.prices} | {str(level)}
+    names = {str(s) for s in model.prices} | {str(model.shifter)}
     return dy.elasticities(model, budget=BUDGET, **{k: v for k, v in items if k in names})
 
+
+#: axis titles of each matrix's heat map: (rows, columns)
+ELASTICITY_AXES = {
+    "price": ("demand for (row i)", "price that changes (column j)"),
+    "compensated": ("demand for (row i)", "price that changes (column j)"),
+    "allen_uzawa": ("quantity i", "quantity j"),
+    "morishima": ("price that changes (row i)", "ratio x_j / x_i (column j)"),
+}
 
 ELASTICITY_TITLES = {
     "price": "own- and cross-price elasticities",
@@ -202,13 +236,100 @@ def checks(model: Model, symbolic: bool = True) -> tuple:
 
 
 def checks_frame(records) -> pd.DataFrame:
+    """One row per check; a missing number is NaN (shown as a dash, never 'None')."""
     rows = []
     for r in records:
         rows.append({"check": r.name, "status": r.status, "evidence": r.evidence,
-                     "largest error": r.max_error, "points": r.points or None,
-                     "counterexample": "" if not r.counterexample else
-                     ", ".join(f"{k}={v:.4g}" for k, v in r.counterexample.items())})
+                     "largest error": np.nan if r.max_error is None else r.max_error,
+                     "points": r.points or np.nan,
+                     "counterexample": ", ".join(
+                         f"{k} = {_short(v)}" for k, v in
+                         counterexample_frame(r.counterexample)["value"].items())})
     return pd.DataFrame(rows)
+
+
+def counterexample_frame(point) -> pd.DataFrame:
+    """A check's counterexample as a small table: one row per name (nested entries
+    named ``outer.inner``), one ``value`` column."""
+    if not point:
+        return pd.DataFrame({"value": []})
+    flat = pd.json_normalize(point, sep=".").iloc[0]
+    frame = flat.to_frame("value")
+    frame.index.name = "name"
+    return frame
+
+
+def _short(v) -> str:
+    try:
+        return f"{float(v):.4g}"
+    except (TypeError, ValueError):
+        return str(v)
+
+
+# -- theory restrictions -----------------------------------------------------------------
+_RESTRICTIONS: dict = {}
+
+
+def _restrictions(model: Model) -> list:
+    """The model's theory restrictions, derived once per formula (not per value)."""
+    key = (model.side, model.expr, tuple(model.prices), tuple(model.param_symbols))
+    if key not in _RESTRICTIONS:
+        try:
+            _RESTRICTIONS[key] = theory.restrictions(model)
+        except DualityError:
+            _RESTRICTIONS[key] = []
+    return _RESTRICTIONS[key]
+
+
+@dataclass(frozen=True)
+class Broken:
+    """Theory restrictions the parameter values break, and the values that impose them
+    (dependent parameters replaced, the others kept)."""
+
+    messages: tuple[str, ...]
+    imposed: dict
+
+
+@lru_cache(maxsize=256)
+def broken_restrictions(model: Model) -> Broken | None:
+    """The restrictions (homogeneity, adding-up, symmetry) of a model given on the dual
+    side that its parameter values break, or None when they hold or do not apply."""
+    if model.is_primal or model.free_params:
+        return None
+    rs = _restrictions(model)
+    if not rs:
+        return None
+    known = {s.name for r in rs for s in tuple(r.parameters) + r.symbols}
+    values = {p.name: p.value for p in model.params if p.name in known}
+    bad = check_values(rs, values, tol=1e-8)
+    if not bad:
+        return None
+    imposed: dict = {}
+    linear = [r for r in rs if r.linear]
+    if linear:
+        try:
+            _reduced, mapping, _kept = impose(model.expr, linear, list(model.param_symbols))
+        except DualityError:
+            mapping = {}
+        at = {p.symbol: p.value for p in model.params}
+        # twelve figures: the sums of decimal parameters carry rounding noise otherwise
+        now = {p.name: p.value for p in model.params}
+        imposed = {str(p): float(f"{float(e.xreplace(at)):.12g}") for p, e in mapping.items()}
+        imposed = {k: v for k, v in imposed.items() if abs(v - now[k]) > 1e-12}
+    return Broken(tuple(describe_violation(r, res) for r, res in bad), imposed)
+
+
+# -- recovery -----------------------------------------------------------------------------
+@lru_cache(maxsize=16)
+def recovered(model: Model, point: tuple):
+    """The technology or preference behind a cost or expenditure function
+    (:func:`duality.recover`, numeric route), over price ratios w_i/w_1 within a factor
+    of three of those at ``point`` (sorted items): flexible forms are regular only near
+    their data, and the recovery must not range over prices where they are not."""
+    pt = dict(point)
+    ps = [str(p) for p in model.prices]
+    ratios = [pt[p] / pt[ps[0]] for p in ps[1:]]
+    return dy.recover(model, budget=0, price_ratios=(min(ratios) / 3, max(ratios) * 3))
 
 
 # -- price scenarios ----------------------------------------------------------------------
@@ -231,14 +352,60 @@ WELFARE_MEASURES = {
 }
 
 
+#: what a bar's measure is, where its name alone does not say it
+BAR_LABELS = {"profit": "maximum profit (output chosen at the variant's prices)",
+              "total cost": "total cost (at the variant's output)"}
+
+
 def welfare_bars_data(table: pd.DataFrame, role: str) -> pd.DataFrame:
     """Variant × measure changes for the bar chart (long format)."""
     rows = []
     for (variant, measure), row in table.iterrows():
         if measure in WELFARE_MEASURES[role] and pd.notna(row["change"]):
-            rows.append({"variant": variant, "measure": measure,
+            rows.append({"variant": variant, "measure": BAR_LABELS.get(measure, measure),
                          "change": float(row["change"])})
     return pd.DataFrame(rows, columns=["variant", "measure", "change"])
+
+
+# -- comparison ---------------------------------------------------------------------------
+def key_values(scenario) -> dict[tuple[str, str], float]:
+    """The numbers a comparison shows for one scenario, keyed by (section, item): each
+    dual and its demands at the baseline, own-price elasticities, and every price
+    variant's figures."""
+    model = scenario.build_model()
+    found, pt = cards(model, scenario.points()[0])
+    out: dict[tuple[str, str], float] = {}
+    for c in found:
+        if isinstance(c, UnavailableCard):
+            continue
+        out[("at the baseline", c.title)] = c.value
+        for d in c.demands:
+            out[("at the baseline", f"{c.title}: demand {d.title}")] = d.value
+    tabs = elasticity_tables(model, pt)
+    if not isinstance(tabs, Unavailable):
+        for q in tabs["price"].index:
+            out[("own-price elasticity", q)] = float(tabs["price"].loc[q, q])
+    table = welfare(scenario)
+    if not isinstance(table, Unavailable):
+        for (variant, measure), row in table.iterrows():
+            out[("price scenarios", f"{variant}: {measure}")] = float(row["variant"])
+    return out
+
+
+def comparison(first, second, names: tuple[str, str]) -> pd.DataFrame:
+    """Two scenarios side by side: columns ``section``, ``item``, one per scenario
+    (``names``), ``difference`` (first − second; NaN where either lacks the item) and
+    ``change %`` (the difference in per cent of the second; NaN where that is 0)."""
+    a, b = key_values(first), key_values(second)
+    keys = list(a) + [k for k in b if k not in a]
+    frame = pd.DataFrame([{"section": k[0], "item": k[1],
+                           names[0]: a.get(k), names[1]: b.get(k)} for k in keys],
+                         columns=["section", "item", *names])
+    frame[list(names)] = frame[list(names)].astype(float)
+    frame["difference"] = frame[names[0]] - frame[names[1]]
+    base = frame[names[1]].abs().where(frame[names[1]] != 0)
+    frame["change %"] = 100.0 * frame["difference"] / base
+    return frame
 
 
 # -- regularity ---------------------------------------------------------------------------
@@ -246,6 +413,84 @@ def regularity(model: Model, data: pd.DataFrame, columns: dict | None = None):
     """Regularity report over ``data`` (library report object)."""
     return dy.regularity(model, data, columns=columns or None, budget=BUDGET,
                          restrictions="warn")
+
+
+# -- estimation ---------------------------------------------------------------------------
+NONE = "(not in the data)"
+
+
+def estimation_names(model: Model) -> list[tuple[str, str]]:
+    """The names an estimate can read from data, each with what it is: prices, output or
+    income, the observed cost, each observed share, and each quantity."""
+    out = [(str(p), "price") for p in model.prices]
+    if model.form == "aids_expenditure":
+        out.append((str(model.income), "total expenditure"))
+    else:
+        out.append((str(model.level), "output"))
+        out.append(("c", "observed cost"))
+    out += [(f"s_{q}", f"share of {q}") for q in model.quantities]
+    if model.form != "aids_expenditure":
+        out += [(str(q), f"quantity {q}") for q in model.quantities]
+    return out
+
+
+def mapping_table(model: Model, data_columns: list[str],
+                  given: dict | None = None) -> pd.DataFrame:
+    """The mapping table a user edits: model name, what it is, and the data column
+    (guessed when a column has the model's name)."""
+    given = dict(given or {})
+    rows = []
+    for name, what in estimation_names(model):
+        col = given.get(name, name if name in data_columns else NONE)
+        rows.append({"name": name, "meaning": what, "column": col})
+    return pd.DataFrame(rows)
+
+
+def _split(mapping: pd.DataFrame) -> tuple[dict, dict]:
+    """(columns, shares) from the mapping table; rows without a column are left out."""
+    columns, shares = {}, {}
+    for _, row in mapping.iterrows():
+        col = row["column"]
+        if col is None or col in ("", NONE) or (isinstance(col, float) and math.isnan(col)):
+            continue
+        name = str(row["name"])
+        if name.startswith("s_"):
+            shares[name[2:]] = col
+        else:
+            columns[name] = col
+    return columns, shares
+
+
+def estimate_from_mapping(model: Model, data: pd.DataFrame, mapping: pd.DataFrame, *,
+                          impose: bool = True, curvature: str = "check", **kw):
+    """``duality.estimate`` with the columns chosen in the mapping table (``kw``:
+    equations, method, fixed, index)."""
+    columns, shares = _split(mapping)
+    return dy.estimate(model, data, columns=columns, shares=shares, impose=impose,
+                       curvature=curvature, budget=BUDGET, **kw)
+
+
+def restriction_test(model: Model, data: pd.DataFrame, mapping: pd.DataFrame, **kw):
+    """Wald test of the theory restrictions, from an estimate that does not impose them;
+    or the reason there is none (a message)."""
+    try:
+        free = estimate_from_mapping(model, data, mapping, impose=False,
+                                     curvature="none", **kw)
+        return free.test()
+    except DualityError as exc:
+        return str(exc)
+
+
+def regularity_rows(result, data: pd.DataFrame, mapping: pd.DataFrame):
+    """Per-row regularity of the fitted model (library report), or the reason."""
+    cols, _ = _split(mapping)
+    names = {str(p) for p in result.model.prices} | {str(result.system.level)}
+    try:
+        return dy.regularity(result.model, data,
+                             columns={k: v for k, v in cols.items() if k in names},
+                             budget=BUDGET, restrictions="ignore")
+    except DualityError as exc:
+        return str(exc)
 
 
 # -- exports ------------------------------------------------------------------------------

@@ -11,7 +11,10 @@ exist for the model (no production function given, fewer than two quantities...)
 - :func:`conjugate_envelope`: a one-variable function, its conjugate, and the supporting
   lines whose upper envelope is the convex envelope of the function;
 - :func:`elasticity_heatmap`: a matrix of elasticities;
-- :func:`welfare_bars`: welfare or cost changes per price variant.
+- :func:`welfare_bars`: welfare or cost changes per price variant;
+- :func:`comparison_bars`: two scenarios' numbers side by side.
+- :func:`regularity_by_row`: the fitted model's curvature measure at every data row,
+  rows that violate curvature or monotonicity marked.
 """
 from __future__ import annotations
 
@@ -40,6 +43,13 @@ _LAYOUT = dict(template="plotly_white", font=dict(family="Source Sans Pro, sans-
                margin=dict(l=60, r=20, t=50, b=50), legend=dict(orientation="h", y=-0.18))
 
 
+def axis(what: str, name: str, units: dict | None = None, scale: str = "") -> str:
+    """An axis title: ``price w_clay (£ per kg, log scale)``, the unit from the scenario
+    file's ``[units]`` table when it has one for ``name``."""
+    inside = [u for u in ((units or {}).get(name, ""), scale) if u]
+    return f"{what} {name}" + (f" ({', '.join(inside)})" if inside else "")
+
+
 def _finish(fig: go.Figure, title: str) -> go.Figure:
     fig.update_layout(title=dict(text=title, x=0.0, xanchor="left"), **_LAYOUT)
     if fig.layout.annotations:  # subplot titles: leave room under the figure's title
@@ -54,7 +64,7 @@ def _primal_fn(model: Model):
         article = "an" if side[0] in "aeiou" else "a"
         raise DualityError(f"the model was given as {article} {side} function, so there is "
                            "no production or utility function to draw its level curve from")
-    expr = model.expr.xreplace(model.values)
+    expr = model.numeric_expr
     if expr.free_symbols - set(model.quantities):
         missing = ", ".join(sorted(map(str, expr.free_symbols - set(model.quantities))))
         raise DualityError(f"parameter(s) {missing} need values to draw the level curve")
@@ -68,7 +78,7 @@ def _demand_values(d: Derived, point: dict) -> dict[str, float]:
 
 
 def level_curve(model: Model, dual: Derived, point: dict, pair: tuple[str, str] | None = None,
-                n: int = 200) -> go.Figure:
+                n: int = 200, units: dict | None = None) -> go.Figure:
     """Isoquant (technology) or indifference curve (preference) through the optimum.
 
     ``dual`` is the cost function (technology) or the expenditure function (preference);
@@ -87,27 +97,63 @@ def level_curve(model: Model, dual: Derived, point: dict, pair: tuple[str, str] 
     xstar = _demand_values(dual, point)
     level = float(np.asarray(f(*[xstar[q] for q in qs])))
     i, j = qs.index(pair[0]), qs.index(pair[1])
-    prices = [str(p) for p in model.prices]
-    wi, wj = point[prices[i]], point[prices[j]]
     xi0, xj0 = xstar[pair[0]], xstar[pair[1]]
     xi = np.geomspace(xi0 / 6.0, xi0 * 6.0, n)
     xj = _solve_level(f, qs, xstar, i, j, xi, level, xj0)
+    return _level_figure(model, point, pair, xstar, xi, xj, level, recovered=False,
+                         units=units)
+
+
+def recovered_level_curve(model: Model, recovered, dual: Derived, point: dict,
+                          n: int = 80, units: dict | None = None) -> go.Figure:
+    """The isoquant or indifference curve of the technology or preference recovered from
+    a cost or expenditure function (``recovered``: :func:`duality.recover`), through the
+    bundle the dual's demands give at ``point``, in the plane of the first two quantities
+    (the others at that bundle); marked as recovered."""
+    qs = [str(q) for q in model.quantities]
+    if len(qs) < 2:
+        raise DualityError("a level curve needs at least two quantities")
+    xstar = _demand_values(dual, point)
+    level = float(point[str(model.level)])
+    other = {q: xstar[q] for q in qs[2:]} or None
+    pts = np.asarray(recovered.isoquant(level, n=n, other=other), dtype=float)
+    return _level_figure(model, point, tuple(qs[:2]), xstar, pts[:, 0], pts[:, 1], level,
+                         recovered=True, units=units)
+
+
+def _level_figure(model: Model, point: dict, pair: tuple, xstar: dict, xi: np.ndarray,
+                  xj: np.ndarray, level: float, recovered: bool,
+                  units: dict | None = None) -> go.Figure:
+    """The level curve (points ``xi``, ``xj``) with the isocost or budget line through
+    the optimal bundle ``xstar`` and the bundle marked."""
+    qs = [str(q) for q in model.quantities]
+    i, j = qs.index(pair[0]), qs.index(pair[1])
+    prices = [str(p) for p in model.prices]
+    wi, wj = point[prices[i]], point[prices[j]]
+    xi0, xj0 = xstar[pair[0]], xstar[pair[1]]
     spend = wi * xi0 + wj * xj0
     line_x = np.linspace(0.0, spend / wi, 50)
     line_y = (spend - wi * line_x) / wj
-    what = "isoquant" if model.is_technology else "indifference curve"
-    line = "isocost line" if model.is_technology else "budget line"
+    what, line = model.role_info.level_curve, model.role_info.price_line
+    source = "cost" if model.is_technology else "expenditure"
+    name = f"{what} ({level:.4g})" + (f", recovered from the {source} function"
+                                      if recovered else "")
     fig = go.Figure()
-    ok = np.isfinite(xj)
-    fig.add_trace(go.Scatter(x=xi[ok], y=xj[ok], mode="lines", name=f"{what} ({level:.4g})",
-                             line=dict(color=PRIMAL, width=3)))
+    ok = np.isfinite(xi) & np.isfinite(xj)
+    fig.add_trace(go.Scatter(x=xi[ok], y=xj[ok], mode="lines", name=name,
+                             line=dict(color=PRIMAL, width=3, dash="dot" if recovered
+                                       else "solid")))
     fig.add_trace(go.Scatter(x=line_x, y=line_y, mode="lines", name=line,
                              line=dict(color=DUAL, width=2, dash="dash")))
     fig.add_trace(go.Scatter(x=[xi0], y=[xj0], mode="markers", name="optimal bundle",
                              marker=dict(color=ACCENT, size=12, symbol="diamond")))
-    fig.update_xaxes(title=pair[0], range=[0, 2.2 * xi0])
-    fig.update_yaxes(title=pair[1], range=[0, 2.2 * xj0])
-    return _finish(fig, f"{what.capitalize()} and {line} at the chosen prices")
+    fig.update_xaxes(title=axis("quantity", pair[0], units), range=[0, 2.2 * xi0])
+    fig.update_yaxes(title=axis("quantity", pair[1], units), range=[0, 2.2 * xj0])
+    title = f"{what.capitalize()} and {line} at the chosen prices"
+    if recovered:
+        title = (f"Recovered {what} (from the {source} function) and {line} at the "
+                 "chosen prices")
+    return _finish(fig, title)
 
 
 def _solve_level(f, qs, xstar, i, j, xi, level, xj0, iters: int = 80) -> np.ndarray:
@@ -140,7 +186,8 @@ def _solve_level(f, qs, xstar, i, j, xi, level, xj0, iters: int = 80) -> np.ndar
     return np.where(valid, out, np.nan)
 
 
-def cost_curves(cost: Derived, point: dict, n: int = 120) -> go.Figure:
+def cost_curves(cost: Derived, point: dict, n: int = 120,
+                units: dict | None = None) -> go.Figure:
     """Total, average and marginal cost against output at the point's input prices.
 
     Marginal cost is the derivative of the closed form where there is one, otherwise a
@@ -167,16 +214,29 @@ def cost_curves(cost: Derived, point: dict, n: int = 120) -> go.Figure:
                                                         "marginal cost"))
     fig.add_trace(go.Scatter(x=ys, y=tc, name="total cost c(w, y)",
                              line=dict(color=PRIMAL, width=3)), 1, 1)
-    fig.add_trace(go.Scatter(x=ys, y=tc / ys, name="average cost c/y",
+    fig.add_trace(go.Scatter(x=ys, y=steady(tc / ys), name="average cost c/y",
                              line=dict(color=DUAL, width=2)), 1, 2)
-    fig.add_trace(go.Scatter(x=ys, y=mc, name="marginal cost ∂c/∂y",
+    fig.add_trace(go.Scatter(x=ys, y=steady(mc), name="marginal cost ∂c/∂y",
                              line=dict(color=ACCENT, width=2, dash="dot")), 1, 2)
     fig.add_vline(x=y0, line=dict(color=MUTED, dash="dash"))
-    fig.update_xaxes(title=str(y))
+    fig.update_xaxes(title=axis("output", str(y), units))
+    fig.update_yaxes(title="cost", row=1, col=1)
+    fig.update_yaxes(title="cost per unit of output", row=1, col=2)
     return _finish(fig, "Cost against output at the chosen input prices")
 
 
-def demand_curves(dual: Derived, point: dict, n: int = 81) -> go.Figure:
+def steady(values: np.ndarray, rel: float = 1e-9) -> np.ndarray:
+    """``values``, or their mean where they differ only by rounding (relative spread at
+    most ``rel``): a constant curve is drawn flat, not as noise on a magnified axis."""
+    v = np.asarray(values, dtype=float)
+    finite = v[np.isfinite(v)]
+    if finite.size and np.ptp(finite) <= rel * np.abs(finite).max():
+        return np.where(np.isfinite(v), finite.mean(), v)
+    return v
+
+
+def demand_curves(dual: Derived, point: dict, n: int = 81,
+                  units: dict | None = None) -> go.Figure:
     """Each demand of ``dual`` against its own price, the other arguments fixed at
     ``point`` (one panel per quantity; the point itself is marked)."""
     dem = dual.demands
@@ -197,7 +257,9 @@ def demand_curves(dual: Derived, point: dict, n: int = 81) -> go.Figure:
                                  line=dict(color=SERIES[k % len(SERIES)], width=3)), r, c)
         fig.add_trace(go.Scatter(x=[base[p]], y=[x[mid]], mode="markers", showlegend=False,
                                  marker=dict(color=INK, size=9)), r, c)
-        fig.update_xaxes(title=p, type="log", row=r, col=c)
+        fig.update_xaxes(title=axis("price", p, units, "log scale"), type="log", row=r,
+                         col=c)
+        fig.update_yaxes(title=axis("quantity", q, units), row=r, col=c)
     kind = {"cost": "Conditional", "profit": "Unconditional", "expenditure": "Hicksian",
             "indirect_utility": "Marshallian"}.get(dual.kind, "")
     return _finish(fig, f"{kind} demands against their own prices")
@@ -256,8 +318,10 @@ def conjugate_envelope(formula: str, var: str = "x", lower: float = -3.0,
     return _finish(fig, "Legendre–Fenchel conjugate as the envelope of supporting lines")
 
 
-def elasticity_heatmap(matrix: pd.DataFrame, title: str) -> go.Figure:
-    """A heat map of an elasticity matrix (rows and columns labelled by quantity)."""
+def elasticity_heatmap(matrix: pd.DataFrame, title: str, rows: str = "row",
+                       columns: str = "column") -> go.Figure:
+    """A heat map of an elasticity matrix (rows and columns labelled by quantity;
+    ``rows`` and ``columns`` title the axes)."""
     vals = matrix.to_numpy(dtype=float)
     finite = vals[np.isfinite(vals)]
     bound = float(np.abs(finite).max()) if finite.size else 1.0
@@ -266,7 +330,8 @@ def elasticity_heatmap(matrix: pd.DataFrame, title: str) -> go.Figure:
                                zmin=-bound, zmax=bound, text=text, texttemplate="%{text}",
                                colorscale=[[0.0, ACCENT], [0.5, "#f4f1ea"], [1.0, PRIMAL]],
                                colorbar=dict(title="elasticity")))
-    fig.update_yaxes(autorange="reversed")
+    fig.update_yaxes(autorange="reversed", title=rows)
+    fig.update_xaxes(title=columns, side="bottom")
     return _finish(fig, title)
 
 
@@ -284,4 +349,44 @@ def welfare_bars(data: pd.DataFrame, title: str = "Change per variant",
     fig.add_hline(y=0, line=dict(color=INK, width=1))
     fig.update_layout(barmode="group")
     fig.update_yaxes(title=axis)
+    return _finish(fig, title)
+
+
+def comparison_bars(frame: pd.DataFrame, names: tuple[str, str],
+                    section: str = "at the baseline") -> go.Figure:
+    """Horizontal bars of one section of :func:`app.analysis.comparison`: each item's
+    change from the second scenario to the first, in per cent (items of very different
+    size read on one axis)."""
+    part = frame[frame["section"] == section].dropna(subset=["change %"])
+    if part.empty:
+        raise DualityError(f"nothing to compare under {section!r}")
+    colours = [PRIMAL if v >= 0 else ACCENT for v in part["change %"]]
+    fig = go.Figure(go.Bar(y=part["item"], x=part["change %"], orientation="h",
+                           marker_color=colours, name="change",
+                           text=[f"{v:+.3g} %" for v in part["change %"]],
+                           textposition="outside"))
+    fig.add_vline(x=0, line=dict(color=INK, width=1))
+    fig.update_layout(height=140 + 32 * len(part), showlegend=False)
+    fig.update_yaxes(title="", autorange="reversed")
+    fig.update_xaxes(title=f"change from {names[1]} to {names[0]}, per cent")
+    return _finish(fig, f"{names[0].capitalize()} against {names[1]}, {section}")
+
+
+def regularity_by_row(rows: pd.DataFrame, title: str = "Regularity of the fitted model, "
+                      "row by row") -> go.Figure:
+    """Largest eigenvalue of the substitution matrix (``max_eig``, ≤ 0 where the fitted
+    function is concave) at every row of a regularity report; violations marked."""
+    if rows.empty or "max_eig" not in rows:
+        raise DualityError("no rows to draw (the regularity report is empty)")
+    x = np.arange(1, len(rows) + 1)
+    ok = rows["concave"].to_numpy(bool) & rows["monotone"].to_numpy(bool)
+    fig = go.Figure()
+    fig.add_trace(go.Scatter(x=x[ok], y=rows["max_eig"].to_numpy(float)[ok], mode="markers",
+                             name="regular", marker=dict(color=PRIMAL, size=6)))
+    fig.add_trace(go.Scatter(x=x[~ok], y=rows["max_eig"].to_numpy(float)[~ok],
+                             mode="markers", name="curvature or monotonicity violated",
+                             marker=dict(color=ACCENT, size=8, symbol="x")))
+    fig.add_hline(y=0, line=dict(color=INK, width=1))
+    fig.update_xaxes(title="data row")
+    fig.update_yaxes(title="largest eigenvalue of the substitution matrix")
     return _finish(fig, title)

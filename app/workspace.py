@@ -9,15 +9,18 @@ functions, and tests call them directly.
 from __future__ import annotations
 
 import copy
+import json
 import math
 import os
 import re
+import secrets
 from dataclasses import dataclass
 from pathlib import Path
 
 import pandas as pd
 
 from duality.apply import scenario as sc
+from duality.apply.files import write_atomic
 from duality.errors import DualityError
 from duality.model.formula import parse
 
@@ -26,6 +29,8 @@ ROOT = Path(__file__).resolve().parents[1]
 SCENARIO_DIR = ROOT / "scenarios"
 #: the scenario the app opens with
 DEFAULT_SCENARIO = "pottery_workshop.toml"
+#: longest file name a save accepts (file systems refuse names above 255 bytes)
+MAX_NAME = 120
 
 
 @dataclass(frozen=True)
@@ -42,6 +47,10 @@ def list_scenarios(folder: Path = SCENARIO_DIR) -> list[Entry]:
     """Every ``*.toml`` file in ``folder``, sorted by name, with its title or its error."""
     out = []
     for path in sorted(Path(folder).glob("*.toml")):
+        if not _is_inside(path, folder):
+            out.append(Entry(path.name, path, path.stem, f"{path.name}: a link to a file "
+                             "outside this folder; the app does not read it"))
+            continue
         try:
             out.append(Entry(path.name, path, sc.load(path).title))
         except DualityError as exc:
@@ -58,7 +67,9 @@ def read_upload(data: bytes, name: str) -> dict:
     """An uploaded scenario file as a dictionary (validated, its model built).
 
     An upload has no folder, so a data file it names cannot be found: the ``[data]``
-    table is kept (and saved back) but the data file must be attached separately.
+    table is kept (and saved back) but the data file must be attached separately.  Its
+    path must stay inside the folder the scenario is saved in (no absolute path, no
+    ``..``), so that saving it never points the app at a file elsewhere.
     """
     try:
         text = data.decode("utf-8")
@@ -70,7 +81,49 @@ def read_upload(data: bytes, name: str) -> dict:
         scenario.build_model()
     except DualityError as exc:
         raise DualityError(str(exc).replace("<scenario text>", name, 1)) from None
+    if scenario.data is not None:
+        _relative_inside(scenario.data.file, name)
     return sc.to_dict(scenario)
+
+
+# -- folders the app reads and writes -------------------------------------------------------
+def _is_inside(path: Path, folder: Path) -> bool:
+    """Whether ``path`` resolves (symbolic links followed) inside ``folder``."""
+    try:
+        real, root = Path(path).resolve(), Path(folder).resolve()
+    except (OSError, RuntimeError):     # a link loop
+        return False
+    return real == root or root in real.parents
+
+
+def _relative_inside(file: str, where: str) -> None:
+    p = Path(file)
+    if p.is_absolute() or p.drive or ".." in p.parts:
+        raise DualityError(f"{where}: key 'data.file': the app reads data files only from "
+                           "the scenario's own folder; give a path inside it (no absolute "
+                           "path, no '..')")
+
+
+def data_file(scenario: sc.Scenario, save_dir: Path | None = None) -> Path:
+    """The scenario's data file, refused unless it resolves (links followed) inside the
+    scenario's own folder or ``save_dir``; the message never shows the file's content."""
+    path = scenario.data_path()
+    if path is None:
+        raise DualityError(f"{scenario.where}: key 'data': this scenario has no data file")
+    folders = [Path(scenario.path).parent] if scenario.path is not None else []
+    if save_dir is not None:
+        folders.append(Path(save_dir))
+    if not any(_is_inside(path, f) for f in folders):
+        raise DualityError(f"{scenario.where}: key 'data.file': {scenario.data.file} lies "
+                           "outside the scenario's folder; the app reads data files only "
+                           "from the scenario's own folder or the save folder")
+    return path
+
+
+def read_data(scenario: sc.Scenario, save_dir: Path | None = None) -> pd.DataFrame:
+    """The scenario's data (rows numbered as in the file), from an allowed folder only."""
+    data_file(scenario, save_dir)
+    return scenario.read_data()
 
 
 def build(raw: dict, path: Path | None = None) -> sc.Scenario:
@@ -245,13 +298,19 @@ def plan_save(file_name: str, folder: Path, origin: Path | None) -> SavePlan:
     name = file_name.strip()
     if not name:
         raise DualityError("file name: give a name ending in .toml")
+    if len(name) > MAX_NAME:
+        raise DualityError(f"file name: {len(name)} characters; at most {MAX_NAME}")
     if not name.endswith(".toml"):
         name += ".toml"
     if (os.sep in name or (os.altsep and os.altsep in name) or name.startswith(".")
             or not re.fullmatch(r"[A-Za-z0-9_.\- ]+\.toml", name)):
         raise DualityError(f"file name: {file_name!r} must be a plain file name (letters, "
                            "digits, '_', '-', '.', spaces) ending in .toml, with no folder")
-    path = (Path(folder) / name).resolve()
+    target = Path(folder) / name
+    if target.is_symlink() or not _is_inside(target, folder):
+        raise DualityError(f"file name: {name} in the save folder is a link to a file "
+                           "elsewhere; the app writes only inside its save folder")
+    path = target.resolve()
     exists = path.exists()
     own = origin is not None and Path(origin).resolve() == path
     if exists and not own:
@@ -264,9 +323,106 @@ def plan_save(file_name: str, folder: Path, origin: Path | None) -> SavePlan:
     return SavePlan(path, False, False, f"saves a new file {name}")
 
 
-def save(raw: dict, plan: SavePlan, confirmed: bool = False) -> Path:
-    """Write the scenario as planned (atomic; previous version kept as ``.bak``)."""
+def save(raw: dict, plan: SavePlan, confirmed: bool = False,
+         origin: Path | None = None) -> Path:
+    """Write the scenario as planned (atomic; previous version kept as ``.bak``).
+
+    ``origin`` is the file the scenario came from: a data file it names is found from
+    there and copied beside the saved file under the same relative path (see
+    :func:`_data_beside`), so the saved scenario reads its data from its own folder.
+    """
     if plan.needs_confirmation and not confirmed:
         raise DualityError(plan.message)
-    scenario = build(raw, path=plan.path)
+    folder = plan.path.parent
+    bak = plan.path.with_name(plan.path.name + ".bak")
+    for p in (plan.path, bak):     # checked again: a link may have appeared since planning
+        if p.is_symlink() or not _is_inside(p, folder):
+            raise DualityError(f"not saved: {p.name} in the save folder is a link to a file "
+                               "elsewhere; the app writes only inside its save folder")
+    scenario = build(raw, path=origin if origin is not None else plan.path)
+    if scenario.data is not None:
+        _data_beside(scenario, data_file(scenario), plan.path)
     return sc.save(scenario, plan.path, backup=True)
+
+
+def _data_beside(scenario: sc.Scenario, source: Path, target: Path) -> None:
+    """Copy the data file ``source`` to the same relative path beside ``target``
+    (atomically), unless it is there already; a different file there is never replaced."""
+    _relative_inside(scenario.data.file, str(target))
+    dest = target.parent / scenario.data.file
+    if dest.exists() and dest.resolve() == source.resolve():
+        return
+    data = source.read_bytes()
+    if dest.exists():
+        if dest.is_symlink() or not _is_inside(dest, target.parent) \
+                or dest.read_bytes() != data:
+            raise DualityError(f"not saved: {dest} already exists and differs from the "
+                               f"scenario's data file {source.name}; save into another "
+                               "folder or remove it")
+        return
+    try:
+        dest.parent.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise DualityError(f"not saved: cannot make {dest.parent} for the data file "
+                           f"({exc.strerror or exc})") from None
+    if not _is_inside(dest, target.parent):
+        raise DualityError(f"not saved: {dest.parent} is a link out of the save folder")
+    write_atomic(dest, data, what="copy the data file")
+
+
+# -- drafts -------------------------------------------------------------------------------
+#: the folder, inside the save folder, that holds the drafts of unsaved edits
+DRAFTS = ".drafts"
+_DRAFT_ID = re.compile(r"[0-9a-f]{16}")
+
+
+def new_draft_id() -> str:
+    """A fresh name for a draft (random, so two browser tabs never share one)."""
+    return secrets.token_hex(8)
+
+
+def draft_path(folder: Path, draft_id: str) -> Path:
+    """Where the draft ``draft_id`` lives under the save ``folder``."""
+    if not _DRAFT_ID.fullmatch(draft_id or ""):
+        raise DualityError(f"draft {draft_id!r}: not a draft name (16 hexadecimal digits)")
+    return Path(folder) / DRAFTS / f"{draft_id}.json"
+
+
+def write_draft(folder: Path, draft_id: str, raw: dict, origin: Path | None,
+                label: str) -> Path:
+    """Keep the edited scenario ``raw`` (with where it came from) as a draft, atomically
+    (:func:`duality.apply.files.write_atomic`: a draft on disk is always a whole one)."""
+    path = draft_path(folder, draft_id)
+    text = json.dumps({"origin": None if origin is None else str(origin), "label": label,
+                       "scenario": raw}, indent=1)
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise DualityError(f"{path.parent}: cannot keep a draft there "
+                           f"({exc.strerror or exc})") from None
+    write_atomic(path, text, what="keep the draft")
+    return path
+
+
+def read_draft(folder: Path, draft_id: str) -> tuple[dict, Path | None, str]:
+    """The draft's scenario (validated), the file it came from and its label."""
+    path = draft_path(folder, draft_id)
+    try:
+        saved = json.loads(path.read_text(encoding="utf-8"))
+        raw, label = saved["scenario"], str(saved["label"])
+        origin = Path(saved["origin"]) if saved.get("origin") else None
+    except FileNotFoundError:
+        raise DualityError(f"{path}: the draft is gone (saved or discarded since)") \
+            from None
+    except (OSError, ValueError, KeyError, TypeError) as exc:
+        raise DualityError(f"{path}: not a readable draft ({exc})") from None
+    build(raw, origin)
+    return raw, origin, label
+
+
+def drop_draft(folder: Path, draft_id: str) -> None:
+    """Remove a draft (after its edits were saved or discarded); absent is fine."""
+    try:
+        draft_path(folder, draft_id).unlink()
+    except FileNotFoundError:
+        pass

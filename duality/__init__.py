@@ -27,7 +27,9 @@ from .analyse.checks import CheckRecord, check
 from .conjugate import Conjugate, biconjugate, conjugate
 from .analyse.demand import hotelling, roy, shares, shephard
 from .solve.derive import DEFAULT_BUDGET, cost, expenditure, indirect_utility, profit
+from .solve.budget import Budget, run_with_budget
 from .analyse.elasticity import ElasticityTable, allen_uzawa, elasticities, morishima, price_elasticities
+from .apply.estimation import Estimation, estimate
 from .apply.evaluate import evaluate, evaluate_dask, evaluate_file
 from .errors import (BudgetExceeded, DomainError, DualityError, FormulaError, ModelError,
                      NoSolutionError)
@@ -81,10 +83,12 @@ __all__ = [
     "DUAL_CATALOGUE", "restrictions", "violations", "impose_restrictions", "regularity",
     "RegularityReport", "recover", "Recovered", "load_scenario", "save_scenario",
     "scenario_table", "price_change",
+    "estimate", "Estimation",
     "biconjugate", "elasticities", "shephard", "hotelling", "roy", "shares", "allen_uzawa",
     "morishima", "price_elasticities", "parse", "evaluate", "evaluate_dask", "evaluate_file",
     "Model", "Parameter", "Derived", "Conjugate", "CheckRecord", "ElasticityTable",
     "CATALOGUE", "DEFAULT_BUDGET",
     "DualityError", "FormulaError", "ModelError", "NoSolutionError", "DomainError",
     "BudgetExceeded", "NumericWarning", "Unavailable",
+    "Budget", "run_with_budget",
 ]

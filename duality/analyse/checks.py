@@ -5,9 +5,10 @@ lemmas, Roy's identity, the Slutsky equation, symmetry and negative semidefinite
 the substitution matrix, e(p, v(p, m)) = m and v(p, e(p, u)) = u, homogeneity, adding-up,
 monotonicity and curvature of each dual.
 
-Each check is first tried symbolically (the residual simplifies to zero: ``proved``, under
-a per-check time budget in a worker process), then numerically at sampled points
-(``held`` with the largest relative error, or ``failed`` with the counterexample point).
+Each check is evaluated numerically at sampled points (``held`` with the largest relative
+error, or ``failed`` with the counterexample point), and tried symbolically where that can
+succeed (the residual, with the model's parameter values put in exactly, simplifies to zero:
+``proved``; in a worker process within the check's budget of CPU seconds).
 Properties that are inequalities (monotonicity, curvature) are only ever ``held`` or
 ``failed``.  A check that cannot apply (no profit function under constant returns, say)
 is ``not applicable`` with the reason.  Front ends only display these records.
@@ -15,26 +16,33 @@ is ``not applicable`` with the reason.  Front ends only display these records.
 from __future__ import annotations
 
 import math
+import signal
+import threading
 import warnings
+from contextlib import contextmanager
 from dataclasses import dataclass
 from typing import Callable, Sequence
 
 import numpy as np
 import sympy as sp
 
-from ..solve.budget import run_with_budget
+from ..solve.budget import Budget, run_with_budget
 from ..solve.calculus import Fn
 from ..solve.derive import DEFAULT_BUDGET, cost, expenditure, indirect_utility, profit
-from ..solve.numeric import _Fns, compile_model
-from ..solve.points import sample_points
-from ..errors import BudgetExceeded, DualityError, NoSolutionError
+from ..solve.points import sample_points, sample_primal_points
+from ..errors import DualityError, NoSolutionError
 from ..model.base import Model
 from ..solve.result import NumericWarning
 
 STATUSES = ("proved", "held", "failed", "not applicable")
 
-#: Seconds allowed for each symbolic proof attempt (at most the derivation budget).
-PROOF_BUDGET = 2.0
+#: CPU seconds allowed for the proof of each check (out of the budget of ``check()``).
+PROOF_BUDGET = 1.0
+#: Residuals of one check larger than this many operations in all are not tried
+#: symbolically (the Slutsky equation of a 3-good Almost Ideal model has about 15,000 and
+#: needs several CPU seconds; every proof of the catalogue and 2-good flexible forms has
+#: under 1,500).
+PROOF_SIZE_LIMIT = 4000
 
 #: Relative tolerance of numeric checks by finite-difference depth of the residual.
 TOLERANCE = {0: 1e-8, 1: 1e-5, 2: 1e-3}
@@ -101,52 +109,189 @@ class _Spec:
     domain: Sequence = ()                       # sympy conditions: skip points outside
 
 
-def _is_zero(expr: sp.Expr) -> bool:
-    """Worker: does ``expr`` simplify to zero?"""
-    if expr == 0:
-        return True
-    for attempt in (lambda e: sp.simplify(e),
-                    lambda e: sp.simplify(sp.powsimp(sp.expand_power_base(
-                        sp.expand_log(e, force=True), force=True), force=True)),
-                    lambda e: sp.simplify(sp.logcombine(sp.powdenest(e, force=True),
-                                                        force=True)),
-                    # homogeneity: pull a common positive factor out of sums under powers
-                    lambda e: sp.simplify(sp.powsimp(sp.expand_power_base(sp.factor_terms(
-                        sp.expand_power_base(e, force=True)), force=True), force=True))):
+def _exact(expr: sp.Expr) -> sp.Expr:
+    """``expr`` with every float written as the exact decimal it stands for (0.3 -> 3/10)."""
+    floats = expr.atoms(sp.Float)
+    return expr.xreplace({f: sp.Rational(str(f)) for f in floats}) if floats else expr
+
+
+def _powers(e):
+    return sp.powsimp(sp.expand_power_base(e, force=True), force=True)
+
+
+def _homogeneous(e):
+    """Common factors pulled out of sums under powers, then powers combined."""
+    return _powers(sp.factor_terms(sp.expand_power_base(e, force=True)))
+
+
+#: Rewrites tried by a proof, cheapest first, until one gives exactly zero.  (Measured on
+#: the residuals of the catalogue and flexible forms: tenths of a second in all.)
+_CHEAP = (
+    lambda e: sp.expand(sp.expand_log(e, force=True)),          # sums of logs, polynomials
+    _homogeneous,                                               # products of powers
+    lambda e: sp.cancel(_powers(sp.powdenest(e, force=True))),  # rational functions
+    lambda e: sp.expand(_powers(e)),
+)
+_COSTLY = (
+    sp.simplify,
+    lambda e: sp.simplify(_powers(sp.expand_log(e, force=True))),
+    lambda e: sp.simplify(sp.logcombine(sp.powdenest(e, force=True), force=True)),
+    lambda e: sp.simplify(_homogeneous(e)),
+)
+
+
+class _SliceUsed(Exception):
+    """One rewrite used its slice of CPU time."""
+
+
+def _on_slice_used(signum, frame):
+    raise _SliceUsed()
+
+
+@contextmanager
+def _cpu_slice(seconds: float | None):
+    """Stop the block (with :class:`_SliceUsed`) after ``seconds`` of process CPU time.
+
+    Only in a worker's main thread and where ``ITIMER_PROF`` exists; elsewhere no limit.
+    """
+    if (not seconds or not hasattr(signal, "setitimer")
+            or threading.current_thread() is not threading.main_thread()):
+        yield
+        return
+    old = signal.signal(signal.SIGPROF, _on_slice_used)
+    signal.setitimer(signal.ITIMER_PROF, seconds)
+    try:
+        yield
+    finally:
+        signal.setitimer(signal.ITIMER_PROF, 0)
+        signal.signal(signal.SIGPROF, old)
+
+
+def _zero_by(attempts, expr, cpu_slice: float | None = None) -> bool:
+    for attempt in attempts:
         try:
-            if attempt(expr) == 0:
-                return True
+            with _cpu_slice(cpu_slice):
+                if attempt(expr) == 0:
+                    return True
         except Exception:  # noqa: BLE001 - a failed attempt is just not a proof
             continue
     return False
 
 
-def _run(spec: _Spec, points: list[dict], budget: float | None, names: dict) -> CheckRecord:
-    exprs = getattr(spec, "symbolic_exprs", None) or [r.sym for r in spec.residuals]
-    if spec.symbolic and exprs and all(e is not None for e in exprs):
+#: CPU seconds each cheap rewrite may take inside a worker before the next is tried (a
+#: rewrite that suits one residual can blow up on another, e.g. expanding a power).
+CHEAP_SLICE = 0.15
+
+
+def _is_zero(expr: sp.Expr, values: dict | None = None, cpu_slice: float | None = None,
+             stage: str = "all") -> bool:
+    """Worker: does ``expr`` simplify to zero (with ``values`` put in, exactly)?
+
+    ``stage`` ``"cheap"`` tries the cheap rewrites only, each within ``cpu_slice`` CPU
+    seconds; ``"costly"`` only ``simplify`` and its variants (smooth functions); ``"all"``
+    both.  Kinked functions (min, max, piecewise) are proved branch by branch with the
+    cheap rewrites.
+    """
+    if values:
+        expr = expr.xreplace(values)
+    expr = _exact(expr)
+    if expr == 0:
+        return True
+    cheap, costly = stage in ("cheap", "all"), stage in ("costly", "all")
+    if expr.has(sp.Piecewise, sp.Min, sp.Max, sp.Heaviside):
+        if not cheap:
+            return False
         try:
-            proved = all(run_with_budget(_is_zero, e, budget=budget) for e in exprs)
-        except BudgetExceeded:
-            proved = False
+            folded = sp.piecewise_fold(expr.rewrite(sp.Piecewise))
         except Exception:  # noqa: BLE001
-            proved = False
-        if proved:
-            return CheckRecord(spec.name, spec.statement, "proved",
-                               "the residual simplifies to zero symbolically")
-    worst, worst_pt, used = 0.0, None, 0
+            return _zero_by(_CHEAP, expr, cpu_slice)
+        if isinstance(folded, sp.Piecewise):
+            return all(_zero_by(_CHEAP, branch, cpu_slice) for branch, _ in folded.args)
+        return _zero_by(_CHEAP, folded, cpu_slice)
+    return ((cheap and _zero_by(_CHEAP, expr, cpu_slice))
+            or (costly and _zero_by(_COSTLY, expr)))
+
+
+def _all_zero(exprs: list, values: dict | None, cpu_slice: float | None = None,
+              stage: str = "all") -> bool:
+    """Worker: every residual of one check simplifies to zero."""
+    return all(_is_zero(e, values, cpu_slice, stage) for e in exprs)
+
+
+#: Proofs already found, by residual and parameter values (the same structure proves the
+#: same way every time; a proof that ran out of budget is not remembered).
+_PROVED: dict = {}
+
+
+def _prove(exprs: list, values: dict, account: Budget | None,
+           stage: str = "all") -> tuple[bool, bool]:
+    """(proved, values_used): try the residuals symbolically within ``account``."""
+    used = bool(values) and any(e.free_symbols & set(values) for e in exprs)
+    key = (tuple(sp.srepr(e) for e in exprs),
+           tuple(sorted((str(k), str(v)) for k, v in values.items())) if used else ())
+    if key in _PROVED:
+        return True, used
+    try:
+        in_worker = account is not None and account.remaining is not None
+        proved = bool(run_with_budget(_all_zero, list(exprs), values if used else None,
+                                      CHEAP_SLICE if in_worker else None, stage,
+                                      budget=account))
+    except Exception:  # noqa: BLE001 - out of budget or a sympy failure: not a proof
+        return False, used
+    if proved:
+        _PROVED[key] = True
+    return proved, used
+
+
+def _run(spec: _Spec, points: list[dict], budget: Budget | float | None, names: dict,
+         values: dict | None = None) -> CheckRecord:
+    """One check: a proof unless a quick look finds the residual far from zero at a
+    sampled point, else the numeric pass at ``points``.
+
+    ``budget`` is the account of the whole ``check()`` call; the proofs of one check may
+    use at most :data:`PROOF_BUDGET` of it, and the numeric pass stops when it is used up.
+    """
+    account = Budget.of(budget)
+    values = values or {}
     tol = TOLERANCE.get(spec.depth, 1e-3)
+    exprs = getattr(spec, "symbolic_exprs", None) or [r.sym for r in spec.residuals]
+    symbolic = bool(spec.symbolic and exprs and all(e is not None for e in exprs))
+    # no budget at all (``budget=None``): proofs run in this process without a limit
+    proof = account if account.remaining is None else account.share(PROOF_BUDGET)
+
+    def proved(stage):
+        ok, with_values = _prove(exprs, values, proof, stage)
+        if not ok:
+            return None
+        at = " at the model's parameter values" if with_values else ""
+        return CheckRecord(spec.name, spec.statement, "proved",
+                           f"the residual simplifies to zero symbolically{at}")
+
+    # a residual clearly non-zero at a sampled point cannot simplify to zero, and one far
+    # larger than any the proof budget can handle is not tried (a rule on size, not time)
+    with account.measure():
+        hopeless = symbolic and (sum(sp.count_ops(e) for e in exprs) > PROOF_SIZE_LIMIT
+                                 or _clearly_nonzero(spec, points, values))
+    if symbolic and not hopeless and not proof.exhausted:
+        rec = proved("all")
+        if rec is not None:
+            return rec
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", NumericWarning)
-        worst, worst_pt, used = _numeric_pass(spec, points)
+        worst, worst_pt, used, stopped = _numeric_pass(spec, points, account)
     skipped = len(points) - used
-    if skipped and used:
+    if stopped is not None:
+        skipped_note = (f" (the budget of {account.total:g} CPU s was used up before "
+                        f"{len(points) - stopped} of {len(points)} points)")
+    elif skipped and used:
         skipped_note = (f" ({skipped} of {len(points)} sampled points lie outside the "
                         "region where it is defined or could not be computed)")
     else:
         skipped_note = ""
     if used == 0:
-        return CheckRecord(spec.name, spec.statement, "not applicable",
-                           "no sampled point could be evaluated")
+        why = (f"the budget of {account.total:g} CPU s was used up before any point was "
+               "tried" if stopped is not None else "no sampled point could be evaluated")
+        return CheckRecord(spec.name, spec.statement, "not applicable", why)
     where = None if worst_pt is None else {names.get(k, str(k)): float(v)
                                            for k, v in worst_pt.items()}
     if worst <= tol:
@@ -159,20 +304,49 @@ def _run(spec: _Spec, points: list[dict], budget: float | None, names: dict) -> 
                        worst, used, where)
 
 
-def _numeric_pass(spec: _Spec, points: list[dict]):
-    worst, worst_pt, used = 0.0, None, 0
+def _clearly_nonzero(spec: _Spec, points: list[dict], values: dict) -> bool:
+    """A quick look before any proof: is a residual far from zero (relative to its own
+    terms) at the first sampled point inside the domain?  Exact sympy evaluation at that
+    point; no compiled functions.  False whenever it cannot tell."""
+    exprs = [r.sym for r in spec.residuals]
+    if not exprs or any(e is None for e in exprs):
+        return False
     for pt in points:
         if not _inside(spec.domain, pt):
             continue
+        at = {k: sp.Float(v) for k, v in pt.items()}
+        at.update({k: v for k, v in values.items() if k not in at})
+        for e in exprs:
+            try:
+                terms = [complex(sp.N(t.xreplace(at))) for t in sp.Add.make_args(e)]
+            except (TypeError, ValueError, ArithmeticError):
+                return False  # symbols left, or not a number there
+            if not all(math.isfinite(abs(t)) for t in terms):
+                continue
+            if abs(sum(terms)) > 1e-6 * max(abs(t) for t in terms):
+                return True
+        return False
+    return False
+
+
+def _numeric_pass(spec: _Spec, points: list[dict], account: Budget):
+    """(worst error, its point, points used, points reached when the budget ran out or None)."""
+    worst, worst_pt, used = 0.0, None, 0
+    for k, pt in enumerate(points):
+        if account.exhausted:
+            return worst, worst_pt, used, k
+        if not _inside(spec.domain, pt):
+            continue
         try:
-            if spec.sign_test is not None:
-                viol, scale = spec.sign_test(pt)
-                errs = [viol / max(scale, 1e-300)]
-            else:
-                errs = []
-                for k, r in enumerate(spec.residuals):
-                    s = abs(spec.scale[k](pt)) if k < len(spec.scale) else 1.0
-                    errs.append(abs(r(pt)) / max(s, 1.0 if not spec.scale else 1e-300))
+            with account.measure():
+                if spec.sign_test is not None:
+                    viol, scale = spec.sign_test(pt)
+                    errs = [viol / max(scale, 1e-300)]
+                else:
+                    errs = []
+                    for k2, r in enumerate(spec.residuals):
+                        s = abs(spec.scale[k2](pt)) if k2 < len(spec.scale) else 1.0
+                        errs.append(abs(r(pt)) / max(s, 1.0 if not spec.scale else 1e-300))
         except (DualityError, ArithmeticError, ValueError, KeyError):
             continue
         if any(not math.isfinite(e) for e in errs):
@@ -181,7 +355,7 @@ def _numeric_pass(spec: _Spec, points: list[dict]):
         err = max(errs)
         if err > worst:
             worst, worst_pt = err, pt
-    return worst, worst_pt, used
+    return worst, worst_pt, used, None
 
 
 def _inside(conds, pt) -> bool:
@@ -208,28 +382,19 @@ def _sample(model: Model, n: int, seed: int) -> list[dict]:
     """Points with prices in [0.5, 3] and reachable levels; parameter values included."""
     if not model.is_primal:
         return _sample_dual(model, n, seed)
-    rng = np.random.default_rng(seed)
-    comp = compile_model(model)
     pts = []
-    for _ in range(n):
-        pv = {s: model.values.get(s, float(rng.uniform(0.2, 0.6))) for s in comp.params}
-        F = _Fns(comp, tuple(pv[s] for s in comp.params))
-        x = rng.uniform(0.5, 3.0, len(model.quantities))
-        level = F.f(x)
-        for _ in range(8):  # e.g. Stone–Geary: scale up until above subsistence
-            if math.isfinite(level):
-                break
-            x = 2.0 * x
-            level = F.f(x)
-        pt = {**pv}
-        prices = rng.uniform(0.5, 3.0, len(model.prices))
-        pt.update(zip(model.prices, prices))
+    for smp in sample_primal_points(model, n, seed,
+                                    output_price=model.output_price is not None):
+        x = smp.quantities
+        level = smp.fns.f(x)
+        pt = {**smp.params}
+        pt.update(zip(model.prices, smp.prices))
         if math.isfinite(level):
             pt[model.level] = level
         if model.income is not None:
-            pt[model.income] = float(prices @ x)
-        if model.output_price is not None:
-            pt[model.output_price] = float(rng.uniform(1.0, 3.0))
+            pt[model.income] = float(smp.prices @ x)
+        if smp.output_price is not None:
+            pt[model.output_price] = smp.output_price
         pts.append(pt)
     return pts
 
@@ -261,22 +426,33 @@ def check(model: Model, *, budget: float | None = DEFAULT_BUDGET, points: int | 
     Parameters
     ----------
     budget : float or None
-        Wall-clock budget of each derivation and of each symbolic proof attempt.
+        CPU seconds (see :mod:`duality.solve.budget`) for the symbolic route of each
+        derivation, and for the checks themselves — proofs and numeric passes together;
+        each check's proof may use at most :data:`PROOF_BUDGET` of it.  When it is used
+        up, the remaining checks say so in their evidence.  ``None``: no limit.
     points : int, optional
         Number of sampled points (default 20 for closed forms, 6 for numeric duals).
     symbolic : bool
-        Try symbolic proofs first (set False for a quick numeric pass).
+        Try symbolic proofs (set False for a quick numeric pass).
+
+    Notes
+    -----
+    Each check is first evaluated at the sampled points; a proof is then attempted with
+    the model's parameter values put in as exact decimals (0.3 -> 3/10), unless the
+    residual is far from zero somewhere.  Proofs found are remembered for the process, so
+    a second check of a model of the same structure and values is quick.
     """
     if not isinstance(model, Model):
         raise DualityError(f"check needs a model from technology() or preference(), not "
                            f"{type(model).__name__}")
     names = model.symbols
     names = {v: k for k, v in names.items()}
-    proof_budget = None if budget is None else min(budget, PROOF_BUDGET)
     if model.is_technology:
         specs, numeric = _technology_specs(model, budget)
     else:
         specs, numeric = _preference_specs(model, budget)
+    account = Budget(budget)
+    values = {k: sp.Rational(str(float(v))) for k, v in model.values.items()}
     n = points if points is not None else (6 if numeric else 20)
     pts = _sample(model, n, seed)
     out = []
@@ -286,7 +462,7 @@ def check(model: Model, *, budget: float | None = DEFAULT_BUDGET, points: int | 
             continue
         if not symbolic:
             spec.symbolic = False
-        out.append(_run(spec, pts, proof_budget, names))
+        out.append(_run(spec, pts, account, names, values))
     return out
 
 

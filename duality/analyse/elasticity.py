@@ -31,6 +31,7 @@ from ..solve.calculus import Fn
 from ..solve.derive import DEFAULT_BUDGET, cost, expenditure, indirect_utility
 from ..errors import DualityError
 from ..model.base import Model
+from ..model.roles import ROLES
 from ..solve.result import Derived
 
 
@@ -151,12 +152,11 @@ class ElasticityTable:
                     for n, row in zip(self.names, M)]
             return "\n".join([title, head, *rows])
         at = ", ".join(f"{k}={v:g}" for k, v in self.point.items())
-        lvl = "output" if self.role == "technology" else "income"
+        words = ROLES[self.role]
+        lvl = words.shifter
         parts = [f"elasticities at {at} (route: {self.route})",
                  "shares: " + ", ".join(f"{n}={s:.4g}" for n, s in zip(self.names, self.shares)),
-                 mat("price elasticities of " + ("conditional demand" if self.role ==
-                                                 "technology" else "Marshallian demand"),
-                     self.price)]
+                 mat("price elasticities of " + words.demand, self.price)]
         if self.compensated is not None:
             parts.append(mat("price elasticities of Hicksian demand", self.compensated))
         parts.append(f"{lvl} elasticities: " + ", ".join(

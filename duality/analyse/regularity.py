@@ -59,6 +59,7 @@ from .elasticity import ElasticityTable, substitution_elasticities
 from ..errors import DualityError
 from ..model.lambdas import numpy_function
 from ..model.base import Model
+from ..model.roles import ROLES
 from ..solve.result import Unavailable
 from .restrictions import check_values, derive_restrictions, describe_violation
 
@@ -304,8 +305,7 @@ def _resolve_columns(eng: _Engine, data: pd.DataFrame, columns) -> dict[str, obj
     for name in needed:
         col = columns.get(name, name)
         if col not in data.columns:
-            what = ("price" if name in eng.prices else
-                    "output" if eng.role == "technology" else "income")
+            what = "price" if name in eng.prices else ROLES[eng.role].shifter
             how = (f"mapped by columns= to {col!r}" if name in columns else
                    f"map it with columns={{{name!r}: 'your column'}}")
             raise DualityError(f"data has no column {col!r} for the {what} {name} ({how}); "
@@ -717,8 +717,7 @@ def regularity(model: Model, data, *, columns: Mapping[str, object] | None = Non
         raise DualityError("data has no rows")
     arrays = {}
     for name, col in colmap.items():
-        what = ("price " + name if name in eng.prices else
-                ("output " if eng.role == "technology" else "income ") + name)
+        what = ("price " if name in eng.prices else ROLES[eng.role].shifter + " ") + name
         a = _column(data, col, what)
         bad = ~(a > 0)
         if bad.any():
@@ -793,7 +792,7 @@ def _frame(eng: _Engine, res: RowValues, index, observed) -> pd.DataFrame:
         for i, q in enumerate(names):
             for j, p in enumerate(prices):
                 cols[f"hicks_{q}_{p}"] = res.compensated[:, i, j]
-    lvl = "output_elast" if eng.role == "technology" else "income_elast"
+    lvl = ROLES[eng.role].shifter + "_elast"
     for i, q in enumerate(names):
         cols[f"{lvl}_{q}"] = res.level[:, i]
     for i in range(n):

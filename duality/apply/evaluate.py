@@ -18,7 +18,7 @@ import numpy as np
 import pandas as pd
 from tqdm import tqdm
 
-from ..errors import DualityError
+from ..errors import DualityError, number_file_rows, row_label
 from .files import atomic_path
 from ..model.base import Model
 from ..solve.derive import cost, indirect_utility
@@ -160,7 +160,7 @@ def _column(data, col: str, name: str) -> np.ndarray:
 
 
 def _row_label(data, i: int):
-    return data.index[i] if _is_frame(data) else i
+    return row_label(data, i) if _is_frame(data) else i + 1
 
 
 def _first_non_numeric(arr):
@@ -193,8 +193,8 @@ def evaluate_file(what, source: str | os.PathLike, target: str | os.PathLike, *,
                   keep: Iterable[str] = (), progress: bool = True) -> int:
     """Evaluate on a CSV or Parquet file chunk by chunk and write the result file.
 
-    The input never has to fit in memory.  Rows in messages are 1-based data rows (the
-    header line not counted).  The output (CSV or Parquet, by its suffix)
+    The input never has to fit in memory.  Rows in messages are the file's own rows as
+    a spreadsheet numbers them (the header line is row 1).  The output (CSV or Parquet, by its suffix)
     holds the ``keep`` input columns and one column per function; it is written to a
     temporary file in the same folder and renamed only when complete, so an interrupted
     run leaves any earlier file of that name untouched.  Returns the number of rows.
@@ -204,6 +204,8 @@ def evaluate_file(what, source: str | os.PathLike, target: str | os.PathLike, *,
         raise DualityError(f"input file {source} does not exist")
     if source.resolve() == target.resolve():
         raise DualityError("the output file must differ from the input file")
+    if not target.parent.is_dir():
+        raise DualityError(f"cannot write {target}: folder {target.parent} does not exist")
     kind_in, kind_out = _file_kind(source), _file_kind(target)
     fns = functions_of(what)
     keep = list(keep)
@@ -222,8 +224,8 @@ def evaluate_file(what, source: str | os.PathLike, target: str | os.PathLike, *,
                     try:
                         res = evaluate(fns, chunk, columns=columns)
                     except DualityError as exc:
-                        raise DualityError(f"{source.name}, rows {start + 1}–"
-                                           f"{start + len(chunk)}: {exc}") from None
+                        raise DualityError(f"{source.name}, rows {start + 2}–"
+                                           f"{start + len(chunk) + 1}: {exc}") from None
                     out = pd.concat([chunk[keep].reset_index(drop=True),
                                      res.reset_index(drop=True)], axis=1)
                     writer = _write_chunk(out, tmp, kind_out, writer, first=rows == 0)
@@ -262,14 +264,12 @@ def _chunks(path: Path, kind: str, chunksize: int):
     if kind == "parquet":
         import pyarrow.parquet as pq  # deferred: optional dependency (the 'scale' extra)
         for batch in pq.ParquetFile(path).iter_batches(batch_size=chunksize):
-            df = batch.to_pandas()
-            df.index = range(start + 1, start + 1 + len(df))   # 1-based data rows
+            df = number_file_rows(batch.to_pandas(), start)
             yield start, df
             start += len(df)
         return
     for df in pd.read_csv(path, chunksize=chunksize):
-        df.index = range(start + 1, start + 1 + len(df))       # 1-based data rows
-        yield start, df
+        yield start, number_file_rows(df, start)
         start += len(df)
 
 

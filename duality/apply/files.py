@@ -5,11 +5,15 @@ that fills it ends without an error is the file flushed to disk and moved over t
 in one step (:func:`os.replace`), the previous version first kept as ``<name>.bak`` when
 asked.  On any failure (a full disk, an interrupt) the temporary file is removed and the
 target is exactly as it was.  :func:`write_atomic` does this for a text or bytes value.
+A writer killed outright (SIGKILL, a power cut) cannot remove its temporary file; the
+next write of the same file does (temporary names carry the writer's process id, so the
+file of a writer still running is never touched).
 Scenario saving, exports, evaluation output and the app's saves all go through here.
 """
 from __future__ import annotations
 
 import os
+import re
 import tempfile
 from contextlib import contextmanager
 from pathlib import Path
@@ -63,10 +67,44 @@ def _remove(path: str) -> None:
         pass
 
 
+def _prefix(name: str) -> str:
+    """Temporary files of ``name`` carry the writing process's id: ``.<name>.<pid>.``"""
+    return f".{name}.{os.getpid()}."
+
+
+def _remove_orphans(folder: Path, name: str) -> None:
+    """Remove temporary files of ``name`` left by a writer that was killed outright
+    (SIGKILL, a power cut): those whose process no longer runs.  A live writer's file,
+    another process's included, is left alone."""
+    pattern = re.compile(rf"\.{re.escape(name)}(?:\.bak)?\.(\d+)\.[^/]*\.tmp\Z")
+    try:
+        entries = list(os.scandir(folder))
+    except OSError:
+        return
+    for entry in entries:
+        m = pattern.match(entry.name)
+        if m is None or entry.is_symlink() or not entry.is_file():
+            continue
+        pid = int(m.group(1))
+        if pid == os.getpid() or _running(pid):
+            continue
+        _remove(entry.path)
+
+
+def _running(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except (PermissionError, OverflowError, OSError):
+        return True     # someone else's process, or unknowable: keep its file
+    return True
+
+
 def _copy_synced(src: Path, dst: Path) -> None:
     """Copy ``src`` to ``dst`` atomically too (a half-written backup is never left)."""
     data = src.read_bytes()
-    fd, tmp = tempfile.mkstemp(prefix=f".{dst.name}.", suffix=".tmp", dir=dst.parent)
+    fd, tmp = tempfile.mkstemp(prefix=_prefix(dst.name), suffix=".tmp", dir=dst.parent)
     try:
         try:
             _write_and_sync(fd, data)
@@ -103,7 +141,8 @@ def atomic_path(path: str | os.PathLike, *, backup: bool = False,
     target = Path(path)
     folder = _folder(target)
     try:
-        fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
+        _remove_orphans(folder, target.name)
+        fd, tmp = tempfile.mkstemp(prefix=_prefix(target.name), suffix=".tmp", dir=folder)
     except OSError as exc:
         raise DualityError(f"{target}: cannot write in {folder} ({exc.strerror or exc})") \
             from None

@@ -65,6 +65,15 @@ Top level
 ``[data]``
     ``file`` (path of a CSV file, relative to the scenario file) and ``[data.columns]``
     (model name -> column name in the file, for names whose column is named otherwise).
+    The library reads the path as given, absolute paths and ``..`` included: a scenario
+    file is the user's own.  The browser app is stricter, since it serves files to a
+    browser: it reads a data file only when it resolves (links followed) inside the
+    scenario's folder or the app's save folder.  Rows of the data are numbered as a
+    spreadsheet shows the file (the header is row 1).
+
+``[units]`` (optional)
+    A unit for any price, quantity, output, income or utility name, as text
+    (``w_flour = "£ per kg"``, ``flour = "kg"``); the app shows it on axes and tables.
 
 Example
 -------
@@ -116,20 +125,21 @@ Python API: :func:`load`, :func:`loads`, :func:`dumps`, :func:`save`, :func:`fro
 """
 from __future__ import annotations
 
-import math
 import numbers
 import os
 import re
 import tomllib
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any, Mapping
 
 import pandas as pd
 import tomli_w
 
-from ..errors import DualityError, FormulaError
+from ..errors import DualityError, FormulaError, number_file_rows
 from ..model import base as _model, dual_side
+from ..model.roles import ROLES as ROLE_WORDS
+from ..model.formula import number_problem
 from ..solve import dual_forms
 from .export import NAMES as EXPORT_NAMES
 from .files import write_atomic
@@ -139,7 +149,8 @@ ROLES = _model.ROLES
 SIDES = {"primal": None, **_model.SIDES}
 
 _NAME = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
-_TOP_KEYS = ("title", "description", "exports", "model", "baseline", "variants", "data")
+_TOP_KEYS = ("title", "description", "exports", "model", "baseline", "variants", "data",
+             "units")
 _MODEL_KEYS = ("role", "side", "formula", "form", "size", "quantities", "prices", "output",
                "output_price", "utility", "income", "parameters")
 _ROLE_ONLY = {"output": "technology", "output_price": "technology",
@@ -220,6 +231,7 @@ class Scenario:
     variants: dict[str, Variant] = field(default_factory=dict)
     data: DataSpec | None = None
     exports: tuple[str, ...] = ()
+    units: dict[str, str] = field(default_factory=dict)
     path: Path | None = field(default=None, compare=False)
 
     @property
@@ -243,31 +255,23 @@ class Scenario:
                     kw.update(utility=spec.utility, income=spec.income)
                 m = builder(prices, **kw)
             elif spec.side == "primal":
-                qs, ps = list(spec.quantities), list(spec.prices)
-                if spec.role == "technology":
-                    m = _model.technology(spec.formula, qs, ps, output=spec.output,
-                                          output_price=spec.output_price,
-                                          params=dict(spec.parameters), name=self.title)
-                else:
-                    m = _model.preference(spec.formula, qs, ps, income=spec.income,
-                                          utility=spec.utility, params=dict(spec.parameters),
-                                          name=self.title)
+                # the role's level names are the builders' keywords (output, output_price
+                # or utility, income)
+                build = _model.technology if spec.role == "technology" else _model.preference
+                m = build(spec.formula, list(spec.quantities), list(spec.prices),
+                          **spec.level_names, params=dict(spec.parameters), name=self.title)
             else:
-                fn = dual_side.BUILDERS[spec.side]
                 qs = None if spec.quantities is None else list(spec.quantities)
-                if spec.role == "technology":
-                    m = fn(spec.formula, list(spec.prices), qs, output=spec.output,
-                           output_price=spec.output_price, params=dict(spec.parameters),
-                           name=self.title)
-                else:
-                    m = fn(spec.formula, list(spec.prices), qs, income=spec.income,
-                           utility=spec.utility, params=dict(spec.parameters), name=self.title)
+                m = dual_side.BUILDERS[spec.side](spec.formula, list(spec.prices), qs,
+                                                  **spec.level_names,
+                                                  params=dict(spec.parameters),
+                                                  name=self.title)
         except DualityError as exc:
             what = "the model could not be built"
             if isinstance(exc, FormulaError) and key == "model.formula":
                 what = "the formula could not be read"
-            elif "parameter" in str(exc):
-                key = "model.parameters"
+            else:
+                key = _blamed_key(str(exc), key)
             raise type(exc)(f"{self.where}: key '{key}': {what}: {exc}") from None
         if m.free_params:
             names = ", ".join(str(s) for s in m.free_params)
@@ -309,10 +313,70 @@ class Scenario:
         if p is None:
             raise DualityError(f"{self.where}: key 'data': this scenario has no data file")
         try:
-            return pd.read_csv(p)
+            return number_file_rows(pd.read_csv(p))
         except (OSError, ValueError) as exc:
             raise DualityError(f"{self.where}: key 'data.file': could not read {p} as "
                                f"CSV ({exc})") from None
+
+
+#: what a model-building message is about -> the key of the scenario file to blame
+_BLAME = (
+    (re.compile(r"^parameter '|parameter\(s\)|^the formula cannot take these parameter "
+                r"values|check (the sign of )?its parameters|contradicts its assumption"),
+     "model.parameters"),
+    (re.compile(r"^(input|good) '[^']*' does not appear"), "model.quantities"),
+    (re.compile(r"^price '[^']*' does not appear"), "model.prices"),
+)
+
+
+def _blamed_key(message: str, default: str) -> str:
+    """The scenario key a model-building error is about (``default`` when unsure)."""
+    for pattern, key in _BLAME:
+        if pattern.search(message):
+            return key
+    return default
+
+
+#: deepest nesting of arrays and inline tables read (the TOML reader recurses per level)
+MAX_TOML_DEPTH = 50
+
+
+def _check_nesting(text: str, where: str) -> None:
+    """Refuse deeply nested arrays or inline tables before the TOML reader recurses.
+
+    Brackets inside quoted strings and comments are skipped; ``[[table]]`` headers
+    count as two levels, which is far below the limit.
+    """
+    depth, quote, line = 0, "", 1
+    i, n = 0, len(text)
+    while i < n:
+        c = text[i]
+        if c == "\n":
+            line += 1
+        if quote:
+            if c == "\\" and quote == '"':
+                i += 2
+                continue
+            if text.startswith(quote, i):
+                i += len(quote)
+                quote = ""
+                continue
+        elif c in "\"'":
+            quote = c * 3 if text.startswith(c * 3, i) else c
+            i += len(quote)
+            continue
+        elif c == "#":
+            end = text.find("\n", i)
+            i = n if end < 0 else end
+            continue
+        elif c in "[{":
+            depth += 1
+            if depth > MAX_TOML_DEPTH:
+                raise DualityError(f"{where}: line {line}: arrays or tables nested more "
+                                   f"than {MAX_TOML_DEPTH} levels deep")
+        elif c in "]}":
+            depth = max(0, depth - 1)
+        i += 1
 
 
 # -- reading ------------------------------------------------------------------------------
@@ -334,10 +398,14 @@ def load(path: str | os.PathLike) -> Scenario:
 def loads(text: str, path: str | os.PathLike | None = None) -> Scenario:
     """Validate a scenario from TOML text (``path`` is used in messages and for data)."""
     where = str(path) if path is not None else "<scenario text>"
+    text = text.removeprefix("\ufeff")  # a byte-order mark some editors write
+    _check_nesting(text, where)
     try:
         raw = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise DualityError(f"{where}: not valid TOML: {exc}") from None
+    except RecursionError:
+        raise DualityError(f"{where}: arrays or tables nested too deeply") from None
     return from_dict(raw, path=path)
 
 
@@ -394,9 +462,12 @@ class _Validator:
     def number(self, value, key: str, *, positive: bool = False) -> float:
         if isinstance(value, bool) or not isinstance(value, numbers.Real):
             self.fail(key, f"expected a number, got {_kind(value)}")
+        problem = number_problem(value)
+        if problem:
+            shown = repr(value) if not isinstance(value, int) or \
+                abs(value).bit_length() < 1000 else f"a number of {len(str(abs(value)))} digits"
+            self.fail(key, f"expected a usable number, got {shown}: {problem}")
         x = float(value)
-        if not math.isfinite(x):
-            self.fail(key, f"expected a finite number, got {x}")
         if positive and not x > 0:
             self.fail(key, f"expected a positive number, got {value!r}")
         return x
@@ -431,9 +502,18 @@ class _Validator:
                           + ", ".join(EXPORT_NAMES))
             if t in exports[:i]:
                 self.fail(f"exports[{i}]", f"export target {t!r} is listed twice")
+        units = {}
+        if "units" in raw:
+            names = set(model.price_names) | set(model.quantities or ()) | \
+                set(model.level_names.values())
+            for k, val in self.table(raw["units"], "units").items():
+                if k not in names:
+                    self.fail(f"units.{k}", "not a price, quantity or level of the model; "
+                              "expected one of " + ", ".join(sorted(names)))
+                units[k] = self.text(val, f"units.{k}", empty=False).strip()
         return Scenario(title=title, description=description, model=model,
                         baseline=baseline, variants=variants, data=data,
-                        exports=tuple(exports), path=path)
+                        exports=tuple(exports), units=units, path=path)
 
     def model(self, t: Mapping) -> ModelSpec:
         self.keys(t, _MODEL_KEYS, "model")
@@ -485,7 +565,7 @@ class _Validator:
             quantities = self.names(t["quantities"], "model.quantities")
         elif side == "primal":
             self.fail("model.quantities", "missing required key: the list of "
-                      + ("input" if role == "technology" else "good") + " names")
+                      + ROLE_WORDS[role].quantity + " names")
         if "prices" in t:
             prices = self.names(t["prices"], "model.prices")
         elif form is None:
@@ -521,7 +601,14 @@ class _Validator:
         for key, names in groups:
             for nm in names:
                 if nm in seen:
-                    self.fail(key, f"name {nm!r} is already used in {seen[nm]}; every name "
+                    first = seen[nm]
+                    written = key.removeprefix("model.") in t
+                    if not written:
+                        # a default name (output y, output price p, ...) the user did not
+                        # write: blame the key they wrote
+                        self.fail(first, f"name {nm!r} is also the default name of {key}"
+                                  f"; rename it, or give {key} another name")
+                    self.fail(key, f"name {nm!r} is already used in {first}; every name "
                               "must be distinct")
                 seen[nm] = key
         return spec
@@ -659,6 +746,8 @@ def to_dict(s: Scenario) -> dict:
             d["prices"] = dict(v.prices)
             vs[name] = d
         out["variants"] = vs
+    if s.units:
+        out["units"] = dict(s.units)
     if s.data is not None:
         dd: dict[str, Any] = {"file": s.data.file}
         if s.data.columns:
@@ -672,20 +761,45 @@ def dumps(s: Scenario) -> str:
     return tomli_w.dumps(to_dict(s), multiline_strings=False)
 
 
+def rebased(s: Scenario, target: str | os.PathLike) -> Scenario:
+    """``s`` with its data file named relative to ``target``'s folder.
+
+    The ``[data]`` file is relative to the scenario file, so a scenario written into
+    another folder must name it from there: the path becomes relative to the new folder
+    (absolute where no relative path exists, e.g. another drive).  Where the same
+    relative path already names a file from the new folder (the data was copied along),
+    it is kept.  A scenario without a path (typed or uploaded) or with an absolute data
+    path is returned unchanged.
+    """
+    if s.data is None or s.path is None or Path(s.data.file).is_absolute():
+        return s
+    source = Path(s.path).resolve().parent / s.data.file
+    folder = Path(target).resolve().parent
+    if folder == Path(s.path).resolve().parent or (folder / s.data.file).is_file():
+        return s
+    try:
+        file = Path(os.path.relpath(source, folder)).as_posix()
+    except ValueError:   # no relative path between drives
+        file = source.as_posix()
+    return replace(s, data=replace(s.data, file=file))
+
+
 def save(s: Scenario, path: str | os.PathLike | None = None, *, backup: bool = True) -> Path:
     """Write the scenario atomically and return the path written.
 
     The text goes to a temporary file in the same folder, is flushed to disk, then
     replaces the target in one step (:func:`duality.apply.files.write_atomic`).  The
     previous version is kept as ``<name>.bak`` (e.g. ``bakery.toml.bak``) when ``backup``
-    is true.  If anything fails part-way, the original file is untouched and the temporary
-    file is removed.
+    is true.  A data file keeps resolving when the scenario goes to another folder (see
+    :func:`rebased`).  If anything fails part-way, the original file is untouched and the
+    temporary file is removed.
     """
     target = Path(path) if path is not None else s.path
     if target is None:
         raise DualityError("save: no path given and the scenario has none")
+    s = rebased(s, target)
     return write_atomic(target, dumps(s), backup=backup, what="save")
 
 
 __all__ = ["Scenario", "ModelSpec", "Baseline", "Variant", "DataSpec", "load", "loads",
-           "dumps", "save", "from_dict", "to_dict"]
+           "rebased", "dumps", "save", "from_dict", "to_dict"]

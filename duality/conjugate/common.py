@@ -2,7 +2,6 @@
 from __future__ import annotations
 
 import math
-import time
 from dataclasses import dataclass, field
 from typing import Any, Callable
 
@@ -45,9 +44,8 @@ def _expr_numeric(expr, ps):
 
 
 def _remaining(deadline):
-    if deadline is None:
-        return None
-    return deadline - time.monotonic()
+    """The account (a :class:`~duality.solve.budget.Budget`) symbolic steps draw on."""
+    return deadline
 
 
 def _to_float(val) -> float:

@@ -1,7 +1,6 @@
 """The public entry points and the :class:`Conjugate` result."""
 from __future__ import annotations
 
-import time
 from dataclasses import dataclass, field
 from typing import Any, Callable
 
@@ -9,6 +8,7 @@ import numpy as np
 import sympy as sp
 
 from ..errors import DualityError
+from ..solve.budget import Budget
 from ..model.formula import parse
 from .common import _Raw, _expr_numeric, _to_float
 from .grid import biconjugate_samples, conjugate_samples
@@ -122,8 +122,9 @@ def conjugate(f, x=None, p=None, *, convention: str = "sup",
         ``"sup"``: f*(p) = sup_x (p·x − f(x)).  ``"intercept"``: −f*(p), the intercept
         f(x) − p·x of the tangent with slope p.
     budget : float or None
-        Seconds allowed for symbolic solving (None: no limit, run in-process).  When
-        exhausted the numeric route is used and a note says so.
+        CPU seconds allowed for symbolic solving (see :mod:`duality.solve.budget`; None:
+        no limit, run in-process).  When exhausted the numeric route is used and a note
+        says so.
 
     Returns
     -------
@@ -137,7 +138,7 @@ def conjugate(f, x=None, p=None, *, convention: str = "sup",
     fexpr = _to_expr(f)
     xs, fexpr = _primal_symbols(fexpr, x)
     ps = _dual_symbols(fexpr, xs, p)
-    deadline = None if budget is None else time.monotonic() + float(budget)
+    deadline = None if budget is None else Budget(budget)  # CPU seconds
     raw = _conj_multi(fexpr, xs, ps, deadline)
     return _finish(raw, xs, ps, convention)
 
@@ -157,7 +158,7 @@ def biconjugate(f, x=None, p=None, *, budget: float | None = 5.0) -> Conjugate:
         return biconjugate_samples(f, _sample_grid(x))
     first = conjugate(f, x, p, budget=budget)
     xs, ps = first.primal_variables, first.variables
-    deadline = None if budget is None else time.monotonic() + float(budget)
+    deadline = None if budget is None else Budget(budget)  # CPU seconds
     notes = list(first.notes)
     raw = None
     if first.expr is not None:

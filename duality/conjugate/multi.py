@@ -154,7 +154,7 @@ def _smooth_multi(f, xs, ps, deadline) -> _Raw:
             rem = _remaining(deadline)
             try:
                 sols = run_with_budget(_solve_worker, grad, xs, ps, budget=rem) \
-                    if rem is None or rem > 0 else _raise_budget()
+                    if rem is None or not rem.exhausted else _raise_budget()
             except BudgetExceeded:
                 sols = None
                 notes.append("the time budget for solving ∇f(x) = p symbolically was "

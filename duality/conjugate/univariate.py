@@ -199,7 +199,7 @@ def _conj1(f, x, p, dom, deadline) -> _Raw:
             notes.append("convexity of f could not be verified; assumed")
     rem = _remaining(deadline)
     try:
-        if rem is not None and rem <= 0:
+        if rem is not None and rem.exhausted:
             raise BudgetExceeded("no time left")
         res = run_with_budget(_legendre_worker, f, x, p, dom, budget=rem)
     except BudgetExceeded:

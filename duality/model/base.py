@@ -10,14 +10,15 @@ from __future__ import annotations
 import math
 import numbers
 import re
-from dataclasses import dataclass, field
+from dataclasses import dataclass
+from functools import cached_property
 from typing import Iterable, Mapping, Sequence
 
 import numpy as np
 import sympy as sp
 
-from ..errors import DualityError, ModelError
-from .formula import parse
+from ..errors import DualityError, FormulaError, ModelError
+from .formula import number_problem, parse, substitute
 from .lambdas import numpy_function
 from .roles import DUAL_KINDS, FUNCTIONS, ROLE_OF, ROLES as _ROLES, Function, Role
 
@@ -79,7 +80,6 @@ class Model:
     text: str = ""
     name: str = ""
     form: str = ""
-    _key: tuple = field(default=(), repr=False, compare=False)
 
     # -- derived views --------------------------------------------------------------
     @property
@@ -117,15 +117,26 @@ class Model:
         return _ROLES[self.role]
 
     @property
+    def shifter(self) -> sp.Symbol | None:
+        """What moves demand besides prices: the output level of a technology, the income
+        of a preference (``role_info.shifter`` names it)."""
+        return self.level if self.is_technology else self.income
+
+    @property
     def given(self) -> Function:
         """The function this model was given as (production or utility function, or a
         dual), with its label and head letters."""
         return FUNCTIONS[self.role_info.primal if self.is_primal else self.side]
 
-    @property
+    @cached_property
     def numeric_expr(self) -> sp.Expr:
-        """The function with every parameter value substituted."""
-        return self.expr.xreplace(self.values)
+        """The function with every parameter value substituted (size-checked: a term
+        that would grow without bound or divide by zero raises ModelError)."""
+        try:
+            return substitute(self.expr, self.values)
+        except FormulaError as exc:
+            raise ModelError(f"the formula cannot take these parameter values: "
+                             f"{exc.reason}") from None
 
     def with_values(self, **values: float) -> "Model":
         """A copy with some parameter values replaced (new object; this one unchanged)."""
@@ -150,11 +161,33 @@ class Model:
                       income=None if self.income is None else str(self.income),
                       params=params, assume=None, name=self.name)
 
+    @property
+    def identity(self) -> tuple:
+        """What the model is, as a tuple: two models are equal (and share cached results)
+        exactly when these agree, however they were built.  The formula's text and the
+        label are left out; symbols count with their assumptions."""
+        key = self.__dict__.get("_identity")
+        if key is None:
+            def rep(s):
+                return None if s is None else sp.srepr(s)
+            key = (self.role, self.side, self.form, sp.srepr(self.expr),
+                   tuple(map(rep, self.quantities)), tuple(map(rep, self.prices)),
+                   rep(self.level), rep(self.output_price), rep(self.income),
+                   tuple((p.name, rep(p.symbol), None if p.value is None else float(p.value))
+                         for p in self.params))
+            object.__setattr__(self, "_identity", key)  # frozen: computed once
+        return key
+
     def __hash__(self) -> int:
-        return hash(self._key)
+        return hash(self.identity)
 
     def __eq__(self, other: object) -> bool:
-        return isinstance(other, Model) and self._key == other._key
+        return isinstance(other, Model) and self.identity == other.identity
+
+    def __getstate__(self) -> dict:
+        state = dict(self.__dict__)
+        state.pop("_identity", None)
+        return state
 
     @property
     def is_primal(self) -> bool:
@@ -269,10 +302,12 @@ def _check_value(name: str, value: object) -> float | None:
         return None
     if isinstance(value, bool) or not isinstance(value, numbers.Real):
         raise ModelError(f"parameter '{name}' has value {value!r}; a real number is required")
-    v = float(value)
-    if not math.isfinite(v):
-        raise ModelError(f"parameter '{name}' has value {v}; a finite number is required")
-    return v
+    problem = number_problem(value)
+    if problem:
+        shown = f"{float(value):g}" if not isinstance(value, int) or \
+            abs(value).bit_length() < 1000 else f"of {len(str(abs(value)))} digits"
+        raise ModelError(f"parameter '{name}' has value {shown}; {problem}")
+    return float(value)
 
 
 def _build(role: str, formula: str | sp.Expr, quantities: list[str], prices: list[str], *,
@@ -316,8 +351,6 @@ def _build(role: str, formula: str | sp.Expr, quantities: list[str], prices: lis
         income=sp.Symbol(income, positive=True) if income else None,
         params=tuple(Parameter(k, psyms[k], values[k]) for k in values),
         text=text, name=name,
-        _key=(role, sp.srepr(expr), tuple(quantities), tuple(prices), level, output_price,
-              income, tuple((k, values[k], str(psyms[k].assumptions0)) for k in values)),
     )
     _check_monotone(model)
     return model
@@ -381,13 +414,14 @@ def _check_monotone(model: Model) -> None:
     n = len(model.quantities)
     rng = np.random.default_rng(0)
     points = [np.full(n, v) for v in (1.0, 2.0, 5.0, 10.0)] + list(rng.uniform(1, 10, (4, n)))
-    any_real, values = False, set()
+    any_real, values, overflow = False, [], False
     for x in points:
         base = _safe_eval(fn, x)
         if base is None:
+            overflow = overflow or _overflows(fn, x)
             continue
         any_real = True
-        values.add(base)
+        values.append(base)
         for i in range(n):
             h = 1e-6 * x[i]
             up = x.copy()
@@ -400,13 +434,33 @@ def _check_monotone(model: Model) -> None:
                     f"the {what} decreases in {model.quantities[i]} at {where}; it must be "
                     "non-decreasing in every quantity (check the sign of its parameters)")
     if not any_real:
+        if overflow:
+            raise ModelError("the formula overflows: its values are beyond the range of "
+                             "floating-point numbers (about 1e308) at the quantity points "
+                             "tried (all quantities 1, 2, 5, 10 and random points in "
+                             "[1, 10]); rescale its constants")
         raise ModelError("the formula has no real, finite value at any quantity point tried "
                          "(all quantities 1, 2, 5, 10 and random points in [1, 10])")
-    if len(values) == 1:
+    spread = max(values) - min(values)
+    if spread <= 1e-12 * max(1.0, max(abs(v) for v in values)):
+        # the same value everywhere (up to rounding, as in log(x1*x2) - log(x1) - log(x2))
         what = model.given.label
-        raise ModelError(f"the {what} takes the same value ({values.pop():g}) at every "
+        shown = 0.0 if abs(values[0]) < 1e-12 else values[0]
+        raise ModelError(f"the {what} takes the same value ({shown:g}) at every "
                          "quantity point tried (all quantities 1, 2, 5, 10 and random points "
                          "in [1, 10]); no quantity changes it (check its parameters)")
+
+
+def _overflows(fn, x) -> bool:
+    """Whether ``fn`` at ``x`` is infinite or raises an overflow (not merely undefined)."""
+    with np.errstate(all="ignore"):
+        try:
+            v = complex(fn(*x))
+        except OverflowError:
+            return True
+        except (ArithmeticError, ValueError, TypeError):
+            return False
+    return math.isinf(v.real) or math.isinf(v.imag)
 
 
 def _safe_eval(fn, x) -> float | None:
@@ -489,9 +543,6 @@ def _build_dual(side: str, formula, prices, quantities, *, level: str,
         output_price=out_p, income=inc,
         params=tuple(Parameter(k, psyms[k], values[k]) for k in values),
         text=text, name=name, form=form,
-        _key=(role, side, form, sp.srepr(expr), tuple(quantities), tuple(prices), level,
-              output_price, income,
-              tuple((k, values[k], str(psyms[k].assumptions0)) for k in values)),
     )
     _check_finite(model, what)
     return model

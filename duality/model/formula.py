@@ -35,7 +35,7 @@ from sympy.printing.str import StrPrinter
 
 from ..errors import FormulaError
 
-__all__ = ["FUNCTIONS", "parse", "names", "to_text", "to_latex"]
+__all__ = ["FUNCTIONS", "parse", "names", "substitute", "to_text", "to_latex"]
 
 #: Function names the grammar knows, with the number of arguments they take
 #: (``None`` = two or more).  ``ln`` is another name for ``log``.
@@ -47,7 +47,12 @@ MAX_LENGTH = 2000          # characters of formula text
 MAX_DEPTH = 40             # nesting of brackets and of sub-expressions
 MAX_NODES = 5000           # syntax-tree nodes
 MAX_DIGITS = 30            # significant digits of a number literal
-MAX_DECIMAL_EXPONENT = 300  # |e| in 1e300, and the size of a literal in powers of ten
+MAX_DECIMAL_EXPONENT = 400  # |e| in 1e300 beyond which a literal is not even computed
+#: every nonzero number, typed or computed, must lie between 2**-1000 and 2**1000 in size
+#: (about 1e-301 to 1e301): far enough inside the floating-point range (about 1e-308 to
+#: 1.8e308) that sums, products and derivatives of such numbers still evaluate
+MAX_BINARY_EXPONENT = 1000
+RANGE_TEXT = "numbers must lie between about 1e-301 and 1e301 in size"
 MAX_EXPONENT = 1000        # |e| of any numeric exponent
 MAX_BITS = 4096            # estimated size of a number computed by a power
 MAX_MINMAX_ARGS = 20       # arguments of one min/max (after nested ones merge)
@@ -92,6 +97,23 @@ _BINOP_NOT_ALLOWED: dict[type, str] = {
 # operators that chain left to right at one precedence level
 _CHAIN = {ast.Add: "add", ast.Sub: "add", ast.Mult: "mul", ast.Div: "mul"}
 
+#: operators after which a formula cannot end
+_BINARY_TEXT = {"+", "-", "*", "/", "**", "^", ",", "%", "//", "@", "&", "|", "<<", ">>",
+                "<", ">", "<=", ">=", "==", "!=", "."}
+
+#: characters people paste from documents, with what to type instead
+_LOOKALIKES = {
+    "·": "write * to multiply", "⋅": "write * to multiply", "∙": "write * to multiply",
+    "×": "write * to multiply", "∗": "write * to multiply", "÷": "write / to divide",
+    "−": "write - (the ASCII minus)", "–": "write - (the ASCII minus)",
+    "—": "write - (the ASCII minus)", "‐": "write - (the ASCII minus)",
+    "²": "write ^2", "³": "write ^3", "¹": "write ^1", "½": "write 0.5",
+    "’": "quotes are not part of the grammar", "‘": "quotes are not part of the grammar",
+    "“": "quotes are not part of the grammar", "”": "quotes are not part of the grammar",
+    "\ufeff": "remove the invisible byte-order mark", "\u200b": "remove the invisible "
+    "zero-width space", "µ": "write the Greek letter μ or a plain name such as mu",
+}
+
 _DECIMAL = re.compile(r"(\d*)(?:\.(\d*))?(?:[eE]([+-]?\d+))?\Z")
 _NOT_FINITE = (sp.S.ComplexInfinity, sp.S.NaN, sp.S.Infinity, sp.S.NegativeInfinity)
 
@@ -113,7 +135,7 @@ def _number(src: str) -> sp.Rational:
     exponent = 0
     if exp_text is not None:
         if len(exp_text.lstrip("+-").lstrip("0")) > 4 or abs(int(exp_text)) > MAX_DECIMAL_EXPONENT:
-            raise ValueError(f"the number's exponent is beyond ±{MAX_DECIMAL_EXPONENT}")
+            raise ValueError(f"the number's exponent is too large ({RANGE_TEXT})")
         exponent = int(exp_text)
     digits = (whole + frac).lstrip("0")
     if len(digits) > MAX_DIGITS:
@@ -121,13 +143,63 @@ def _number(src: str) -> sp.Rational:
     if not digits:
         return sp.Integer(0)
     shift = exponent - len(frac)
-    scale = shift + len(digits)  # 10**(scale-1) <= value < 10**scale
-    if not -MAX_DECIMAL_EXPONENT <= scale <= MAX_DECIMAL_EXPONENT + 1:
-        raise ValueError("the number is too large or too small")
     mantissa = int(digits)
-    if shift >= 0:
-        return sp.Integer(mantissa * 10 ** shift)
-    return sp.Rational(mantissa, 10 ** -shift)
+    value = sp.Integer(mantissa * 10 ** shift) if shift >= 0 else \
+        sp.Rational(mantissa, 10 ** -shift)
+    problem = _out_of_range(value)
+    if problem:
+        raise ValueError(f"the number {src} is {problem} ({RANGE_TEXT})")
+    return value
+
+
+def number_problem(value) -> str:
+    """Why a plain number is refused as a value ("" when it is usable): not finite, or
+    nonzero outside the range every number of a formula keeps to (about 1e-301..1e301)."""
+    try:
+        x = float(value)
+    except OverflowError:
+        return f"it is too large ({RANGE_TEXT})"
+    if not math.isfinite(x):
+        return "a finite number is required"
+    if x != 0 and not 2.0 ** -MAX_BINARY_EXPONENT <= abs(x) <= 2.0 ** MAX_BINARY_EXPONENT:
+        return f"it is too {'large' if abs(x) > 1 else 'small'} ({RANGE_TEXT})"
+    return ""
+
+
+def _log2(r: sp.Rational) -> float:
+    """log2 |r| of a nonzero Rational, for integers of any size."""
+    return math.log2(abs(r.p)) - math.log2(r.q)
+
+
+def _out_of_range(value: sp.Expr) -> str:
+    """"too large" or "too small" when a nonzero number is outside the usable range
+    (see :data:`MAX_BINARY_EXPONENT`), else ""."""
+    if value.is_Rational:
+        if value == 0:
+            return ""
+        size = _log2(value)
+    else:
+        try:
+            a = abs(sp.N(value, 15))
+        except (TypeError, ValueError, ArithmeticError, OverflowError):
+            return "too large"
+        if a.has(sp.oo, sp.zoo, sp.nan):
+            return "too large"
+        if not a.is_Float:
+            return ""       # no numeric value (or an exact zero)
+        if a == 0:
+            return ""
+        size = float(sp.log(a, 2))
+    if size > MAX_BINARY_EXPONENT:
+        return "too large"
+    if size < -MAX_BINARY_EXPONENT:
+        return "too small"
+    return ""
+
+
+def _is_chain(node) -> bool:
+    """Whether ``node`` is a chain of + - or * / (its numbers combine into one)."""
+    return isinstance(node, ast.BinOp) and type(node.op) in _CHAIN
 
 
 def _bits(expr: sp.Basic) -> int:
@@ -184,6 +256,7 @@ class _Reader:
         nul = text.find("\x00")
         if nul >= 0:
             self.fail("the formula contains a null character", nul)
+        self.refuse_lookalikes(text)
         # every whitespace character (newlines included) becomes a plain space, so the
         # text is one line and character offsets are unchanged
         flat = "".join(" " if c.isspace() else c for c in text)
@@ -218,12 +291,49 @@ class _Reader:
                 warnings.simplefilter("ignore")  # e.g. SyntaxWarning for '1if'
                 return ast.parse(self.source, mode="eval")
         except SyntaxError as e:
+            trailing = self._trailing_operator(body)
+            if trailing is not None:
+                op, at = trailing
+                self.fail(f"the formula ends with '{op}', which needs something after it",
+                          lead + at)
             pos = None
             if e.offset is not None and (e.lineno in (None, 1)):
                 pos = self.back[min(max(e.offset - 1, 0), len(self.back) - 1)]
             self.fail(f"could not read the formula: {e.msg}", pos)
         except (ValueError, MemoryError, RecursionError) as e:
             self.fail(f"could not read the formula: {e}")
+
+    def refuse_lookalikes(self, text: str) -> None:
+        """Refuse characters outside the grammar that Python would read silently or that
+        look like an operator: ``x1·x2`` is one name to Python, ``x²`` is ``x2``."""
+        for i, c in enumerate(text):
+            if c.isascii() or c.isspace():
+                continue
+            if unicodedata.category(c).startswith("L") and \
+                    unicodedata.normalize("NFKC", c) == c:
+                continue  # a letter of a name (α, β, ...)
+            hint = _LOOKALIKES.get(c, "")
+            try:
+                label = unicodedata.name(c)
+            except ValueError:
+                label = "unnamed"
+            self.fail(f"the character '{c}' (U+{ord(c):04X} {label}) is not allowed"
+                      + (f"; {hint}" if hint else "; names use letters, digits and '_'"), i)
+
+    @staticmethod
+    def _trailing_operator(body: str) -> tuple[str, int] | None:
+        """The last token and its offset when the text ends with an operator."""
+        last = None
+        try:
+            for tok in tokenize.generate_tokens(io.StringIO(body).readline):
+                if tok.type not in (tokenize.NEWLINE, tokenize.NL, tokenize.ENDMARKER,
+                                    tokenize.INDENT, tokenize.DEDENT, tokenize.COMMENT):
+                    last = tok
+        except (tokenize.TokenError, SyntaxError):
+            pass
+        if last is not None and last.type == tokenize.OP and last.string in _BINARY_TEXT:
+            return last.string, last.start[1]
+        return None
 
     def _carets(self, body: str, lead: int) -> list[int]:
         """Offsets in ``body`` of '^' operator tokens (comments are refused)."""
@@ -359,7 +469,36 @@ class _Reader:
             self.fail("this kind of expression is not allowed", self.where(node))
         if result.has(*_NOT_FINITE):
             self.fail("the formula is not finite (e.g. log(0) or 0**-1)", self.where(node))
+        self.check_range(result, node)
         return result
+
+    def check_range(self, value: sp.Expr, node) -> None:
+        """Refuse a computed number outside the usable range, naming the term."""
+        if not value.is_number:
+            if not isinstance(value, (sp.Add, sp.Mul)):
+                return
+            numeric = [a for a in value.args if a.is_number]
+            if len(numeric) < 2 and not (numeric and _is_chain(node)):
+                return
+            value = value.func(*numeric)
+        if isinstance(node, ast.Constant):
+            return  # literals are checked as they are read
+        problem = _out_of_range(value)
+        if problem:
+            self.fail(f"the value of {self.span(node)} is {problem} ({RANGE_TEXT})",
+                      self.where(node))
+
+    def span(self, node) -> str:
+        """The user's text of ``node`` (shortened when long)."""
+        start = self.where(node)
+        end_col = getattr(node, "end_col_offset", None)
+        if end_col is None:
+            return "this term"
+        if self.b2c is not None:
+            end_col = self.b2c[min(max(end_col, 0), len(self.b2c) - 1)]
+        end = self.back[min(max(end_col, 0), len(self.back) - 1)]
+        piece = self.text[start:end].strip() or "this term"
+        return piece if len(piece) <= 60 else piece[:57] + "..."
 
     def build_chain(self, node: ast.BinOp) -> sp.Expr:
         """a + b - c ... or a * b / c ..., read left to right without deep recursion."""
@@ -475,6 +614,94 @@ def names(text: str, *, max_length: int = MAX_LENGTH, max_depth: int = MAX_DEPTH
     reader = _Reader(text, None, max_length, max_depth)
     reader.read()
     return set(reader.names)
+
+
+# ------------------------------------------------------------------ values substituted
+
+def substitute(expr: sp.Expr, values: Mapping[sp.Symbol, float]) -> sp.Expr:
+    """``expr`` with ``values`` put in, under the same size rules as typed text.
+
+    A formula such as ``2^max(10^29, a)`` passes :func:`parse` (its exponent is not yet a
+    number) but becomes ``2**(10**29)`` once ``a`` has a value, which sympy would compute
+    exactly and never finish.  Here every node is rebuilt bottom-up, and before a power,
+    ``exp`` or factorial of numbers is formed its size is checked; a term that becomes
+    infinite or undefined (a division by zero) is refused too.
+
+    Raises
+    ------
+    FormulaError
+        Naming the term (as written before substitution) and the values, e.g.
+        ``with a=0.5, the exponent of 2**max(a, 10**29) is 1e+29 (the limit is 1000)``.
+    """
+    values = {k: (v if isinstance(v, sp.Basic) else sp.Float(v)) for k, v in values.items()}
+    if not values:
+        return expr
+    keys = set(values)
+    memo: dict[sp.Basic, sp.Basic] = {}
+
+    def fail(term, message):
+        used = sorted((s for s in term.free_symbols if s in values), key=str)
+        given = ", ".join(f"{s}={float(values[s]):g}" for s in used)
+        try:
+            shown = to_text(term)
+        except FormulaError:
+            shown = str(term)
+        if len(shown) > 60:
+            shown = shown[:57] + "..."
+        raise FormulaError(f"with {given}, {message.format(term=shown)}")
+
+    def visit(e):
+        if e in values:
+            return values[e]
+        if not e.args or not (e.free_symbols & keys):
+            return e
+        if e in memo:
+            return memo[e]
+        args = [visit(a) for a in e.args]
+        _guard(e, args, fail)
+        try:
+            out = e.func(*args)
+        except (ArithmeticError, ValueError, TypeError, RecursionError) as exc:
+            fail(e, f"{{term}} cannot be evaluated ({exc})")
+        if out.has(*_NOT_FINITE) and not any(a.has(*_NOT_FINITE) for a in args):
+            fail(e, "{term} is infinite or undefined (a division by zero?)")
+        if out.is_number and not any(a.is_number and _out_of_range(a) for a in args):
+            problem = _out_of_range(out)
+            if problem:
+                fail(e, f"the value of {{term}} is {problem} ({RANGE_TEXT})")
+        memo[e] = out
+        return out
+
+    return visit(expr)
+
+
+def _guard(e: sp.Basic, args: list, fail) -> None:
+    """Refuse a power, exponential or factorial of numbers too large to form."""
+    if isinstance(e, sp.Pow):
+        base, exponent = args
+        if not exponent.is_number:
+            return
+        size = _magnitude(exponent)
+        if size is None:
+            return
+        # an exact exponent is worked out exactly (2**(10**29) never finishes), so it
+        # keeps to the parser's limit; a float exponent (from a parameter value, as in
+        # x**(1/rho) with rho near 0) is evaluated in floating point, and a number it
+        # makes is range-checked once formed
+        if exponent.is_Rational and size > MAX_EXPONENT:
+            fail(e, f"the exponent of {{term}} is {size:.4g} (the limit is {MAX_EXPONENT})")
+        if base.is_Rational and exponent.is_Rational and _bits(base) * size > MAX_BITS:
+            fail(e, f"{{term}} would be a number of about {int(_bits(base) * size)} bits "
+                 f"(the limit is {MAX_BITS})")
+    elif isinstance(e, sp.exp):
+        size = _magnitude(args[0]) if args[0].is_number else None
+        if size is not None and size > MAX_EXPONENT:
+            fail(e, f"the argument of {{term}} is {size:.4g} (the limit is {MAX_EXPONENT})")
+    elif isinstance(e, (sp.factorial, sp.gamma, sp.factorial2, sp.RisingFactorial,
+                        sp.FallingFactorial, sp.binomial)):
+        sizes = [_magnitude(a) for a in args if a.is_number]
+        if any(s is not None and s > 170 for s in sizes):
+            fail(e, "{term} grows too large (arguments above 170)")
 
 
 # ----------------------------------------------------------------------------- writing

@@ -28,9 +28,26 @@ def _dirac_delta(x, *order):
 NUMPY_MODULES = [{"Heaviside": _heaviside, "DiracDelta": _dirac_delta}, "numpy"]
 
 
+#: exact numbers above this many bits become floats before translation: Python cannot
+#: mix a larger integer with a float (OverflowError), a float gives inf or 0 honestly
+_BIG_BITS = 960
+
+
+def _float_big_numbers(expr):
+    """``expr`` with exact numbers too large for a float replaced by sympy Floats."""
+    if isinstance(expr, (list, tuple)):
+        return type(expr)(_float_big_numbers(e) for e in expr)
+    if not isinstance(expr, sp.Basic):
+        return expr
+    big = {r: sp.Float(r, 17) for r in expr.atoms(sp.Rational)
+           if max(abs(r.p).bit_length(), r.q.bit_length()) > _BIG_BITS}
+    return expr.xreplace(big) if big else expr
+
+
 def numpy_function(args: Sequence, expr, *, cse: bool = False) -> Callable:
-    """``sympy.lambdify`` with the package's numpy modules."""
-    return sp.lambdify(args, expr, modules=NUMPY_MODULES, cse=cse)
+    """``sympy.lambdify`` with the package's numpy modules (exact numbers too large for a
+    float evaluate as floats, giving inf or 0 rather than an OverflowError)."""
+    return sp.lambdify(args, _float_big_numbers(expr), modules=NUMPY_MODULES, cse=cse)
 
 
 __all__ = ["numpy_function", "NUMPY_MODULES"]

@@ -52,6 +52,9 @@ class Role:
 
     ``primal`` and ``main_dual`` are keys of :data:`FUNCTIONS`: the function a primal model
     is given as, and the dual that recovery and estimation start from (cost, expenditure).
+    ``shifter`` names what moves demand besides prices (output, income; its elasticities
+    are the output or income elasticities), ``demand`` the demand system by Shephard's
+    lemma or Roy's identity, ``price_line`` the line of equal spending in a figure.
     """
 
     name: str
@@ -61,6 +64,9 @@ class Role:
     level: str
     quantity: str
     level_curve: str
+    shifter: str
+    demand: str
+    price_line: str
 
     @property
     def primal_function(self) -> Function:
@@ -74,9 +80,10 @@ class Role:
 #: role name -> :class:`Role`
 ROLES: dict[str, Role] = {r.name: r for r in (
     Role("technology", "production", ("cost", "profit"), "cost", "output", "input",
-         "isoquant"),
+         "isoquant", "output", "conditional demand", "isocost line"),
     Role("preference", "utility", ("indirect_utility", "expenditure"), "expenditure",
-         "utility level", "good", "indifference curve"),
+         "utility level", "good", "indifference curve", "income", "Marshallian demand",
+         "budget line"),
 )}
 #: dual kind -> the role it belongs to
 ROLE_OF: dict[str, str] = {k: r.name for r in ROLES.values() for k in r.duals}

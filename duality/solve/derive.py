@@ -4,8 +4,8 @@ Each dual is found by the first route that works, in order:
 
 1. **catalogue** — the function is recognised (under any symbol names, inside monotone
    outer layers) as a standard form whose closed-form dual is published;
-2. **symbolic** — derived by the engine under a wall-clock budget, in a worker process
-   killed at the deadline.  Routes, cheapest first: the first-order conditions in logs
+2. **symbolic** — derived by the engine within a budget of CPU seconds, in a worker
+   process killed when the budget is used up (:mod:`duality.solve.budget`).  Routes, cheapest first: the first-order conditions in logs
    solved as a linear system in log-quantities (power forms); tangency conditions solved
    for input ratios, then the level constraint (homothetic forms); plain Lagrangian
    ``sympy.solve`` last.  Every symbolic candidate is checked numerically (constraint,
@@ -14,11 +14,14 @@ Each dual is found by the first route that works, in order:
    (:mod:`duality.solve.numeric`).
 
 Every result says which route produced it and why earlier routes stopped.
+
+``budget`` is the CPU seconds of the symbolic work of one call: a profit or indirect
+utility function draws on what its cost or expenditure function left (recorded with that
+result, so the answer does not depend on whether it was cached).
 """
 from __future__ import annotations
 
 import math
-import time
 from functools import lru_cache
 
 import numpy as np
@@ -27,15 +30,18 @@ import sympy as sp
 from . import additive as _additive
 from . import derive_dual as _dual
 from . import numeric as _numeric
-from .budget import run_with_budget
+from .budget import Budget, run_with_budget
 from ..errors import BudgetExceeded, DualityError, NoSolutionError
 from .forms import recognise
 from ..model.base import Model
+from .points import sample_primal_points
 from .result import Derived, Evaluators, Solution, Unavailable
+from ..model.formula import substitute
 from ..model.lambdas import numpy_function
 from sympy.solvers.solveset import NonlinearError
 
-#: Default wall-clock budget (seconds) of the symbolic route of one dual.
+#: Default budget (CPU seconds, see :mod:`duality.solve.budget`) of the symbolic route of
+#: one dual.
 DEFAULT_BUDGET = 5.0
 
 SYMBOLIC_METHODS = ("log-linear", "homothetic", "additive", "lagrangian")
@@ -244,20 +250,30 @@ def _spending_solution(model: Model, budget) -> Solution:
                         conditions=tuple(match.conditions) + core.conditions + in_range,
                         match=match, condition_reasons=reasons)
     notes.append("not a catalogue form")
-    found = _symbolic(model, budget, notes, _spending_candidates, _verify_spending)
+    account = Budget.of(budget)
+    found = _symbolic(model, account, notes, _spending_candidates, _verify_spending)
     if found is not None:
         method, value, demands = found
         conds = _additive.interior_conditions(demands) if method == "additive" else ()
         return Solution(value=value, demands=demands, route="symbolic", method=method,
-                        notes=tuple(notes), conditions=conds)
+                        notes=tuple(notes), conditions=conds, spent=account.spent)
     _numeric_allowed(model, notes)
-    return _numeric_solution(notes)
+    return _numeric_solution(notes, account.spent)
 
 
-def _numeric_solution(notes: list) -> Solution:
+def _numeric_solution(notes: list, spent: float = 0.0) -> Solution:
     """The batched numeric route (:mod:`duality.solve.numeric`), after ``notes``."""
     return Solution(value=None, demands=None, route="numeric", method=_numeric.SOLVER,
-                    notes=tuple(notes))
+                    notes=tuple(notes), spent=spent)
+
+
+def _left_after(spend: Solution, budget):
+    """The budget of a step that follows the spending problem in one call: what the
+    spending problem's symbolic route left of ``budget`` (its CPU seconds are recorded,
+    so the answer is the same whether the spending problem was solved now or cached)."""
+    if budget is None:
+        return None
+    return max(0.0, float(budget) - spend.spent)
 
 
 def _numeric_allowed(model: Model, notes: list) -> None:
@@ -269,35 +285,39 @@ def _numeric_allowed(model: Model, notes: list) -> None:
 
 
 def _symbolic(model: Model, budget, notes: list, candidates_fn, verify_fn):
-    """Run the symbolic methods in order within one budget; first verified answer wins."""
-    found = first_verified(SYMBOLIC_METHODS, budget, notes,
-                           lambda method, remaining: run_with_budget(
-                               candidates_fn, method, model, budget=remaining),
+    """Run the symbolic methods in order on one account; first verified answer wins."""
+    found = first_verified(SYMBOLIC_METHODS, Budget.of(budget), notes,
+                           lambda method, account: run_with_budget(
+                               candidates_fn, method, model, budget=account),
                            lambda cand: verify_fn(model, *cand))
     return None if found is None else (found[0], *found[1])
 
 
-def first_verified(methods, budget, notes: list, run, verify, *, deadline=None):
+def first_verified(methods, account: Budget | float | None, notes: list, run, verify):
     """The first candidate of the first method that passes ``verify``, or None.
 
-    ``run(method, remaining_seconds)`` returns a list of candidates or an
-    :class:`~duality.solve.result.Unavailable` saying why the method does not apply (it
-    runs in a worker under the budget); ``verify(candidate)`` returns ``(ok, why)``.
-    Every method that fails, times out or finds nothing leaves a note saying so.
+    ``account`` is the :class:`~duality.solve.budget.Budget` (CPU seconds) every method
+    draws on, one after another.  ``run(method, account)`` returns a list of candidates or
+    an :class:`~duality.solve.result.Unavailable` saying why the method does not apply (it
+    runs in a worker charged to the account); ``verify(candidate)`` returns ``(ok, why)``
+    and is charged too.  Every method that fails, runs out of budget or finds nothing
+    leaves a note saying so.
     Returns ``(method, candidate)``.
     """
-    if deadline is None:
-        deadline = None if budget is None else time.monotonic() + float(budget)
+    account = Budget.of(account)
     for method in methods:
-        remaining = None if deadline is None else deadline - time.monotonic()
-        if remaining is not None and remaining <= 0.05:
-            notes.append(f"symbolic route stopped: budget of {budget:g} s used up")
+        if account.exhausted:
+            notes.append(f"symbolic route stopped: budget of {account.total:g} CPU s "
+                         "used up")
             return None
         try:
-            cands = run(method, remaining)
-        except BudgetExceeded:
-            notes.append(f"{method} route did not finish within the budget "
-                         f"({budget:g} s in all)")
+            cands = run(method, account)
+        except BudgetExceeded as exc:
+            if exc.kind == "wall":
+                notes.append(f"{method} route stopped by the wall-clock backstop ({exc})")
+            else:
+                notes.append(f"{method} route did not finish within the budget "
+                             f"({account.total:g} CPU s in all)")
             return None
         except NotImplementedError as exc:
             notes.append(f"{method} route: sympy cannot solve this ({exc})")
@@ -310,7 +330,8 @@ def first_verified(methods, budget, notes: list, run, verify, *, deadline=None):
             continue
         rejected = []
         for cand in cands:
-            ok, why = verify(cand)
+            with account.measure():
+                ok, why = verify(cand)
             if ok:
                 if rejected:
                     notes.append(f"{method} route: {len(rejected)} of {len(cands)} solution "
@@ -417,24 +438,6 @@ def _exp_of_logs(z):
 
 
 # -- numeric verification of symbolic candidates -----------------------------------------
-def _sample_points(model: Model, k: int = 5, seed: int = 7):
-    """Random parameter values (where free), prices and reachable levels."""
-    rng = np.random.default_rng(seed)
-    comp = _numeric.compile_model(model)
-    out = []
-    for _ in range(k):
-        pv = {s: model.values.get(s, rng.uniform(0.2, 0.6)) for s in comp.params}
-        x = rng.uniform(0.5, 3.0, len(model.quantities))
-        w = rng.uniform(0.5, 3.0, len(model.quantities))
-        F = _numeric._Fns(comp, tuple(pv[s] for s in comp.params))
-        for _ in range(8):  # scale up until the function is defined (e.g. subsistence)
-            if math.isfinite(F.f(x)):
-                break
-            x = 2.0 * x
-        out.append((pv, x, w, F))
-    return out
-
-
 def _lam(args, expr):
     return numpy_function(args, expr)
 
@@ -448,7 +451,8 @@ def _verify_spending(model: Model, value, demands) -> tuple[bool, str]:
         vfn = _lam(args, value)
     except Exception as exc:  # noqa: BLE001
         return False, f"cannot evaluate ({exc})"
-    for pv, xr, w, F in _sample_points(model):
+    for pt in sample_primal_points(model):
+        pv, xr, w, F = pt.params, pt.quantities, pt.prices, pt.fns
         level = F.f(xr)
         if not math.isfinite(level):
             continue
@@ -515,7 +519,7 @@ def _indirect_solution(model: Model, budget) -> Solution:
     if spend.route == "symbolic":
         try:
             cands = run_with_budget(_invert_candidates, spend.value, model.level, m,
-                                    budget=budget)
+                                    budget=_left_after(spend, budget))
         except BudgetExceeded:
             cands = []
             notes.append("solving e(p, u) = m for u did not finish within the budget")
@@ -572,7 +576,8 @@ def _verify_utility(model: Model, v, marsh) -> tuple[bool, str]:
         vfn, dfn = _lam(args, v), _lam(args, sp.Matrix(marsh))
     except Exception as exc:  # noqa: BLE001
         return False, f"cannot evaluate ({exc})"
-    for pv, xr, p, F in _sample_points(model):
+    for pt in sample_primal_points(model):
+        pv, xr, p, F = pt.params, pt.quantities, pt.prices, pt.fns
         income = float(p @ xr)
         x, u = _bundle(dfn, vfn, list(p) + [income] + [pv[s] for s in comp.params])
         where = _where(ps, p, m, income)
@@ -597,16 +602,16 @@ def _profit_solution(model: Model, budget) -> Solution:
         s = _scale_elasticity(spend.value, y, ws)
         if s is None and model.values:
             # with the parameter values in, terms such as gyy·log y may vanish
-            s = _scale_elasticity(spend.value.xreplace(model.values), y, ws)
+            s = _scale_elasticity(substitute(spend.value, model.values), y, ws)
         if s is not None:
             # c = K(w) y**s: profit exists iff s > 1 (decreasing returns, RTS = 1/s < 1)
-            sv = s.xreplace(model.values)
+            sv = substitute(s, model.values)
             if sv.is_number:
                 if float(sv) <= 1 + 1e-12:
                     kind = "constant" if abs(float(sv) - 1) <= 1e-12 else "increasing"
                     raise NoSolutionError(
                         f"no profit function: the technology has {kind} returns to scale "
-                        f"(returns to scale {1 / float(sv):.4g}, so cost grows like "
+                        f"(returns to scale {_rts_text(float(sv))}, so cost grows like "
                         f"y**{float(sv):.4g}). Profit p·y − c(w, y) is then unbounded when "
                         "p is above unit cost and maximal at y = 0 when it is below, so "
                         "there is no finite supply; a profit function needs decreasing "
@@ -614,14 +619,18 @@ def _profit_solution(model: Model, budget) -> Solution:
                 conds = ()
             else:
                 conds = (sp.StrictGreaterThan(s, 1),)
-            K = sp.powsimp(sp.simplify(spend.value / y ** s), force=True)
+            K = _neat_free_of(spend.value / y ** s, y)
             ystar = (p / (s * K)) ** (1 / (s - 1))
             # at the optimum K y**s = p y / s, so profit = p y (s - 1) / s
             return _profit_from_supply(model, spend, ystar, notes, conds,
                                        "p·y − c(w, y) maximised with c = K(w) y**s, s > 1",
                                        value=p * ystar * (s - 1) / s)
         try:
-            cands = run_with_budget(_supply_candidates, spend.value, y, p, budget=budget)
+            if _log_polynomial_degree(spend.value, y) >= 2:
+                raise NotImplementedError("log c is a polynomial of degree 2 or more in "
+                                          "log y, so ∂c/∂y = p has no closed form")
+            cands = run_with_budget(_supply_candidates, spend.value, y, p,
+                                    budget=_left_after(spend, budget))
         except BudgetExceeded:
             cands = []
             notes.append("solving ∂c/∂y = p for y did not finish within the budget")
@@ -660,10 +669,32 @@ def _scale_elasticity(c, y, prices):
     """s with c(w, t·y) = t**s c(w, y) when it is a constant, else None."""
     if c.has(sp.Piecewise, sp.Min, sp.Max):
         return None
-    s = sp.simplify(sp.expand_log(sp.log(c), force=True).diff(y) * y)
-    if (s.free_symbols & ({y} | set(prices))):
+    s = sp.expand(sp.expand_log(sp.log(c), force=True).diff(y) * y)
+    if s.free_symbols & ({y} | set(prices)):  # the cheap form may still hide a constant
+        s = sp.simplify(s)
+    if s.free_symbols & ({y} | set(prices)):
         return None
     return s
+
+
+def _neat_free_of(e, y):
+    """``e`` (which does not depend on ``y``) with powers combined; simplified only when
+    the cheap rewrite still shows ``y``.  (``simplify`` costs much, and its first call
+    imports a large part of sympy.)"""
+    cheap = sp.powsimp(sp.expand_power_base(e, force=True), force=True)
+    if y not in cheap.free_symbols:
+        return cheap
+    return sp.powsimp(sp.simplify(e), force=True)
+
+
+def _log_polynomial_degree(c, y) -> int:
+    """Degree of log c as a polynomial in log y (translog: 2), or 0 when it is not one."""
+    z = sp.Symbol("z_", real=True)
+    try:
+        lc = sp.expand_log(sp.log(c), force=True).xreplace({y: sp.exp(z)})
+        return sp.Poly(sp.expand(sp.expand_log(lc, force=True)), z).degree()
+    except Exception:  # noqa: BLE001 - not a polynomial in log y: sympy may still solve it
+        return 0
 
 
 def _supply_candidates(c, y, p):
@@ -678,7 +709,8 @@ def _verify_profit(model: Model, sol: Solution) -> tuple[bool, str]:
         xfn = _lam(args, sp.Matrix(sol.demands))
     except Exception as exc:  # noqa: BLE001
         return False, f"cannot evaluate ({exc})"
-    for pv, _, w, F in _sample_points(model):
+    for pt in sample_primal_points(model):
+        pv, w, F = pt.params, pt.prices, pt.fns
         price = 2.0
         with np.errstate(all="ignore"):
             x = np.asarray(xfn(price, *w, *[pv[s] for s in comp.params]),
@@ -703,7 +735,8 @@ def _above_shut_down(model: Model, sol: Solution, xfn, comp) -> tuple[bool, str]
         vfn = _lam([p] + ws + list(comp.params), sol.value)
     except Exception as exc:  # noqa: BLE001
         return False, f"cannot evaluate ({exc})"
-    for pv, _, w, F in _sample_points(model):
+    for pt in sample_primal_points(model):
+        pv, w, F = pt.params, pt.prices, pt.fns
         f0 = F.f(np.zeros(len(w)))
         if not math.isfinite(f0):
             return True, ""
@@ -720,6 +753,11 @@ def _above_shut_down(model: Model, sol: Solution, xfn, comp) -> tuple[bool, str]
     return True, ""
 
 
+def _rts_text(s: float) -> str:
+    """Returns to scale 1/s as text (unbounded when cost does not grow with output)."""
+    return f"{1 / s:.4g}" if s > 0 else "unbounded"
+
+
 def _check_returns_numerically(model: Model) -> None:
     """Refuse profit early when f(t x) >= t f(x) for t > 1 at sampled points (IRS/CRS)."""
     comp = _numeric.compile_model(model)
@@ -729,7 +767,7 @@ def _check_returns_numerically(model: Model) -> None:
     for _ in range(8):
         x = rng.uniform(0.5, 3.0, len(model.quantities))
         a, b = F.f(x), F.f(4.0 * x)
-        if a > 0 and math.isfinite(b):
+        if a > 0 and b > 0 and math.isfinite(a) and math.isfinite(b):
             ratios.append(math.log(b / a) / math.log(4.0))
     if ratios and min(ratios) >= 1 - 1e-9:
         kind = "constant" if max(ratios) < 1 + 1e-9 else "increasing"

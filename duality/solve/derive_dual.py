@@ -17,6 +17,7 @@ import sympy as sp
 
 from .budget import run_with_budget
 from ..errors import BudgetExceeded, NoSolutionError
+from ..model.formula import substitute
 from ..model.lambdas import numpy_function
 from ..model.base import Model, _safe_eval
 from .dual_forms import BY_NAME as DUAL_FORMS
@@ -48,9 +49,10 @@ def given(model: Model) -> Solution:
         supply = None
     src = dual_source(model)
     route = "catalogue" if src else "symbolic"
-    what = model.form.replace("_", " ") + " " if model.form else ""
-    method = (f"given as a {what}{model.side.replace('_', ' ')} function; demands by "
-              f"{LEMMA[model.side]}")
+    form = DUAL_FORMS.get(model.form)
+    what = form.title if form is not None else f"{model.side.replace('_', ' ')} function"
+    article = "an" if what[0].lower() in "aeiou" else "a"
+    method = f"given as {article} {what}; demands by {LEMMA[model.side]}"
     return Solution(value=e, demands=demands, route=route, method=method, source=src,
                     supply=supply)
 
@@ -167,7 +169,7 @@ def check_monotone_level(model: Model, expr, var, why: str = "") -> None:
     """The given function must increase in its level argument for an inversion.
 
     Raises NoSolutionError (the other dual does not exist) with ``why`` appended."""
-    d = sp.diff(expr, var).xreplace(model.values)
+    d = substitute(sp.diff(expr, var), model.values)
     syms = sorted(d.free_symbols, key=str)
     fn = _fn(d, syms)
     rng = np.random.default_rng(1)

@@ -8,6 +8,7 @@ earlier routes stopped.  It is callable with keyword values; numpy arrays broadc
 """
 from __future__ import annotations
 
+import math
 import warnings
 from dataclasses import dataclass, field
 from functools import cached_property
@@ -21,6 +22,7 @@ from ..model.lambdas import numpy_function
 from ..model.roles import DUAL_KINDS, FUNCTIONS
 from .domain import CODES, REASONS
 from .forms.base import Match
+from .display import text_equation
 
 ROUTES = ("catalogue", "symbolic", "numeric")
 
@@ -192,10 +194,10 @@ class Derived:
     def summary(self) -> str:
         """A few lines of text: the function, its route, source, conditions and notes."""
         head = self.name if self.kind in _DEMAND_KINDS else KINDS[self.kind][1].lstrip("\\")
-        lines = [f"{self.label}: {head}"
-                 f"({', '.join(map(str, self.args))}) = "
-                 f"{'(numeric only)' if self.expr is None else self.expr}",
-                 f"  route: {self.route} ({self.method})"]
+        call = f"{head}({', '.join(map(str, self.args))})"
+        formula = (f"{call} = (numeric only)" if self.expr is None else
+                   text_equation(call, self.expr, indent=" " * (len(self.label) + 6)))
+        lines = [f"{self.label}: {formula}", f"  route: {self.route} ({self.method})"]
         if self.source:
             lines.append(f"  source: {self.source}")
         for c in self.conditions:
@@ -210,6 +212,14 @@ class Derived:
         syms = list(self.args) + sorted(self.expr.free_symbols - set(self.args), key=str)
         fn = numpy_function(syms, self.expr, cse=True)
         return fn, syms
+
+    @cached_property
+    def _beyond_float(self) -> bool:
+        """Whether the closed form holds an exact number outside the float range."""
+        if self.expr is None:
+            return False
+        return any(abs(math.log2(abs(r.p)) - math.log2(r.q)) > 1000
+                   for r in self.expr.atoms(sp.Rational) if r != 0)
 
     @cached_property
     def _condition_fns(self) -> list[tuple[str, Callable, list]]:
@@ -242,6 +252,11 @@ class Derived:
             else:
                 out = np.asarray(self.numeric(point), dtype=float)
             shape = np.broadcast(*point.values()).shape
+            if scalar and self._beyond_float and np.all((out == 0) | ~np.isfinite(out)):
+                raise DomainError(f"the {self.label} at this point is beyond the range of "
+                                  "floating-point numbers (about 1e-308 to 1e308): its "
+                                  "formula holds constants too large or too small; "
+                                  "rescale them")
             if out.shape != shape or not out.flags.writeable:
                 out = np.broadcast_to(out, shape).copy()
             bad = np.zeros(out.shape if self._condition_fns else (), dtype=bool)
@@ -402,6 +417,9 @@ class Solution:
         The catalogue match a catalogue solution came from (reused for the other dual).
     evaluators : Evaluators or None
         Numeric functions when the solution is numeric but not from the batched solver.
+    spent : float
+        CPU seconds its symbolic route used (a later step of the same call, such as the
+        supply of a profit problem, gets only what is left of the call's budget).
     """
 
     value: sp.Expr | None
@@ -416,6 +434,7 @@ class Solution:
     evaluators: Evaluators | None = None
     #: a sentence for a condition (keyed by its text), passed on to the Derived
     condition_reasons: Mapping[str, str] = field(default_factory=dict)
+    spent: float = 0.0
 
 
 @dataclass(frozen=True, kw_only=True)

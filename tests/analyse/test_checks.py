@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import pytest
+import sympy as sp
 
 import duality as dy
 from duality.analyse import checks
@@ -73,3 +74,35 @@ def test_records_serialise():
                       "counterexample"}
     with pytest.raises(ValueError):
         dy.CheckRecord("x", "x", "maybe", "")
+
+
+def test_a_used_up_budget_is_reported_in_the_records_not_overrun():
+    # a numeric-route model: each numeric pass costs much more than the 0.3 CPU s allowed,
+    # so the checks stop early and say why (expected behaviour: common practice, no source)
+    recs = dy.check(dy.technology("x1^0.3*x2^0.5 + log(1 + x1)", ["x1", "x2"]), budget=0.3)
+    assert {r.status for r in recs} <= {"held", "not applicable"}, [r.line() for r in recs]
+    stopped = [r for r in recs if "CPU s was used up" in r.evidence]
+    assert stopped, [r.line() for r in recs]
+    assert all("budget of 0.3 CPU s" in r.evidence for r in stopped)
+
+
+def test_proofs_put_the_parameter_values_in_exactly():
+    # CES with rho = -1/2: the residuals simplify at the given values (the closed form
+    # holds for every rho; Varian, Microeconomic Analysis, 3rd ed., ch. 5, from memory)
+    recs = _by_name(dy.check(dy.technology("(d1*x1^rho + d2*x2^rho)^(0.9/rho)", ["x1", "x2"],
+                                           params={"d1": 0.4, "d2": 0.6, "rho": -0.5})))
+    rec = recs["Shephard's lemma"]
+    assert rec.status == "proved" and "parameter values" in rec.evidence
+    assert checks._exact(sp.Float(0.3) * sp.Symbol("x")) == sp.Rational(3, 10) * sp.Symbol("x")
+
+
+def test_a_kinked_identity_is_proved_branch_by_branch():
+    # linear technology 2 x1 + 3 x2: c = y·min(w1/2, w2/3) with piecewise demands, so
+    # c = w·x holds in each branch (Varian, Microeconomic Analysis, 3rd ed., ch. 5, from
+    # memory); a residual that is non-zero in one branch is not proved
+    recs = _by_name(dy.check(dy.technology("a1*x1 + a2*x2", ["x1", "x2"],
+                                           params={"a1": 2, "a2": 3})))
+    assert recs["cost = w·x (adding-up)"].status == "proved"
+    w1, w2, y = sp.symbols("w1 w2 y", positive=True)
+    bent = sp.Piecewise((y / 2, w1 / 2 <= w2 / 3), (y, True)) - y / 2
+    assert not checks._is_zero(bent)

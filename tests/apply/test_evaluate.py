@@ -103,8 +103,9 @@ def test_interrupted_file_evaluation_keeps_the_old_output(tmp_path, frame, close
     bad.to_csv(src, index=False)
     dst = tmp_path / "costs.csv"
     dst.write_text("earlier results\n")
-    with pytest.raises(dy.DualityError, match=r"prices.csv, rows 321–384: column 'w1' \(w1\) "
-                       r"must be positive; row 351 holds -3"):
+    # rows as a spreadsheet shows the file: the header is row 1, data position 350 row 352
+    with pytest.raises(dy.DualityError, match=r"prices.csv, rows 322–385: column 'w1' \(w1\) "
+                       r"must be positive; row 352 holds -3"):
         evaluate_file(closed, src, dst, chunksize=64, progress=False)
     assert dst.read_text() == "earlier results\n"
     assert sorted(os.listdir(tmp_path)) == ["costs.csv", "prices.csv"]  # no temporary left

@@ -20,6 +20,7 @@ from __future__ import annotations
 
 import importlib.util
 import json
+import keyword
 import os
 import shutil
 import subprocess
@@ -178,6 +179,62 @@ def test_c_export_compiles_and_matches(cobb_douglas, substitutes, tmp_path):
         out = subprocess.run([str(exe)], capture_output=True, text=True, check=True).stdout
         got = [float(v) for v in out.split()]
         np.testing.assert_allclose(got, expected, rtol=RTOL, atol=0, err_msg=tag)
+
+
+@pytest.mark.parametrize("compiler, flags, suffix", [
+    ("gcc", ["-std=c99"], ".c"), ("g++", ["-std=c++17", "-x", "c++"], ".cpp")])
+def test_c_header_links_into_two_files_as_c_and_cpp(cobb_douglas, tmp_path, compiler, flags,
+                                                     suffix):
+    # the header is included by two translation units of one program: every symbol is
+    # static (inline), so nothing is defined twice; it also compiles as C++
+    cc = shutil.which(compiler)
+    if cc is None:
+        pytest.skip(f"{compiler} not installed: the C export is not compiled as {suffix}")
+    col = collect(cobb_douglas)
+    write(cobb_douglas, "c", tmp_path / "cd.h", name="cd")
+    it = col.items[0]
+    pts = _points(it.derived, n=1, seed=5)
+    args = ", ".join(repr(float(pts[str(a)][0])) for a in it.args)
+    (tmp_path / f"other{suffix}").write_text(
+        f'#include "cd.h"\ndouble from_other(void) {{ return {it.name}({args}); }}\n')
+    (tmp_path / f"main{suffix}").write_text(
+        '#include <stdio.h>\n#include "cd.h"\ndouble from_other(void);\n'
+        f'int main(void) {{ printf("%.17g %.17g\\n", {it.name}({args}), from_other()); '
+        'return 0; }\n')
+    exe = tmp_path / "two"
+    r = subprocess.run([cc, *flags, "-Wall", "-Werror", str(tmp_path / f"main{suffix}"),
+                        str(tmp_path / f"other{suffix}"), "-o", str(exe), "-lm"],
+                       capture_output=True, text=True)
+    assert r.returncode == 0, r.stderr
+    got = [float(v) for v in subprocess.run([str(exe)], capture_output=True, text=True,
+                                            check=True).stdout.split()]
+    want = float(it.derived(**pts)[0])
+    np.testing.assert_allclose(got, [want, want], rtol=RTOL, atol=0)
+
+
+@pytest.mark.parametrize("target, name", [
+    # <math.h> macros and C++ keywords in C headers; keywords of Julia, Octave and Stata
+    # (sources named beside each list in duality/apply/export/code.py)
+    ("c", "FP_NAN"), ("c", "HUGE_VALF"), ("c", "M_PI"), ("c", "M_E"), ("c", "bool"),
+    ("c", "class"), ("c", "sinf"), ("c", "isnan"), ("julia", "in"), ("julia", "isa"),
+    ("julia", "where"), ("octave", "endif"), ("octave", "endfor"), ("octave", "parfor"),
+    ("octave", "classdef"), ("stata", "str1"), ("stata", "str2045"), ("stata", "strL"),
+])
+def test_names_a_target_reserves_are_refused_by_name(target, name):
+    m = dy.technology("x1^0.3*x2^0.5", ["x1", "x2"], prices=[name, "w2"])
+    with pytest.raises(DualityError, match=rf"the {target} export cannot use the name "
+                                           rf"'{name}': it is a reserved word"):
+        export(dy.cost(m), target)
+    # the same model exports to JSON (which writes formula text: Python keywords excepted)
+    if not keyword.iskeyword(name):
+        assert f'"{name}"' in export(dy.cost(m), "json")
+
+
+def test_c_constant_names_cannot_become_math_macros():
+    # name "M" and parameter "PI" would make the constant M_PI, a <math.h> macro
+    m = dy.technology("PI*x1^0.3*x2^0.5", ["x1", "x2"], params={"PI": 2.0})
+    with pytest.raises(DualityError, match="'M_PI'"):
+        export(dy.cost(m), "c", name="M")
 
 
 # ----------------------------------------------------------------------------- R
@@ -396,3 +453,77 @@ def test_bundle_rejects_unknown_column(translog):
 def test_options_only_for_bundle(small_cost):
     with pytest.raises(DualityError, match="takes no option"):
         export(small_cost, "python", columns={"w1": "x"})
+
+
+def test_bundle_marks_fixed_parameters_and_gives_aids_marshallian_shares():
+    import json as _json
+    vals = dict(a0=0, a1=.3, a2=.45, a3=.25, g11=.08, g12=-.05, g13=-.03, g22=.09, g23=-.04,
+                g33=.07, b0=1, b1=.05, b2=-.08, b3=.03)
+    m = dy.aids_expenditure(3, params=vals)
+    doc = _json.loads(dy.export.export(m, "bundle", name="aids", fixed={"a0": 0, "b0": 1}))
+    par = {p["name"]: p for p in doc["parameters"]}
+    assert par["a0"]["fixed"] and par["a0"]["value"] == 0 and par["a0"]["start"] is None
+    assert not par["a1"]["fixed"] and par["a1"]["start"] == 0.3
+    # Marshallian budget shares in prices and total expenditure, no utility
+    # (Deaton and Muellbauer 1980, from memory): w_i = a_i + Σ_j g_ij ln p_j + b_i ln(m/P)
+    assert "u" not in doc["columns"] and "m" in doc["columns"]
+    text = doc["equations"][0]["expr"]
+    assert "log(m)" in text and "u" not in {s.name for s in dy.parse(text).free_symbols}
+    assert doc["adding_up_at_values"] is True
+    with pytest.raises(dy.DualityError, match="fixed parameter zz"):
+        dy.export.export(m, "bundle", name="aids", fixed={"zz": 0})
+
+
+def test_bundle_holds_the_estimating_equations_with_theory_imposed():
+    import json as _json
+    m = dy.translog_cost(["pl", "pk", "pf"], quantities=["L", "K", "F"], output="q")
+    doc = _json.loads(dy.export.export(m, "bundle", name="tl", fixed={"gyy": 0}))
+    est = doc["estimating_equations"]
+    assert [e["name"] for e in est["equations"]] == ["ln c", "share L", "share K"]
+    assert est["dropped"] == "share F" and est["fixed"] == {"gyy": 0.0}
+    # homogeneity (Christensen, Jorgenson and Lau 1973, from memory): a3 = 1 − a1 − a2
+    assert dy.parse(est["eliminated"]["a3"]) == dy.parse("1 - a1 - a2")
+    names = {s.name for e in est["equations"] for s in dy.parse(e["rhs"]).free_symbols}
+    assert "a3" not in names and "gyy" not in names and "a1" in names
+    assert est["equations"][1]["dependent"] == "s_L"
+
+
+def test_estimating_equations_export_as_code(tmp_path):
+    """export(model, target, equations=True): the equations duality.estimate fits, with the
+    restrictions imposed; the Python module reproduces them and the cost stays finite for a
+    negative coefficient (written as exp of its log)."""
+    from duality.apply.estimation.equations import derive_system
+    m = dy.translog_cost(["pl", "pk", "pf"], quantities=["L", "K", "F"], output="q")
+    path = tmp_path / "tl_eq.py"
+    write(m, "python", path, name="tl", equations=True, fixed={"gyy": 0})
+    mod = _import(path, "tl_eq")
+    assert list(mod.FUNCTIONS) == ["cost_equation", "share_L_equation", "share_K_equation"]
+    system = derive_system(m, equations="cost+shares", shares=["L", "K", "F"],
+                           fixed={"gyy": 0})
+    rng = np.random.default_rng(5)
+    point = {"pl": 1.3, "pk": 0.7, "pf": 2.1, "q": 4.0}
+    theta = {p.name: float(rng.uniform(-0.3, 0.3)) for p in system.free}
+    sub = {**{sp_sym: point[sp_sym.name] for sp_sym in system.data.values()
+              if sp_sym.name in point},
+           **{p: theta[p.name] for p in system.free}}
+    for (fname, fn), eq in zip(mod.FUNCTIONS.items(), system.equations):
+        kw = {k: v for k, v in {**point, **theta}.items()
+              if k in fn.__code__.co_varnames[:fn.__code__.co_argcount]}
+        got = fn(**kw)
+        want = float(eq.rhs.xreplace(sub))
+        got = np.log(got) if fname == "cost_equation" else got
+        assert got == pytest.approx(want, rel=1e-12), fname
+    cd = dy.cost_function("exp(b0)*q^bq*pl^bl*pk^bk*pf^bf", ["pl", "pk", "pf"], output="q",
+                          params=dict.fromkeys(["b0", "bq", "bl", "bk", "bf"]))
+    path = tmp_path / "cd_eq.py"
+    write(cd, "python", path, name="cd", equations=True)
+    cd_mod = _import(path, "cd_eq")
+    v = cd_mod.cost_equation(pl=1.2, pk=0.8, pf=2.0, q=10.0, b0=-4.7, bq=0.72, bl=0.59,
+                             bk=-0.0085)
+    assert np.isfinite(v) and v > 0
+    stata = export(m, "stata", name="tl", equations=True)
+    assert "nl (c = pf*exp(" in stata and "nl (s_L = {a1}" in stata
+    for target in ("r", "julia", "octave", "latex", "json", "c"):
+        assert "share_L_equation" in export(m, target, name="tl", equations=True)
+    with pytest.raises(DualityError, match="give equations=True"):
+        export(m, "python", name="tl", fixed={"a0": 1})

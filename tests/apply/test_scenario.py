@@ -326,6 +326,21 @@ def test_save_uses_scenario_path_by_default(tmp_path):
         sc.save(sc.loads(BASE))
 
 
+def test_a_scenario_with_a_data_file_saves_into_any_folder(tmp_path):
+    """The data file still resolves from the new folder (relative path rewritten)."""
+    src = SCENARIOS / "saltmere_household.toml"
+    s = sc.load(src)
+    n = len(s.read_data())
+    for folder in (tmp_path / "saves", tmp_path / "saves" / "deeper", tmp_path):
+        folder.mkdir(parents=True, exist_ok=True)
+        saved = sc.save(s, folder / "copy.toml")
+        again = sc.load(saved)
+        assert again.data_path().resolve() == s.data_path().resolve()
+        assert len(again.read_data()) == n
+        assert not Path(again.data.file).is_absolute()
+    assert sc.rebased(s, src) is s      # same folder: unchanged
+
+
 @pytest.mark.parametrize("fail_at", ["write", "replace-all", "replace-target"])
 def test_interrupted_save_loses_nothing(tmp_path, monkeypatch, fail_at):
     path = write(tmp_path, BASE)
@@ -373,8 +388,11 @@ def test_keyboard_interrupt_during_save_removes_temp(tmp_path, monkeypatch):
 _RESERVED = {"y", "p", "u", "m"}
 NAME = st.from_regex(r"[A-Za-z_][A-Za-z0-9_]{0,7}", fullmatch=True).filter(
     lambda s: s not in _RESERVED)
-FINITE = st.floats(allow_nan=False, allow_infinity=False)
-POSITIVE = st.floats(min_value=0.0, exclude_min=True, allow_infinity=False)
+# the numbers a scenario accepts: zero, or about 1e-301..1e301 in size (the package's one
+# number range, duality.model.formula.MAX_BINARY_EXPONENT)
+_SIZE = st.floats(min_value=2.0 ** -1000, max_value=2.0 ** 1000)
+POSITIVE = _SIZE
+FINITE = st.one_of(st.just(0.0), _SIZE, _SIZE.map(lambda x: -x))
 TEXT = st.text(max_size=30)
 FORMULAS = ["{0}^a", "{0}^a * {1}^(1 - a)", "a*log({0}) + (1 - a)*log({1})",
             "min({0}, {1})", "({0}^r + {1}^r)^(1/r)", "{0} + b*log({1})"]
@@ -466,3 +484,14 @@ def test_exports_accept_exactly_the_registered_targets(tmp_path):
     with pytest.raises(DualityError, match=r"exports\[0\].*'fortran'.*expected one of "
                        + ", ".join(export.NAMES)):
         sc.load(write(tmp_path, text))
+
+
+def test_units_are_read_written_back_and_checked(tmp_path):
+    text = BASE + '\n[units]\np1 = "£ per kg"\nx1 = "kg"\n'
+    s = sc.loads(text)
+    assert s.units == {"p1": "£ per kg", "x1": "kg"}
+    assert sc.loads(sc.dumps(s)) == s
+    with pytest.raises(DualityError, match=r"key 'units\.zz': not a price, quantity or level"):
+        sc.loads(BASE + '\n[units]\nzz = "kg"\n')
+    with pytest.raises(DualityError, match=r"key 'units\.p1': expected non-empty text"):
+        sc.loads(BASE + '\n[units]\np1 = " "\n')

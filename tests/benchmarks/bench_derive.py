@@ -1,25 +1,43 @@
 """Derivation benchmark: catalogue forms, and symbolic routes against plain sympy.solve.
 
-Run:  python tests/benchmarks/bench_derive.py [--lagrangian-limit SECONDS]
+Run:  python tests/benchmarks/bench_derive.py [--lagrangian-limit SECONDS] [--load-compare]
 
 Prints, measured side by side in one run:
 1. the time to derive every dual (cost or expenditure, indirect utility, profit) of each
    catalogue form from a fresh cache, and what its checks report;
 2. for Cobb–Douglas with 2 and 3 inputs and CES with 2 inputs (free parameters), the
    engine's symbolic routes (log-linear, homothetic) against plain Lagrangian
-   ``sympy.solve`` on the first-order conditions, with the ratio.
-Goals: every catalogue form under 1 s; symbolic routes at least 5x faster where both finish.
+   ``sympy.solve`` on the first-order conditions, with the ratio;
+3. ``check()`` of each catalogue and flexible form in a fresh process, with the former
+   proof strategy (a proof first, by ``simplify`` with the parameters left symbolic, up to
+   2 CPU s per residual) and the current one (numeric pass first, then cheap exact
+   rewrites with the parameter values put in), with the ratio and the number proved;
+4. with ``--load-compare``: the route, notes and check statuses of every benchmark model
+   on this machine idle and with a CPU-bound process per core beside it, and how many
+   are identical.
+Goals: every catalogue form under 1 s; symbolic routes at least 5x faster where both
+finish; ``check()`` under 1 s for catalogue forms and 2 s for flexible forms with at least
+as many proved; every model identical idle and loaded.  Times are wall-clock and CPU
+seconds (this process and its workers); on a shared machine the CPU column is the one to
+read.
 """
 from __future__ import annotations
 
 import argparse
+import json
+import os
 import statistics
+import subprocess
+import sys
 import time
+from pathlib import Path
 
 import sympy as sp
 
 import duality as dy
-from duality.solve import derive
+from duality.analyse import checks
+from duality.solve import budget as budget_mod
+from duality.solve import derive, dual_forms
 from duality.solve.budget import run_with_budget
 from duality.errors import BudgetExceeded
 
@@ -153,14 +171,172 @@ def bench_symbolic(limit: float) -> None:
           "fastest verified route)")
 
 
+# -- 3. check() before and after -------------------------------------------------------------
+FLEXIBLE_CASES = {
+    "translog, 2": lambda: dual_forms.translog_cost(2),
+    "translog, 3": lambda: dual_forms.translog_cost(3),
+    "gen. Leontief, 2": lambda: dual_forms.generalized_leontief_cost(2),
+    "gen. Leontief, 3": lambda: dual_forms.generalized_leontief_cost(3),
+    "Almost Ideal, 2": lambda: dual_forms.aids_expenditure(2),
+    "Almost Ideal, 3": lambda: dual_forms.aids_expenditure(3),
+}
+
+
+def _bench_model(key):
+    if key in CATALOGUE_CASES:
+        return _model(*CATALOGUE_CASES[key])
+    return FLEXIBLE_CASES[key]()
+
+
+def _former_is_zero(expr):
+    """The former proof: simplify variants with the parameters left symbolic."""
+    import sympy as sp
+    if expr == 0:
+        return True
+    for attempt in (sp.simplify,
+                    lambda e: sp.simplify(sp.powsimp(sp.expand_power_base(
+                        sp.expand_log(e, force=True), force=True), force=True)),
+                    lambda e: sp.simplify(sp.logcombine(sp.powdenest(e, force=True),
+                                                        force=True)),
+                    lambda e: sp.simplify(sp.powsimp(sp.expand_power_base(sp.factor_terms(
+                        sp.expand_power_base(e, force=True)), force=True), force=True))):
+        try:
+            if attempt(expr) == 0:
+                return True
+        except Exception:  # noqa: BLE001
+            continue
+    return False
+
+
+def _use_former_proofs() -> None:
+    """Swap in the former order and proof (a proof first, 2 CPU s per residual)."""
+    numeric_run = checks._run
+
+    def former_run(spec, points, budget, names, values=None):
+        exprs = getattr(spec, "symbolic_exprs", None) or [r.sym for r in spec.residuals]
+        if spec.symbolic and exprs and all(e is not None for e in exprs):
+            try:
+                proved = all(run_with_budget(_former_is_zero, e, budget=2.0) for e in exprs)
+            except Exception:  # noqa: BLE001
+                proved = False
+            if proved:
+                return checks.CheckRecord(spec.name, spec.statement, "proved", "former")
+        spec.symbolic = False
+        return numeric_run(spec, points, None, names, values)
+    checks._run = former_run
+
+
+def _one_check(key: str, former: bool) -> None:
+    """Child process: time check() of one model and print a JSON line."""
+    if former:
+        _use_former_proofs()
+    model = _bench_model(key)
+    t0, c0 = time.perf_counter(), time.process_time()
+    records = dy.check(model)
+    wall = time.perf_counter() - t0
+    cpu = time.process_time() - c0 + budget_mod.worker_cpu_seconds()
+    print(json.dumps({"wall": wall, "cpu": cpu,
+                      "proved": sum(r.status == "proved" for r in records),
+                      "statuses": [r.status for r in records]}))
+
+
+def _fresh_check(key: str, former: bool) -> dict:
+    cmd = [sys.executable, __file__, "--one-check", key] + (["--former"] if former else [])
+    root = str(Path(__file__).resolve().parents[2])
+    env = {**os.environ, "PYTHONPATH": os.pathsep.join(
+        filter(None, [root, os.environ.get("PYTHONPATH")]))}
+    out = subprocess.run(cmd, capture_output=True, text=True, env=env, timeout=900)
+    return json.loads(out.stdout.strip().splitlines()[-1])
+
+
+def bench_checks() -> None:
+    print()
+    print("3. check() in a fresh process: former proof strategy against the current one")
+    print(f"   {'model':<18}{'former wall/cpu':>18}{'current wall/cpu':>18}{'cpu ratio':>11}"
+          f"{'proved':>10}")
+    for key in list(CATALOGUE_CASES) + list(FLEXIBLE_CASES):
+        old, new = _fresh_check(key, True), _fresh_check(key, False)
+        goal = 1.0 if key in CATALOGUE_CASES else 2.0
+        flag = "" if new["cpu"] <= goal else f"  (over the {goal:g} s goal)"
+        if new["proved"] < old["proved"]:
+            flag += "  (fewer proved)"
+        print(f"   {key:<18}{old['wall']:>8.2f}s/{old['cpu']:.2f}s{new['wall']:>9.2f}s/"
+              f"{new['cpu']:.2f}s{old['cpu'] / max(new['cpu'], 1e-9):>10.1f}x"
+              f"{old['proved']:>5} ->{new['proved']:>3}{flag}")
+
+
+# -- 4. idle against loaded -------------------------------------------------------------------
+def _fingerprint(model) -> tuple:
+    """Route, method and notes of every dual, and the check statuses, from cold caches."""
+    from sympy.core.cache import clear_cache
+    _clear_caches()
+    checks._PROVED.clear()
+    clear_cache()
+    budget_mod.shutdown_workers()
+    out = []
+    for kind, dual in derive.duals(model).items():
+        out.append((kind, dual.route, dual.method, dual.notes) if dual else
+                   (kind, str(dual)))
+    out.append(tuple((r.name, r.status) for r in dy.check(model)))
+    return tuple(out)
+
+
+def bench_load(hogs: int) -> None:
+    extra = {
+        "homothetic, not catalogue": ("technology", "(x1^0.3*x2^0.5)^2 + 3*x1^0.3*x2^0.5",
+                                      ["x1", "x2"], {}),
+        "sum of powers": ("technology", "(x1+x2)^7 + x1^3*x2^4 + x1*x2", ["x1", "x2"], {}),
+        "power plus log": ("technology", "x1^0.3*x2^0.5 + log(1 + x1)", ["x1", "x2"], {}),
+    }
+    print()
+    print(f"4. Same answer idle and loaded ({hogs} CPU-bound processes beside it): route, "
+          "notes and check statuses")
+    build = {**{k: (lambda k=k: _bench_model(k))
+                for k in list(CATALOGUE_CASES) + list(FLEXIBLE_CASES)},
+             **{k: (lambda v=v: _model(*v)) for k, v in extra.items()}}
+    idle = {k: _fingerprint(make()) for k, make in build.items()}
+    procs = [subprocess.Popen([sys.executable, "-c", "while True: pass"])
+             for _ in range(hogs)]
+    try:
+        t0 = time.perf_counter()
+        loaded = {k: _fingerprint(make()) for k, make in build.items()}
+        took = time.perf_counter() - t0
+    finally:
+        for p in procs:
+            p.kill()
+            p.wait()
+    same = 0
+    for k in build:
+        ok = idle[k] == loaded[k]
+        same += ok
+        routes = ", ".join(f"{d[0]}: {d[1] if len(d) > 2 else 'none'}" for d in idle[k][:-1])
+        print(f"   {k:<28}{'identical' if ok else 'DIFFERENT':<11}{routes}")
+    print(f"   {same} of {len(build)} identical (loaded pass took {took:.1f} s wall)")
+
+
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--lagrangian-limit", type=float, default=90.0,
                     help="seconds before plain sympy.solve is stopped (default 90)")
     ap.add_argument("--repeats", type=int, default=3)
+    ap.add_argument("--load-compare", action="store_true",
+                    help="also compare results idle and with a CPU-bound process per core")
+    ap.add_argument("--only", choices=("catalogue", "symbolic", "checks", "load"),
+                    help="run one section")
+    ap.add_argument("--one-check", help=argparse.SUPPRESS)
+    ap.add_argument("--former", action="store_true", help=argparse.SUPPRESS)
     args = ap.parse_args()
-    bench_catalogue(args.repeats)
-    bench_symbolic(args.lagrangian_limit)
+    if args.one_check:
+        _one_check(args.one_check, args.former)
+        return
+    if args.only in (None, "catalogue"):
+        bench_catalogue(args.repeats)
+    if args.only in (None, "symbolic"):
+        bench_symbolic(args.lagrangian_limit)
+    if args.only in (None, "checks"):
+        bench_checks()
+    if args.load_compare or args.only == "load":
+        bench_load(os.cpu_count() or 2)
 
 
 if __name__ == "__main__":

@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import threading
 import warnings
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -271,3 +272,17 @@ def test_a_route_that_does_not_apply_leaves_its_reason_as_a_note():
     assert ("log-linear route not applicable: the first-order conditions are not linear "
             "in log-quantities") in c.notes
     assert any(n.startswith("homothetic route not applicable") for n in c.notes)
+
+
+@pytest.mark.parametrize("scenario, kind, method", [
+    ("ferry_operator_translog.toml", "cost",
+     "given as a translog cost function; demands by Shephard's lemma"),
+    ("orchard_village_aids.toml", "expenditure",
+     "given as an Almost Ideal expenditure function; demands by Shephard's lemma"),
+])
+def test_a_given_dual_names_its_form_once(scenario, kind, method):
+    """The method of a model given on the dual side reads as a sentence (common practice,
+    no source: Shephard's lemma gives the demands of a cost or expenditure function)."""
+    path = Path(__file__).resolve().parents[2] / "scenarios" / scenario
+    model = dy.load_scenario(path).build_model()
+    assert derive.duals(model)[kind].method == method

@@ -73,7 +73,8 @@ def test_given_catalogue_form_is_tagged_with_its_source():
     sol = dd.given(model)
     assert sol.route == "catalogue"
     assert sol.source == dd.dual_source(model) == dy.DUAL_CATALOGUE[model.form]["source"]
-    assert "generalized leontief cost" in sol.method
+    assert sol.method == ("given as a generalized Leontief cost function; demands by "
+                          "Shephard's lemma")
 
 
 # -- closed-form inversion ----------------------------------------------------------------------

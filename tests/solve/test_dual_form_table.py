@@ -1,5 +1,6 @@
 """The dual-side catalogue is one table of DualForm records that the scenario schema reads.
-Common practice, no source (the forms' own formulas are tested in tests/analyse)."""
+Common practice, no source (the forms' own formulas are tested in test_dual_forms.py,
+their identities in test_dual_properties.py and their elasticities in tests/analyse)."""
 from __future__ import annotations
 
 import pytest

@@ -70,8 +70,8 @@ def test_generalized_leontief_is_the_published_formula(n, rng):
 @pytest.mark.parametrize("n", [2, 3])
 def test_aids_is_the_published_formula(n, rng):
     # ln e = ln a(p) + u b(p), ln a = a0 + Σ a_k ln p_k + ½ ΣΣ g_kj ln p_k ln p_j,
-    # b = b0 Π p_k^{b_k} (Deaton and Muellbauer, American Economic Review 70 (1980),
-    # eq. (4)-(6); from memory)
+    # b = b0 Π p_k^{b_k} (Deaton and Muellbauer, American Economic Review 70 (1980), the
+    # cost function of the Almost Ideal system; from memory)
     model = dy.aids_expenditure(n)
     a0, b0 = 0.3, 0.8
     a, b = rng.uniform(0.1, 0.5, n), rng.normal(0, 0.1, n)
@@ -162,7 +162,8 @@ def _gmat(vals, n):
 
 def test_aids_share_equations_are_deaton_muellbauer(rng):
     # w_i = a_i + Σ_j g_ij ln p_j + b_i ln(m / P), ln P = ln a(p) (exact) or Stone's
-    # ln P* = Σ_k w_k ln p_k (Deaton and Muellbauer 1980, eq. (8) and (12); from memory)
+    # ln P* = Σ_k w_k ln p_k (Deaton and Muellbauer 1980, the share equations and their
+    # linear approximation; from memory)
     model = dy.aids_expenditure(3, params=AIDS)
     sym = {p.name: p.symbol for p in model.params}
     fixed = {sym[k]: v for k, v in AIDS.items()}

@@ -292,7 +292,7 @@ def test_generalized_leontief_demands_are_diewerts(case):
 def test_aids_marshallian_shares_are_deaton_muellbauer_and_add_up(case):
     # w_i = a_i + Σ_j g_ij ln p_j + b_i ln(m / a(p)), ln a(p) = a0 + Σ a_k ln p_k
     # + ½ ΣΣ g_kj ln p_k ln p_j (Deaton and Muellbauer, American Economic Review 70 (1980),
-    # eq. (8); from memory); adding-up: Σ w_i = 1
+    # the budget-share equations; from memory); adding-up: Σ w_i = 1
     _, n, params, point = case
     v, marshallian = indirect(n)
     prices = [f"p{i + 1}" for i in range(n)]

@@ -6,7 +6,8 @@ import pytest
 
 import duality as dy
 from duality.errors import DualityError
-from duality.solve.points import complete_point, default_point, sample_points, value_at
+from duality.solve.points import (complete_point, default_point, sample_points,
+                                   sample_primal_points, value_at)
 
 
 @pytest.fixture(scope="module")
@@ -68,3 +69,22 @@ def test_value_at_is_none_where_it_cannot_be_evaluated():
         pytest.approx(12.0, rel=1e-12)
     assert value_at(c, {"w1": 1.0, "w2": 4.0}) is None
     assert value_at(c, {"w1": -1.0, "w2": 4.0, "y": 3.0}) is None   # outside the domain
+
+
+def test_primal_samples_reach_the_function_and_are_reproducible():
+    # Stone–Geary utility is defined only above subsistence (Deaton and Muellbauer,
+    # Economics and Consumer Behavior, 1980, ch. 3; from memory): the sampler doubles
+    # a bundle until it is
+    m = dy.preference("(x1 - 2)^0.4*(x2 - 3)^0.6", ["x1", "x2"])
+    smp = sample_primal_points(m, 6, seed=2)
+    again = sample_primal_points(m, 6, seed=2)
+    for s, t in zip(smp, again):
+        assert (s.quantities == t.quantities).all() and (s.prices == t.prices).all()
+        assert s.quantities[0] > 2 and s.quantities[1] > 3
+        assert s.fns.f(s.quantities) == pytest.approx(
+            (s.quantities[0] - 2) ** 0.4 * (s.quantities[1] - 3) ** 0.6, rel=1e-12)
+        assert all(0.5 <= w <= 3.0 for w in s.prices) and s.output_price is None
+    tech = dy.technology("A*x1^a*x2^0.5", ["x1", "x2"], params={"A": 2.0, "a": None})
+    for s in sample_primal_points(tech, 4, output_price=True):
+        a = next(k for k in s.params if str(k) == "a")
+        assert 0.2 <= s.params[a] <= 0.6 and 1.0 <= s.output_price <= 3.0

@@ -166,8 +166,10 @@ def test_welfare_bars_keep_only_the_measures_of_the_role():
                                      ("b", "total cost")], names=["variant", "measure"])
     table = pd.DataFrame({"change": [1.0, -2.0, 3.0, np.nan]}, index=idx)
     bars = an.welfare_bars_data(table, "technology")
-    assert bars.to_dict("records") == [{"variant": "a", "measure": "total cost", "change": 1.0},
-                                       {"variant": "a", "measure": "profit", "change": -2.0}]
+    # each bar says what it measures (profit: at the output chosen at the variant's prices)
+    assert bars.to_dict("records") == [
+        {"variant": "a", "measure": an.BAR_LABELS["total cost"], "change": 1.0},
+        {"variant": "a", "measure": an.BAR_LABELS["profit"], "change": -2.0}]
 
 
 def test_exports_cover_every_target():
@@ -218,7 +220,7 @@ def test_latex_of_a_derived_function_has_its_head_and_arguments():
 
 def test_closed_conjugate_of_textbook_functions():
     # (x²/2)* = s²/2 and (eˣ)* = s ln s − s on s ≥ 0 (Boyd and Vandenberghe, Convex
-    # Optimization (2004), Example 3.21; from memory)
+    # Optimization (2004), §3.3.1, Examples 3.21–3.22; from memory)
     assert an.closed_conjugate("x^2/2", "x").startswith(r"f^*(s) = \frac{s^{2}}{2}")
     exp_conj = an.closed_conjugate("exp(x)", "x")
     assert r"s \left(\log{\left(s \right)} - 1\right)" in exp_conj

@@ -200,3 +200,102 @@ def test_welfare_bars_without_measures_is_an_error():
     import pandas as pd
     with pytest.raises(DualityError, match="no welfare"):
         F.welfare_bars(pd.DataFrame(columns=["variant", "measure", "change"]))
+
+
+def test_constant_returns_cost_curves_are_flat_not_rounding_noise():
+    """Under constant returns average and marginal cost are both c(w, 1), constant in
+    output (Varian 1992, ch. 5, from memory): the curves are drawn exactly flat."""
+    m = dy.technology("x1^0.5*x2^0.5", ["x1", "x2"])
+    cost = dy.cost(m)
+    fig = F.cost_curves(cost, {"w1": 0.7, "w2": 1.3, "y": 3.0})
+    unit = 2 * (0.7 * 1.3) ** 0.5               # c(w, 1) = 2 sqrt(w1 w2)
+    for trace in fig.data[1:]:
+        assert np.unique(trace.y).size == 1
+        assert trace.y[0] == pytest.approx(unit, rel=1e-12)
+    assert fig.layout.yaxis.title.text == "cost"
+    assert fig.layout.yaxis2.title.text == "cost per unit of output"
+    assert fig.layout.xaxis.title.text.startswith("output")
+
+
+def test_steady_keeps_a_curve_that_really_varies():
+    v = np.array([1.0, 1.0 + 1e-6, 1.0 + 2e-6])
+    np.testing.assert_array_equal(F.steady(v), v)
+    noisy = np.array([19.44358305165849998, 19.443583051658501, 19.4435830516585])
+    assert np.unique(F.steady(noisy)).size == 1
+
+
+def test_every_figure_titles_its_axes(pottery):
+    s, m, duals, pt = pottery
+    tabs = A.elasticity_tables(m, pt)
+    heat = F.elasticity_heatmap(tabs["price"], "Price", *A.ELASTICITY_AXES["price"])
+    assert heat.layout.yaxis.title.text == "demand for (row i)"
+    assert heat.layout.xaxis.title.text == "price that changes (column j)"
+    dem = F.demand_curves(duals["cost"], pt)
+    assert dem.layout.xaxis.title.text == "price w_clay (log scale)"
+    assert dem.layout.yaxis.title.text == "quantity clay"
+
+
+def test_the_profit_bar_says_what_it_measures():
+    s = dy.load_scenario(SCENARIOS / "pottery_workshop.toml")
+    bars = A.welfare_bars_data(A.welfare(s), "technology")
+    assert set(bars["measure"]) == {A.BAR_LABELS["profit"], A.BAR_LABELS["total cost"]}
+
+
+def test_a_counterexample_is_a_small_table():
+    frame = A.counterexample_frame({"w1": 0.5, "y": 2.0, "detail": {"lhs": 1.0, "rhs": 3.0}})
+    assert list(frame.index) == ["w1", "y", "detail.lhs", "detail.rhs"]
+    assert list(frame["value"]) == [0.5, 2.0, 1.0, 3.0]
+    assert A.counterexample_frame(None).empty
+
+
+@pytest.mark.parametrize("name", ["kettle_lane_bakery.toml", "orchard_village_aids.toml"])
+def test_a_recovered_level_curve_is_supported_by_the_isocost_line(name):
+    """Every bundle on the level curve costs at least c(w, y) at the baseline prices, and
+    the cheapest is the cost minimum itself (definition of the cost / expenditure
+    function, Varian 1992, ch. 4 and 7, from memory)."""
+    s, m, duals, pt = _scenario(name)
+    dual = duals["cost" if m.is_technology else "expenditure"]
+    rec = A.recovered(m, tuple(sorted(pt.items())))
+    fig = F.recovered_level_curve(m, rec, dual, pt)
+    curve = fig.data[0]
+    assert "recovered" in curve.name and "Recovered" in fig.layout.title.text
+    ps = [str(p) for p in m.prices]
+    spend = np.asarray(curve.x) * pt[ps[0]] + np.asarray(curve.y) * pt[ps[1]]
+    least = float(dual(**A.point_for(dual, pt)))
+    assert spend.min() >= least * (1 - 1e-6)
+    assert spend.min() <= least * 1.01
+
+
+def test_units_from_the_scenario_file_title_the_axes(pottery):
+    s, m, duals, pt = pottery
+    units = s.units                      # the pottery file's [units] table
+    dem = F.demand_curves(duals["cost"], pt, units=units)
+    assert dem.layout.xaxis.title.text == "price w_clay (£ per kg, log scale)"
+    assert dem.layout.yaxis.title.text == "quantity clay (kg)"
+    cost = F.cost_curves(duals["cost"], pt, units=units)
+    assert cost.layout.xaxis.title.text == "output bowls (bowls)"
+    level = F.level_curve(m, duals["cost"], pt, units=units)
+    assert level.layout.xaxis.title.text == "quantity clay (kg)"
+
+
+def test_regularity_by_row_marks_the_rows_that_violate():
+    import pandas as pd
+    # a translog cost with Γ̃ + ãã' − diag(ã) positive definite at prices one: not concave
+    # there (Diewert and Wales, Econometrica 55 (1987), from memory); concave far from it
+    # it need not be, so the figure is checked against the report's own flags
+    m = dy.translog_cost(2, params=dict(a0=0, a1=0.5, a2=0.5, g11=0.4, g12=-0.4, g22=0.4,
+                                        ay=1, gyy=0, g1y=0, g2y=0))
+    data = pd.DataFrame({"w1": [1.0, 1.2, 0.9, 3.0], "w2": [1.0, 1.1, 1.0, 0.5],
+                         "y": [1.0, 2.0, 1.5, 1.0]})
+    rep = dy.regularity(m, data)
+    fig = F.regularity_by_row(rep.rows)
+    regular, bad = fig.data
+    flags = rep.rows["concave"].to_numpy(bool) & rep.rows["monotone"].to_numpy(bool)
+    assert list(regular.x) == [i + 1 for i in range(4) if flags[i]]
+    assert list(bad.x) == [i + 1 for i in range(4) if not flags[i]]
+    assert 1 in list(bad.x)     # the point of prices one violates curvature
+    np.testing.assert_allclose(list(bad.y) + list(regular.y),
+                               list(rep.rows["max_eig"].to_numpy()[~flags])
+                               + list(rep.rows["max_eig"].to_numpy()[flags]))
+    with pytest.raises(DualityError, match="no rows"):
+        F.regularity_by_row(rep.rows.iloc[:0])

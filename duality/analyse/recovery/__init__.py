@@ -14,7 +14,7 @@ the technology of its concave hull, which :func:`recover` reports.
 Two routes, tried in order:
 
 * **symbolic** — Shephard's lemma x_i = ∂c/∂w_i(w, y), i = 1..n, with w_1 = 1, solved for
-  (w_2..w_n, y) under the wall-clock budget (log-linear system for power forms; ratios
+  (w_2..w_n, y) within the budget of CPU seconds (log-linear system for power forms; ratios
   x_i/x_1 for homothetic forms; plain ``sympy.solve`` last).  Every candidate is verified
   numerically (c(w(x), f(x)) = w(x)·x, the demands give back x, and w(x) supports V(f(x)))
   before it is returned.  Used only where the dual is concave in prices.

@@ -1,16 +1,13 @@
 """Symbolic recovery: Shephard's lemma solved for prices and level, verified."""
 from __future__ import annotations
 
-import time
-
 import numpy as np
 import sympy as sp
 from sympy.solvers.solveset import NonlinearError
 
-from ...solve.budget import run_with_budget
+from ...solve.budget import Budget, run_with_budget
 from ...solve.derive import first_verified
 from ...solve.result import Unavailable
-from ...errors import BudgetExceeded
 from ...model.lambdas import numpy_function
 from .result import SYMBOLIC_METHODS
 
@@ -162,21 +159,18 @@ def _verify(ctx: _Context, lev, ws) -> tuple[bool, str]:
 
 
 def _symbolic(ctx: _Context, budget, notes: list):
-    deadline = None if budget is None else time.monotonic() + float(budget)
+    account = Budget.of(budget)
     found = first_verified(
-        SYMBOLIC_METHODS, budget, notes,
-        lambda method, remaining: run_with_budget(
+        SYMBOLIC_METHODS, account, notes,
+        lambda method, acc: run_with_budget(
             _candidates, method, ctx.c_exact, tuple(ctx.prices), ctx.level, tuple(ctx.xs),
-            ctx.positive_level, budget=remaining),
-        lambda cand: _verify(ctx, *cand), deadline=deadline)
+            ctx.positive_level, budget=acc),
+        lambda cand: _verify(ctx, *cand))
     if found is None:
         return None
     method, (lev, _) = found
-    remaining = None if deadline is None else deadline - time.monotonic()
     try:
-        if remaining is not None and remaining <= 0.05:
-            raise BudgetExceeded("no time left")
-        lev = run_with_budget(_simplify_worker, lev, tuple(ctx.xs), budget=remaining)
+        lev = run_with_budget(_simplify_worker, lev, tuple(ctx.xs), budget=account)
     except Exception:  # noqa: BLE001 - keep the verified unsimplified form
         notes.append("simplification of the closed form did not finish within the budget")
     return method, lev

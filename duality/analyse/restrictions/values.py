@@ -44,8 +44,11 @@ def check_values(restrictions, values: Mapping, *, tol: float = 1e-9
 def describe_violation(restriction: Restriction, residual: float) -> str:
     """One line naming the violated restriction and the parameters involved."""
     names = ", ".join(s.name for s in restriction.symbols)
-    return (f"{restriction.kind} restriction {sp.sstr(restriction.equation)} is violated "
-            f"by {residual:.3g} (lhs - rhs); parameters involved: {names}")
+    eq = restriction.equation
+    written = (f"{sp.sstr(eq.lhs)} = {sp.sstr(eq.rhs)}" if isinstance(eq, sp.Equality)
+               else sp.sstr(eq))
+    return (f"{restriction.kind} restriction {written} is violated by {residual:.3g} "
+            f"(left side minus right side); parameters involved: {names}")
 
 
 def impose(expr, restrictions, params, *, keep=None

@@ -34,13 +34,19 @@ from ._collect import check_export_name, collect
 from .bundle import export_bundle
 from .code import (export_c, export_julia, export_octave, export_python, export_r,
                    export_stata)
+from .equations import estimating_collection
 from .jsonfmt import export_json, load_json
 from .latex import export_latex, export_latex_document
 
 
 def _on_collection(fn: Callable) -> Callable:
-    def run(what, *, name: str, values: bool = True) -> str:
-        return fn(collect(what), name=name, values=values)
+    def run(what, *, name: str, values: bool = True, equations: bool = False,
+            fixed=None) -> str:
+        if fixed is not None and not equations:
+            raise DualityError("fixed parameters apply to the estimating equations; give "
+                               "equations=True")
+        col = estimating_collection(what, fixed=fixed) if equations else collect(what)
+        return fn(col, name=name, values=values)
     run.__name__ = fn.__name__
     run.__doc__ = fn.__doc__
     return run
@@ -63,22 +69,25 @@ class ExportTarget:
     options: tuple[str, ...] = ()
 
 
+#: the options of the targets that also print estimating equations
+_EQUATIONS = ("equations", "fixed")
+
 #: every export target, in the order front ends list them (the one source of them)
 REGISTRY: tuple[ExportTarget, ...] = (
-    ExportTarget("python", _on_collection(export_python), ".py", "numpy module"),
-    ExportTarget("latex", _on_collection(export_latex), ".tex", "LaTeX equation snippets"),
+    ExportTarget("python", _on_collection(export_python), ".py", "numpy module", options=_EQUATIONS),
+    ExportTarget("latex", _on_collection(export_latex), ".tex", "LaTeX equation snippets", options=_EQUATIONS),
     ExportTarget("latex-document", _on_collection(export_latex_document), ".tex",
                  "standalone LaTeX article", stem="_document"),
     ExportTarget("json", _on_collection(export_json), ".json",
-                 "JSON (schema in duality.apply.export.jsonfmt)"),
-    ExportTarget("r", _on_collection(export_r), ".R", "R functions"),
-    ExportTarget("julia", _on_collection(export_julia), ".jl", "Julia functions"),
-    ExportTarget("octave", _on_collection(export_octave), ".m", "Octave/MATLAB functions"),
-    ExportTarget("c", _on_collection(export_c), ".h", "C99 header"),
-    ExportTarget("stata", _on_collection(export_stata), ".do", "Stata nl expressions"),
+                 "JSON (schema in duality.apply.export.jsonfmt)", options=_EQUATIONS),
+    ExportTarget("r", _on_collection(export_r), ".R", "R functions", options=_EQUATIONS),
+    ExportTarget("julia", _on_collection(export_julia), ".jl", "Julia functions", options=_EQUATIONS),
+    ExportTarget("octave", _on_collection(export_octave), ".m", "Octave/MATLAB functions", options=_EQUATIONS),
+    ExportTarget("c", _on_collection(export_c), ".h", "C99 header", options=_EQUATIONS),
+    ExportTarget("stata", _on_collection(export_stata), ".do", "Stata nl expressions", options=_EQUATIONS),
     ExportTarget("bundle", export_bundle, ".json",
                  "share equations for estimation (schema in duality.apply.export.bundle)",
-                 stem="_bundle", options=("columns",)),
+                 stem="_bundle", options=("columns", "fixed")),
 )
 
 #: target name -> :class:`ExportTarget`
@@ -121,7 +130,9 @@ def export(what, target: str, *, name: str = "model", values: bool = True, **opt
         True: parameters with values keep them (defaults, constants or start values, per
         target); False: every parameter is an argument.
     options
-        Target options: ``columns`` for ``bundle``.
+        Target options: ``columns`` and ``fixed`` for ``bundle``; ``equations=True``
+        (with ``fixed``) for the code, LaTeX and JSON targets: the estimating equations of
+        a model (:mod:`duality.apply.export.equations`) instead of its duals.
 
     Raises
     ------

@@ -47,6 +47,7 @@ class Item:
     free: tuple                  # parameters without a value (sorted by name)
     valued: tuple                # parameters with a value (sorted by name)
     values: dict = field(default_factory=dict)   # Symbol -> float for ``valued``
+    dependent: str = ""          # observed variable it is fitted to (estimating equations)
 
     @property
     def params(self) -> tuple:
@@ -280,13 +281,18 @@ def check_supported(expr, target: str, allowed: tuple, where: str = "") -> None:
 
 
 def check_names(names: Iterable[str], target: str, reserved: Iterable[str],
-                max_len: int | None = None) -> None:
+                max_len: int | None = None, patterns: Iterable[str] = ()) -> None:
+    """Refuse a name the target cannot use: not an identifier, a reserved word or a name
+    its standard library or headers define (``reserved``), a name matching one of the
+    regular expressions ``patterns`` (whole families such as C's ``M_*`` macros), or
+    longer than ``max_len``."""
     reserved = set(reserved)
+    families = [re.compile(p) for p in patterns]
     for n in names:
         if not _IDENT.match(n):
             raise DualityError(f"the {target} export cannot use the name '{n}' (it must start "
                                "with a letter and hold only letters, digits and _)")
-        if n in reserved:
+        if n in reserved or any(f.fullmatch(n) for f in families):
             raise DualityError(f"the {target} export cannot use the name '{n}': it is a "
                                f"reserved word or built-in name in {target}; rename it")
         if max_len is not None and len(n) > max_len:

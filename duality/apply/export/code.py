@@ -253,11 +253,16 @@ class _Julia(JuliaCodePrinter):
         return self._nest("max", expr.args)
 
 
+# Julia manual, "Keywords" (reserved words and the two-word keywords' parts that cannot be
+# variable names: abstract, mutable, primitive, type only in pairs, so allowed), plus the
+# infix keywords in, isa, where, the constants the printer or a reader may rely on, and
+# the functions the bodies call (from memory of the Julia 1.x manual).
 _JULIA_RESERVED = {"baremodule", "begin", "break", "catch", "const", "continue", "do", "else",
                    "elseif", "end", "export", "false", "finally", "for", "function", "global",
                    "if", "import", "let", "local", "macro", "module", "quote", "return",
-                   "struct", "true", "try", "using", "while", "exp", "log", "sqrt", "abs",
-                   "min", "max"}
+                   "struct", "true", "try", "using", "while", "in", "isa", "where", "outer",
+                   "public", "exp", "log", "sqrt", "abs", "min", "max", "ifelse", "pi", "im",
+                   "Inf", "NaN", "nothing", "missing"}
 
 
 def export_julia(col: Collection, *, name: str, values: bool = True) -> str:
@@ -318,9 +323,16 @@ class _Octave(OctaveCodePrinter):
         return self._nest("max", expr.args)
 
 
-_OCTAVE_RESERVED = {"function", "end", "endfunction", "if", "else", "elseif", "while", "for",
-                    "do", "until", "switch", "case", "otherwise", "break", "continue",
-                    "return", "global", "persistent", "try", "catch", "unwind_protect",
+# Octave's iskeyword() list and MATLAB's keywords (from memory of Octave 8 and MATLAB
+# R2023), plus the functions the generated text calls.
+_OCTAVE_RESERVED = {"function", "end", "endfunction", "if", "else", "elseif", "endif", "while",
+                    "endwhile", "for", "endfor", "parfor", "endparfor", "do", "until",
+                    "switch", "endswitch", "case", "otherwise", "break", "continue",
+                    "return", "global", "persistent", "try", "catch", "end_try_catch",
+                    "unwind_protect", "unwind_protect_cleanup", "end_unwind_protect",
+                    "classdef", "endclassdef", "methods", "endmethods", "properties",
+                    "endproperties", "events", "endevents", "enumeration", "endenumeration",
+                    "arguments", "endarguments", "spmd", "endspmd",
                     "nargin", "isempty", "dy_ifelse", "zeros", "size", "logical", "exp",
                     "log", "sqrt", "abs", "min", "max", "true", "false"}
 
@@ -398,27 +410,64 @@ class _C(C99CodePrinter):
         return out
 
 
-_C_RESERVED = {"auto", "break", "case", "char", "const", "continue", "default", "do",
+# C99 keywords (C99 6.4.1), C++ keywords and alternative operator names (C++20 [lex.key],
+# the header must compile as C++ too), the functions and macros of <math.h> (C99 7.12;
+# each function also with the suffixes f and l) and the extensions glibc declares there
+# (Bessel functions, gamma, signgam, finite, drem, scalb, significand; from memory).
+_C_KEYWORDS = {"auto", "break", "case", "char", "const", "continue", "default", "do",
                "double", "else", "enum", "extern", "float", "for", "goto", "if", "inline",
                "int", "long", "register", "restrict", "return", "short", "signed", "sizeof",
                "static", "struct", "switch", "typedef", "union", "unsigned", "void",
-               "volatile", "while", "_Bool", "_Complex", "_Imaginary", "exp", "log", "pow",
-               "sqrt", "fabs", "fmin", "fmax", "main", "y0", "y1", "yn", "j0", "j1", "jn",
-               "gamma", "signgam", "NAN", "INFINITY", "HUGE_VAL"}
+               "volatile", "while", "_Bool", "_Complex", "_Imaginary", "main"}
+_CPP_KEYWORDS = {"alignas", "alignof", "and", "and_eq", "asm", "bitand", "bitor", "bool",
+                 "catch", "char8_t", "char16_t", "char32_t", "class", "compl", "concept",
+                 "consteval", "constexpr", "constinit", "const_cast", "co_await",
+                 "co_return", "co_yield", "decltype", "delete", "dynamic_cast", "explicit",
+                 "export", "false", "friend", "mutable", "namespace", "new", "noexcept",
+                 "not", "not_eq", "nullptr", "operator", "or", "or_eq", "private",
+                 "protected", "public", "reinterpret_cast", "requires", "static_assert",
+                 "static_cast", "template", "this", "thread_local", "throw", "true", "try",
+                 "typeid", "typename", "using", "virtual", "wchar_t", "xor", "xor_eq"}
+_C_MATH_FUNCTIONS = {"acos", "asin", "atan", "atan2", "cos", "sin", "tan", "acosh", "asinh",
+                     "atanh", "cosh", "sinh", "tanh", "exp", "exp2", "expm1", "frexp",
+                     "ilogb", "ldexp", "log", "log10", "log1p", "log2", "logb", "modf",
+                     "scalbn", "scalbln", "cbrt", "fabs", "hypot", "pow", "sqrt", "erf",
+                     "erfc", "lgamma", "tgamma", "ceil", "floor", "nearbyint", "rint",
+                     "lrint", "llrint", "round", "lround", "llround", "trunc", "fmod",
+                     "remainder", "remquo", "copysign", "nan", "nextafter", "nexttoward",
+                     "fdim", "fmax", "fmin", "fma", "y0", "y1", "yn", "j0", "j1", "jn",
+                     "gamma", "finite", "drem", "scalb", "significand", "exp10", "pow10",
+                     "sincos", "lgamma_r", "gamma_r"}
+_C_MATH_MACROS = {"NAN", "INFINITY", "HUGE_VAL", "HUGE_VALF", "HUGE_VALL", "HUGE",
+                  "MAXFLOAT", "fpclassify", "isfinite", "isinf", "isnan", "isnormal",
+                  "signbit", "isgreater", "isgreaterequal", "isless", "islessequal",
+                  "islessgreater", "isunordered", "math_errhandling", "float_t", "double_t",
+                  "signgam", "errno", "DOMAIN", "SING", "OVERFLOW", "UNDERFLOW", "TLOSS",
+                  "PLOSS", "exception", "matherr"}
+_C_RESERVED = (_C_KEYWORDS | _CPP_KEYWORDS | _C_MATH_MACROS | _C_MATH_FUNCTIONS
+               | {f + suffix for f in _C_MATH_FUNCTIONS for suffix in "fl"})
+#: whole families <math.h> and the C standard reserve: M_PI, M_E, ... FP_NAN, FP_ZERO,
+#: ... MATH_ERRNO, identifiers starting with an underscore and a capital or a second
+#: underscore (C99 7.1.3), and this export's include guard
+_C_PATTERNS = (r"M_\w*", r"FP_\w*", r"MATH_\w*", r"HUGE_\w*", r"_[A-Z_]\w*",
+               r"DUALITY_EXPORT_\w*")
 
 
 def export_c(col: Collection, *, name: str, values: bool = True) -> str:
-    """C99 functions of doubles; ``#include <math.h>``; link with ``-lm``.
+    """A C99 header of ``static inline`` functions of doubles; ``#include <math.h>``;
+    link with ``-lm``.  It compiles as C99 and as C++ (names reserved in either, or by
+    ``<math.h>``, are refused), and may be included in several files of one program.
 
     With ``values=True`` parameters with values are ``static const double <name>_<param>``
     constants (prefixed with the export name so that they cannot clash with <math.h>);
     parameters without values are extra ``double`` arguments.
     """
-    check_names(col.names(), "c", _C_RESERVED)
+    check_names(col.names(), "c", _C_RESERVED, patterns=_C_PATTERNS)
     guard = f"DUALITY_EXPORT_{name.upper()}_H"
     out = ["/*"] + [" * " + ln for ln in _header(col, name, "C99")] + [
-        " * Compile with: cc -std=c99 -c file.c -lm  (or include it: every symbol is",
-        " * static const or a plain function).", " */",
+        " * A header: #include it in any number of C99 or C++ files and link with -lm;",
+        " * every function is static inline and every constant static const, so no",
+        " * symbol is defined twice.", " */",
         f"#ifndef {guard}", f"#define {guard}", "", "#include <math.h>", ""]
     consts: dict = {}
     if values:
@@ -426,6 +475,7 @@ def export_c(col: Collection, *, name: str, values: bool = True) -> str:
             if v is None:
                 continue
             cname = f"{name}_{p.name}"
+            check_names([cname], "c", _C_RESERVED, patterns=_C_PATTERNS)
             if cname in col.names():
                 raise DualityError(f"the c export cannot name the constant for parameter "
                                    f"'{p.name}' {cname}: the name is already used")
@@ -444,8 +494,8 @@ def export_c(col: Collection, *, name: str, values: bool = True) -> str:
     for it in col.items:
         check_supported(it.expr, "c", BASE_ALLOWED + CASES_ALLOWED, it.name)
         extra = it.free if values else it.params
-        sigs.append(f"double {it.name}(" + ", ".join(f"double {s}" for s in it.args + extra)
-                    + ")")
+        sigs.append(f"static inline double {it.name}("
+                    + ", ".join(f"double {s}" for s in it.args + extra) + ")")
     out += [s + ";" for s in sigs] + [""]
     for it, sig in zip(col.items, sigs):
         p = _C()
@@ -520,22 +570,26 @@ class _Stata(StrPrinter):
         return f"{self._atom(b)}^{self._atom(x)}"
 
 
+# Stata User's Guide, [U] 11.3 "Naming conventions": the reserved names, str# standing for
+# str1 ... str2045 (from memory of Stata 17).
 _STATA_RESERVED = {"_all", "_b", "byte", "_coef", "_cons", "double", "float", "if", "in",
                    "int", "long", "_n", "_N", "_pi", "_pred", "_rc", "_se", "_skip", "str",
                    "strL", "using", "with"}
+_STATA_PATTERNS = (r"str\d+",)
 
 
 def export_stata(col: Collection, *, name: str, values: bool = True) -> str:
     """One ``nl (<function name> = <expression>)`` line per function.
 
     Variables are the argument names (rename the data columns to match, or edit); the
-    dependent variable is named after the function.  Parameters are ``{a}``; with
+    dependent variable is named after the function, or for an estimating equation after
+    the observed variable it is fitted to (``c``, ``s_x1``).  Parameters are ``{a}``; with
     ``values=True`` the first occurrence carries the model's value as the initial value
     ``{a=0.3}`` (``nl`` estimates every parameter; values are starting points, not
     constants).  Stata's ``nl`` needs smooth expressions: Piecewise, min and max are
     refused.
     """
-    check_names(col.names(), "stata", _STATA_RESERVED, max_len=32)
+    check_names(col.names(), "stata", _STATA_RESERVED, max_len=32, patterns=_STATA_PATTERNS)
     out = ["* " + ln for ln in _header(col, name, "Stata (nl)")]
     for it in col.items:
         check_supported(it.expr, "stata", BASE_ALLOWED, it.name)
@@ -544,7 +598,7 @@ def export_stata(col: Collection, *, name: str, values: bool = True) -> str:
         p = _Stata(params, values)
         out.append("")
         out += ["* " + ln for ln in _describe(it)]
-        out.append(f"nl ({it.name} = {p.doprint(it.expr)})")
+        out.append(f"nl ({it.dependent or it.name} = {p.doprint(it.expr)})")
     return "\n".join(out) + "\n"
 
 

@@ -19,9 +19,9 @@ from typing import Mapping
 import numpy as np
 import sympy as sp
 
-from ..errors import DualityError
-from ..model.roles import FUNCTIONS
-from ..solve.result import Derived
+from ...errors import DualityError, row_label
+from ...model.roles import FUNCTIONS
+from ...solve.result import Derived
 
 
 @dataclass(frozen=True)
@@ -84,7 +84,8 @@ def log_linear_equation(d: Derived, *, normalise: str | None = None) -> LinearEq
                            "arguments") from None
     if poly.total_degree() > 1:
         raise DualityError(f"the log of the {d.label} has second-order terms in the logs "
-                           "(translog-like); use its share equations instead")
+                           "(translog-like); estimate it with duality.estimate, which "
+                           "derives its equations and share equations")
     coef = {a: sp.simplify(poly.coeff_monomial(L[a])) for a in d.args}
     const = sp.simplify(poly.coeff_monomial(1))
     value = sp.Symbol(FUNCTIONS[d.kind].code if d.kind in FUNCTIONS else d.kind,
@@ -132,7 +133,11 @@ def _price_names(d: Derived) -> set[str]:
 
 @dataclass(frozen=True)
 class Fit:
-    """Least-squares estimates of a linear equation."""
+    """Least-squares estimates of a linear equation.
+
+    ``residual_std_error`` is the standard error of the regression, s = (e'e / dof)^½;
+    ``returns_to_scale`` is 1 / (coefficient of ln y) for a cost function, else ``None``.
+    """
 
     coefficients: dict
     std_errors: dict
@@ -140,12 +145,16 @@ class Fit:
     dof: int
     n: int
     r_squared: float
+    returns_to_scale: float | None = None
 
     def as_text(self) -> str:
         rows = [f"{k:>12} {v:12.5f} ({self.std_errors[k]:.5f})"
                 for k, v in self.coefficients.items()]
-        return "\n".join(rows + [f"residual standard error {self.residual_std_error:.4f} on "
-                                 f"{self.dof} degrees of freedom; R² {self.r_squared:.4f}"])
+        rows.append(f"standard error of the regression {self.residual_std_error:.4f}; residual "
+                    f"degrees of freedom {self.dof}; R² {self.r_squared:.4f}; rows {self.n}")
+        if self.returns_to_scale is not None:
+            rows.append(f"returns to scale {self.returns_to_scale:.4f}")
+        return "\n".join(rows)
 
 
 def fit(eq: LinearEquation, data, *, columns: Mapping[str, str] | None = None) -> Fit:
@@ -164,7 +173,7 @@ def fit(eq: LinearEquation, data, *, columns: Mapping[str, str] | None = None) -
         bad = np.flatnonzero(~(arr > 0))
         if bad.size:
             raise DualityError(f"column '{col}' ({name}) must be positive for logs; row "
-                               f"{bad[0]} holds {arr[bad[0]]:g}")
+                               f"{row_label(data, bad[0])} holds {arr[bad[0]]:g}")
         arrays[s] = arr
     order = sorted(arrays, key=str)
     y = np.asarray(sp.lambdify(order, eq.dependent, "numpy")(*[arrays[s] for s in order]),
@@ -182,8 +191,14 @@ def fit(eq: LinearEquation, data, *, columns: Mapping[str, str] | None = None) -
     cov = s2 * np.linalg.inv(X.T @ X)
     names = ["const"] + list(eq.regressors)
     r2 = 1 - float(resid @ resid) / float(((y - y.mean()) ** 2).sum())
-    return Fit(dict(zip(names, beta.tolist())), dict(zip(names, np.sqrt(np.diag(cov)).tolist())),
-               float(np.sqrt(s2)), dof, n, r2)
+    coefs = dict(zip(names, beta.tolist()))
+    rts = None
+    src = eq.source
+    if src is not None and src.kind == "cost" and str(eq.args[-1]) in coefs \
+            and coefs[str(eq.args[-1])] != 0:
+        rts = 1 / coefs[str(eq.args[-1])]
+    return Fit(coefs, dict(zip(names, np.sqrt(np.diag(cov)).tolist())),
+               float(np.sqrt(s2)), dof, n, r2, rts)
 
 
 __all__ = ["LinearEquation", "log_linear_equation", "Fit", "fit"]

@@ -474,33 +474,56 @@ def _grad_checks(kind: str, main: Fn, demands: dict, prices, sign: int, lemma: s
                  domain) -> list[_Spec]:
     specs = []
     res = [main.diff(w) * sign - Fn.of(x) for (name, x), w in zip(demands.items(), prices)]
-    scale = [Fn.of(x) for x in demands.values()]
+    # x_i alone is no scale where a good is not used (a corner, x_i = 0): the rounding of
+    # both sides would count as a relative error of any size; the value over the price,
+    # the most that can be spent on the good, is a scale that does not vanish there
+    scale = [_largest(Fn.of(x), main / Fn(w)) for x, w in zip(demands.values(), prices)]
     specs.append(_Spec(lemma, r"\partial c/\partial w_i = x_i" if kind == "cost" else
                        (r"\partial e/\partial p_i = h_i" if kind == "expenditure" else
                         r"-\partial \pi/\partial w_i = x_i"),
-                       res, scale, depth=_depth(main, *scale), domain=domain))
+                       res, scale, depth=_depth(main, *(Fn.of(x) for x in demands.values())),
+                       domain=domain))
     return specs
 
 
-def _curvature(name, statement, fns: list[list[Fn]], sign: int, domain) -> _Spec:
-    """Matrix of functions is NSD (sign=-1) or PSD (sign=+1) at each point."""
+def _curvature(name, statement, fns: list[list[Fn]], sign: int, domain, ref=None) -> _Spec:
+    """Matrix of functions is NSD (sign=-1) or PSD (sign=+1) at each point; ``ref`` as in
+    :func:`_symmetry`."""
     def test(pt):
         M = np.array([[f(pt) for f in row] for row in fns], dtype=float)
         M = (M + M.T) / 2
         eig = np.linalg.eigvalsh(M) * sign
         scale = max(np.abs(M).max(), 1e-12)
+        if ref:
+            scale = max(scale, max(abs(f(pt)) for row in ref for f in row))
         return max(0.0, -eig.min()) , scale
     depth = max(_depth(f) for row in fns for f in row)
     return _Spec(name, statement, sign_test=test, symbolic=False, depth=depth, domain=domain)
 
 
-def _symmetry(name, statement, fns: list[list[Fn]], domain) -> _Spec:
+def _largest(*fns: Fn) -> Callable[[dict], float]:
+    """Scale of a residual at a point: the largest magnitude of the given functions."""
+    def scale(pt):
+        return max(abs(f(pt)) for f in fns)
+    return scale
+
+
+def _second_scale(value: Fn, prices) -> list[list[Fn]]:
+    """value / (p_i p_j): the size of a second price derivative of a function homogeneous
+    of degree one, nonzero also where a good is not bought (common practice, no source)."""
+    return [[value / (Fn(p) * Fn(q)) for q in prices] for p in prices]
+
+
+def _symmetry(name, statement, fns: list[list[Fn]], domain, ref=None) -> _Spec:
+    """Matrix ``fns`` is symmetric; ``ref`` (same shape) gives each entry's size where the
+    entries themselves may all vanish (a corner)."""
     n = len(fns)
     res = [fns[i][j] - fns[j][i] for i in range(n) for j in range(i + 1, n)]
-    scale = [fns[i][j] for i in range(n) for j in range(i + 1, n)]
+    scale = [_largest(fns[i][j], *((ref[i][j],) if ref else ())) for i in range(n)
+             for j in range(i + 1, n)]
     if not res:
         return None
-    return _Spec(name, statement, res, scale, depth=max(_depth(f) for f in res + scale),
+    return _Spec(name, statement, res, scale, depth=max(_depth(f) for f in res),
                  domain=domain)
 
 
@@ -538,14 +561,16 @@ def _technology_specs(model: Model, budget) -> tuple[list, bool]:
     specs.append(_hom_spec("cost homogeneous of degree 1 in prices",
                            r"c(t w, y) = t\, c(w, y)", C, ws, 1, dom))
     specs.append(_hom_multi("conditional demands homogeneous of degree 0 in prices",
-                            r"x_i(t w, y) = x_i(w, y)", X, ws, 0, dom))
+                            r"x_i(t w, y) = x_i(w, y)", X, ws, 0, dom,
+                            [_largest(x, C / Fn(w)) for x, w in zip(X, ws)]))
     S = [[x.diff(w) for w in ws] for x in X]
+    ref = _second_scale(C, ws)
     sym = _symmetry("substitution matrix symmetric", r"\partial x_i/\partial w_j = "
-                    r"\partial x_j/\partial w_i", S, dom)
+                    r"\partial x_j/\partial w_i", S, dom, ref)
     if sym is not None:
         specs.append(sym)
     specs.append(_curvature("cost concave in prices",
-                            r"\nabla^2_w c(w, y) \preceq 0", S, -1, dom))
+                            r"\nabla^2_w c(w, y) \preceq 0", S, -1, dom, ref))
     specs.append(_monotone("cost non-decreasing in prices and output",
                            r"\partial c/\partial w_i \ge 0,\ \partial c/\partial y > 0",
                            X + [C.diff(y)], 1, dom))
@@ -564,7 +589,9 @@ def _technology_specs(model: Model, budget) -> tuple[list, bool]:
         res = [P.diff(p) - Yf] + [-P.diff(w) - xf for w, xf in zip(ws, XF)]
         specs.append(_Spec("Hotelling's lemma",
                            r"\partial\pi/\partial p = y,\ -\partial\pi/\partial w_i = x_i",
-                           res, [Yf] + XF, depth=_depth(P, Yf, *XF), domain=pi.conditions))
+                           res, [_largest(Yf, P / Fn(p))]
+                           + [_largest(xf, P / Fn(w)) for w, xf in zip(ws, XF)],
+                           depth=_depth(P, Yf, *XF), domain=pi.conditions))
         allp = (p,) + tuple(ws)
         specs.append(_hom_spec("profit homogeneous of degree 1 in (p, w)",
                                r"\pi(t p, t w) = t\, \pi(p, w)", P, allp, 1, pi.conditions))
@@ -579,18 +606,21 @@ def _hom_spec(name, statement, f: Fn, syms, degree, domain):
     return _hom_multi(name, statement, [f], syms, degree, domain)
 
 
-def _hom_multi(name, statement, fs: list[Fn], syms, degree, domain):
+def _hom_multi(name, statement, fs: list[Fn], syms, degree, domain, scale=None):
+    """Every f in ``fs`` homogeneous of ``degree`` in ``syms``; ``scale`` (one per f, as
+    for :func:`_grad_checks`) sizes errors where an f vanishes (a good not bought)."""
+    scale = fs if scale is None else scale
     t = sp.Symbol("t_", positive=True)
     tv = 1.7
     if all(f.sym is not None for f in fs):
         res_t = [f.subs({s: Fn(t * s) for s in syms}) - Fn(t ** degree) * f for f in fs]
-        spec = _Spec(name, statement, [r.subs({t: Fn.const(tv)}) for r in res_t], fs,
+        spec = _Spec(name, statement, [r.subs({t: Fn.const(tv)}) for r in res_t], scale,
                      depth=0, domain=domain)
         spec.symbolic_exprs = [r.sym for r in res_t]  # type: ignore[attr-defined]
         return spec
     res = [f.subs({s: Fn(tv * s) for s in syms}) - f * (tv ** degree) for f in fs]
-    return _Spec(name, statement, res, fs, symbolic=False, depth=max(_depth(f) for f in fs),
-                 domain=domain)
+    return _Spec(name, statement, res, scale, symbolic=False,
+                 depth=max(_depth(f) for f in fs), domain=domain)
 
 
 def _preference_specs(model: Model, budget) -> tuple[list, bool]:
@@ -607,7 +637,8 @@ def _preference_specs(model: Model, budget) -> tuple[list, bool]:
     Vm = V.diff(m)
     specs.append(_Spec("Roy's identity", r"x_i = -\frac{\partial v/\partial p_i}"
                        r"{\partial v/\partial m}",
-                       [-V.diff(p) / Vm - x for p, x in zip(ps, X)], X,
+                       [-V.diff(p) / Vm - x for p, x in zip(ps, X)],
+                       [_largest(x, Fn(m) / Fn(p)) for x, p in zip(X, ps)],
                        depth=_depth(V, *X), domain=vdom))
     specs += _grad_checks("expenditure", E, e.demands, ps, 1, "Shephard's lemma (Hicksian)",
                           edom)
@@ -625,22 +656,24 @@ def _preference_specs(model: Model, budget) -> tuple[list, bool]:
             lhs = x.diff(p)
             rhs = H[i].diff(p).subs({u: V}) - X[j] * x.diff(m)
             slutsky_res.append(lhs - rhs)
-            slutsky_scale.append(x / Fn(p))
+            slutsky_scale.append(_largest(x / Fn(p), Fn(m) / (Fn(p) * Fn(ps[i]))))
     specs.append(_Spec("Slutsky equation", r"\frac{\partial x_i}{\partial p_j} = "
                        r"\frac{\partial h_i}{\partial p_j} - x_j \frac{\partial x_i}{\partial m}",
                        slutsky_res, slutsky_scale,
                        depth=max(_depth(r) for r in slutsky_res), domain=both))
     S = [[h.diff(p) for p in ps] for h in H]
+    ref = _second_scale(E, ps)
     sym = _symmetry("Slutsky matrix symmetric", r"\partial h_i/\partial p_j = "
-                    r"\partial h_j/\partial p_i", S, edom)
+                    r"\partial h_j/\partial p_i", S, edom, ref)
     if sym is not None:
         specs.append(sym)
     specs.append(_curvature("Slutsky matrix negative semidefinite (e concave in p)",
-                            r"\nabla^2_p e(p, u) \preceq 0", S, -1, edom))
+                            r"\nabla^2_p e(p, u) \preceq 0", S, -1, edom, ref))
     specs.append(_hom_spec("indirect utility homogeneous of degree 0 in (p, m)",
                            r"v(t p, t m) = v(p, m)", V, tuple(ps) + (m,), 0, vdom))
     specs.append(_hom_multi("Marshallian demands homogeneous of degree 0 in (p, m)",
-                            r"x_i(t p, t m) = x_i(p, m)", X, tuple(ps) + (m,), 0, vdom))
+                            r"x_i(t p, t m) = x_i(p, m)", X, tuple(ps) + (m,), 0, vdom,
+                            [_largest(x, Fn(m) / Fn(p)) for x, p in zip(X, ps)]))
     specs.append(_hom_spec("expenditure homogeneous of degree 1 in prices",
                            r"e(t p, u) = t\, e(p, u)", E, ps, 1, edom))
     specs.append(_monotone("indirect utility increasing in income, non-increasing in prices",

@@ -106,3 +106,37 @@ def test_a_kinked_identity_is_proved_branch_by_branch():
     w1, w2, y = sp.symbols("w1 w2 y", positive=True)
     bent = sp.Piecewise((y / 2, w1 / 2 <= w2 / 3), (y, True)) - y / 2
     assert not checks._is_zero(bent)
+
+
+
+class _NumericDemand:
+    """A demand known only numerically (the shape of a numeric-route result)."""
+    expr, params, free_params = None, {}, ()
+
+    def __init__(self, args, value):
+        self.args, self.value = args, value
+
+    def __call__(self, **pt):
+        return self.value(pt)
+
+
+def test_a_good_left_unused_is_no_failure_of_the_lemma():
+    # a corner: c = w1·y, good 2 not bought, so Shephard's lemma gives x1 = y, x2 = 0
+    # (Varian, Microeconomic Analysis, 3rd ed., ch. 5, from memory).  A numeric x2 of
+    # rounding size is no relative error of 100 %: errors are scaled by c/w_i as well,
+    # the most that can be spent on the good, which does not vanish at the corner
+    w1, w2, y = sp.symbols("w1 w2 y", positive=True)
+    args = (w1, w2, y)
+    demands = {"x1": _NumericDemand(args, lambda pt: pt["y"] * (1 + 1e-13)),
+               "x2": _NumericDemand(args, lambda pt: 2.6e-15)}
+    [spec] = checks._grad_checks("cost", Fn(w1 * y), demands, (w1, w2), 1,
+                                 "Shephard's lemma", ())
+    pts = [{w1: 2.5, w2: 2.7, y: 3.0}, {w1: 0.7, w2: 1.9, y: 11.0}]
+    worst, _, used, _ = checks._numeric_pass(spec, pts, dy.Budget(30))
+    assert used == 2 and worst < 1e-12
+    # a real gap is still caught: x1 off by 1 %
+    demands["x1"] = _NumericDemand(args, lambda pt: pt["y"] * 1.01)
+    [spec] = checks._grad_checks("cost", Fn(w1 * y), demands, (w1, w2), 1,
+                                 "Shephard's lemma", ())
+    worst, _, _, _ = checks._numeric_pass(spec, pts, dy.Budget(30))
+    assert worst == pytest.approx(0.01 / 1.01, rel=1e-6)

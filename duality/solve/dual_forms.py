@@ -124,6 +124,61 @@ def aids_expenditure(prices=2, *, utility: str = "u", income: str = "m", params=
                                 form="aids_expenditure")
 
 
+def quaids_expenditure(prices=2, *, utility: str = "u", income: str = "m", params=None,
+                       goods=None, name: str = "") -> Model:
+    """Quadratic Almost Ideal expenditure function (Banks, Blundell and Lewbel 1997).
+
+    ln e = ln a(p) + b(p)·u / (1 − λ(p)·u) with ln a(p) as in :func:`aids_expenditure`
+    (``a0, a1.., g11, g12..``), b(p) = Π p_k^{b_k} and λ(p) = Σ l_k ln p_k (``l1, l2, …``).
+    The utility level u is Banks, Blundell and Lewbel's ln V; the budget shares are
+    w_i = a_i + Σ_j g_ij ln p_j + b_i ln(m/a(p)) + (l_i / b(p))·(ln(m/a(p)))².
+    With every l_k = 0 it is the Almost Ideal form with b0 = 1.
+    """
+    ps = _names(prices, "p")
+    idx = [str(i + 1) for i in range(len(ps))]
+    L = [f"log({p})" for p in ps]
+    quad, gnames = _quadratic(L, idx, "g")
+    first = " + ".join(f"a{i}*{l}" for i, l in zip(idx, L))
+    prod = "*".join(f"{p}^b{i}" for i, p in zip(idx, ps))
+    lam = " + ".join(f"l{i}*{l}" for i, l in zip(idx, L))
+    formula = (f"exp(a0 + {first} + {quad} + {prod}*{utility}/(1 - ({lam})*{utility}))")
+    names = (["a0"] + [f"a{i}" for i in idx] + gnames + [f"b{i}" for i in idx]
+             + [f"l{i}" for i in idx])
+    return expenditure_function(formula, ps, goods, utility=utility, income=income,
+                                params=_params(names, params),
+                                name=name or "quadratic Almost Ideal demand system",
+                                form="quaids_expenditure")
+
+
+def _aids_pieces(model: Model):
+    """ln a(p), the g matrix entry function and the parameter symbols of an (Q)AIDS model."""
+    ps = list(model.prices)
+    sym = {p.name: p.symbol for p in model.params}
+    n = len(ps)
+    lnp = [sp.log(p) for p in ps]
+
+    def g(i, j):
+        a, b = sorted((i, j))
+        return sym[f"g{a + 1}{b + 1}"]
+    lna = sym["a0"] + sum(sym[f"a{k + 1}"] * lnp[k] for k in range(n)) + sp.Rational(1, 2) * \
+        sum(g(k, j) * lnp[k] * lnp[j] for k in range(n) for j in range(n))
+    return ps, sym, lnp, g, lna
+
+
+def quaids_indirect_utility(model: Model) -> sp.Expr:
+    """Indirect utility of a quadratic Almost Ideal model, as published by Banks, Blundell
+    and Lewbel (1997): ln V = {[(ln m − ln a(p)) / b(p)]⁻¹ + λ(p)}⁻¹, i.e.
+    u = z / (b(p) + λ(p)·z) with z = ln m − ln a(p)."""
+    if model.form != "quaids_expenditure":
+        raise ModelError("this indirect utility needs a model from quaids_expenditure()")
+    ps, sym, lnp, _g, lna = _aids_pieces(model)
+    n = len(ps)
+    b = sp.Mul(*[p ** sym[f"b{k + 1}"] for k, p in enumerate(ps)])
+    lam = sum(sym[f"l{k + 1}"] * lnp[k] for k in range(n))
+    z = sp.log(model.income) - lna
+    return z / (b + lam * z)
+
+
 def aids_share_equations(model: Model, *, index: str = "exact",
                          observed: Sequence[str] | None = None) -> list[sp.Expr]:
     """Budget-share equations of an AIDS model, in prices, income and parameters.
@@ -174,6 +229,10 @@ class DualForm:
     side: str
     price_letter: str
     build: Callable[..., Model]
+    #: the published closed form of the other dual in the model's own symbols (for an
+    #: expenditure form its indirect utility v(p, m)), when the engine's inversion
+    #: would not find it within a budget; derivation verifies it numerically
+    other_dual: Callable[[Model], sp.Expr] | None = None
 
 
 #: the dual-side catalogue, in the order it is listed (the one source of it)
@@ -191,6 +250,11 @@ DUAL_FORMS: tuple[DualForm, ...] = (
              "Deaton and Muellbauer, 'An almost ideal demand system', American "
              "Economic Review 70 (1980) (from memory)",
              "preference", "expenditure", "p", aids_expenditure),
+    DualForm("quaids_expenditure", "quadratic Almost Ideal expenditure function",
+             "Banks, Blundell and Lewbel, 'Quadratic Engel curves and consumer demand', "
+             "Review of Economics and Statistics 79 (1997) (from memory)",
+             "preference", "expenditure", "p", quaids_expenditure,
+             other_dual=quaids_indirect_utility),
 )
 #: form name -> :class:`DualForm`
 BY_NAME: dict[str, DualForm] = {f.name: f for f in DUAL_FORMS}
@@ -208,4 +272,4 @@ def get_form(name: str) -> DualForm:
 
 
 __all__ = ["DualForm", "DUAL_FORMS", "BY_NAME", "get_form", "DUAL_CATALOGUE", "translog_cost", "generalized_leontief_cost", "aids_expenditure",
-           "aids_share_equations"]
+           "quaids_expenditure", "quaids_indirect_utility", "aids_share_equations"]

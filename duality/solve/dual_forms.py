@@ -150,6 +150,100 @@ def quaids_expenditure(prices=2, *, utility: str = "u", income: str = "m", param
                                 form="quaids_expenditure")
 
 
+def _number_text(x) -> str:
+    """A weight or reference price as formula text (exact for ints and fractions)."""
+    try:
+        r = sp.nsimplify(x, rational=True) if not isinstance(x, str) else sp.sympify(x)
+    except (TypeError, ValueError, sp.SympifyError) as exc:
+        raise ModelError(f"{x!r} is not a number") from exc
+    if not r.is_number or not r.is_real or not r > 0:
+        raise ModelError(f"weights and reference prices must be positive numbers, not {x!r}")
+    return f"({r})"
+
+
+def _normalized_quadratic_core(ps, idx, weights, reference, output):
+    """Σ b_i w_i y + ½ Σ_{i,j<n} s_ij v_i v_j / (θ·w) y with v_i = w_i − (w*_i / w*_n) w_n:
+    the quadratic form wᵀSw with S w* = 0 built in (S's last row and column eliminated)."""
+    n = len(ps)
+    weights = [1 / sp.Integer(n)] * n if weights is None else list(weights)
+    reference = [1] * n if reference is None else list(reference)
+    for what, vals in (("weights", weights), ("reference", reference)):
+        if len(vals) != n:
+            raise ModelError(f"{what}: {len(vals)} numbers for {n} prices")
+    th = [_number_text(t) for t in weights]
+    ref = [_number_text(r) for r in reference]
+    index = " + ".join(f"{t}*{p}" for t, p in zip(th, ps))
+    v = [f"({ps[i]} - {ref[i]}/{ref[-1]}*{ps[-1]})" for i in range(n - 1)]
+    quad, snames = _quadratic(v, idx[:-1], "s")
+    linear = " + ".join(f"b{i}*{p}" for i, p in zip(idx, ps))
+    core = f"{output}*({linear} + ({quad})/({index}))"
+    return core, index, [f"b{i}" for i in idx] + snames
+
+
+def normalized_quadratic_cost(prices=2, *, output: str = "y", params=None, quantities=None,
+                              weights=None, reference=None, name: str = "") -> Model:
+    """Normalized quadratic cost function (Diewert and Wales 1987), constant returns:
+
+    c(w, y) = y·[Σ b_i w_i + ½ wᵀ S w / (θ·w)],  S symmetric with S w* = 0,
+
+    θ fixed nonnegative weights (``weights``, default 1/n each; Diewert and Wales suggest
+    the sample mean quantities) and w* a reference price vector (``reference``, default
+    ones).  S w* = 0 is built in: S's free entries are the leading (n−1)×(n−1) block
+    ``s11, s12, …`` (i <= j < n), written through v_i = w_i − (w*_i / w*_n) w_n, so that
+    wᵀSw = Σ s_ij v_i v_j.  The function is homogeneous of degree one in w by construction;
+    it is concave in w for all prices iff the block is negative semidefinite
+    (:func:`concave_block` builds such a block from a lower-triangular one).
+    """
+    ps = _names(prices, "w")
+    idx = [str(i + 1) for i in range(len(ps))]
+    core, _index, names = _normalized_quadratic_core(ps, idx, weights, reference, output)
+    return cost_function(core, ps, quantities, output=output, params=_params(names, params),
+                         name=name or "normalized quadratic cost",
+                         form="normalized_quadratic_cost")
+
+
+def symmetric_generalized_mcfadden_cost(prices=2, *, output: str = "y", params=None,
+                                        quantities=None, weights=None, reference=None,
+                                        name: str = "") -> Model:
+    """Symmetric generalized McFadden cost function (Diewert and Wales 1987):
+
+    c(w, y) = y·[Σ b_i w_i + ½ wᵀ S w / (θ·w)] + Σ c_i w_i + byy·(θ·w)·y²,
+
+    the normalized quadratic core (:func:`normalized_quadratic_cost`, same ``weights``,
+    ``reference`` and S w* = 0 built in) with input-specific fixed terms ``c1, c2, …`` and a
+    quadratic output term ``byy`` that make it flexible in output as well.  Concave in w for
+    all prices iff the S block is negative semidefinite.
+    """
+    ps = _names(prices, "w")
+    idx = [str(i + 1) for i in range(len(ps))]
+    core, index, names = _normalized_quadratic_core(ps, idx, weights, reference, output)
+    fixed = " + ".join(f"c{i}*{p}" for i, p in zip(idx, ps))
+    formula = f"{core} + {fixed} + byy*({index})*{output}^2"
+    names = names + [f"c{i}" for i in idx] + ["byy"]
+    return cost_function(formula, ps, quantities, output=output, params=_params(names, params),
+                         name=name or "symmetric generalized McFadden cost",
+                         form="symmetric_generalized_mcfadden_cost")
+
+
+def concave_block(lower, *, prefix: str = "s") -> dict[str, float]:
+    """Values ``s11, s12, …`` of a negative semidefinite block S = −L Lᵀ.
+
+    ``lower`` is an (n−1)×(n−1) lower-triangular matrix L (entries above the diagonal are
+    ignored); any L gives a negative semidefinite S, and every such S arises from some L —
+    the Cholesky-type reparametrisation by which Diewert and Wales (1987) impose global
+    concavity on the normalized quadratic and symmetric generalized McFadden forms.
+    """
+    import numpy as np  # deferred: numpy is only needed here, sympy elsewhere in the module
+    L = np.tril(np.asarray(lower, float))
+    if L.ndim != 2 or L.shape[0] != L.shape[1] or L.shape[0] < 1:
+        raise ModelError("concave_block needs a square lower-triangular matrix")
+    if not np.isfinite(L).all():
+        raise ModelError("concave_block: the matrix has entries that are not finite")
+    S = -L @ L.T
+    k = S.shape[0]
+    return {f"{prefix}{i + 1}{j + 1}": float(S[i, j]) for i in range(k) for j in range(i, k)}
+
+
 def _aids_pieces(model: Model):
     """ln a(p), the g matrix entry function and the parameter symbols of an (Q)AIDS model."""
     ps = list(model.prices)
@@ -255,6 +349,15 @@ DUAL_FORMS: tuple[DualForm, ...] = (
              "Review of Economics and Statistics 79 (1997) (from memory)",
              "preference", "expenditure", "p", quaids_expenditure,
              other_dual=quaids_indirect_utility),
+    DualForm("normalized_quadratic_cost", "normalized quadratic cost function",
+             "Diewert and Wales, 'Flexible functional forms and global curvature "
+             "conditions', Econometrica 55 (1987) (from memory)",
+             "technology", "cost", "w", normalized_quadratic_cost),
+    DualForm("symmetric_generalized_mcfadden_cost",
+             "symmetric generalized McFadden cost function",
+             "Diewert and Wales, 'Flexible functional forms and global curvature "
+             "conditions', Econometrica 55 (1987) (from memory)",
+             "technology", "cost", "w", symmetric_generalized_mcfadden_cost),
 )
 #: form name -> :class:`DualForm`
 BY_NAME: dict[str, DualForm] = {f.name: f for f in DUAL_FORMS}
@@ -272,4 +375,6 @@ def get_form(name: str) -> DualForm:
 
 
 __all__ = ["DualForm", "DUAL_FORMS", "BY_NAME", "get_form", "DUAL_CATALOGUE", "translog_cost", "generalized_leontief_cost", "aids_expenditure",
-           "quaids_expenditure", "quaids_indirect_utility", "aids_share_equations"]
+           "quaids_expenditure", "quaids_indirect_utility", "aids_share_equations",
+           "normalized_quadratic_cost", "symmetric_generalized_mcfadden_cost",
+           "concave_block"]

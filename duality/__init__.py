@@ -35,6 +35,9 @@ from .errors import (BudgetExceeded, DomainError, DualityError, FormulaError, Mo
                      NoSolutionError)
 from .solve.forms import CATALOGUE
 from .solve.dual_forms import (DUAL_CATALOGUE, aids_expenditure, aids_share_equations,
+                               quaids_expenditure, quaids_indirect_utility,
+                               normalized_quadratic_cost, symmetric_generalized_mcfadden_cost,
+                               concave_block,
                          generalized_leontief_cost, translog_cost)
 from .model.dual_side import (cost_function, expenditure_function, indirect_utility_function,
                         profit_function)
@@ -80,6 +83,8 @@ __all__ = [
     "conjugate", "check",
     "cost_function", "profit_function", "expenditure_function", "indirect_utility_function",
     "translog_cost", "generalized_leontief_cost", "aids_expenditure", "aids_share_equations",
+    "quaids_expenditure", "quaids_indirect_utility", "normalized_quadratic_cost",
+    "symmetric_generalized_mcfadden_cost", "concave_block",
     "DUAL_CATALOGUE", "restrictions", "violations", "impose_restrictions", "regularity",
     "RegularityReport", "recover", "Recovered", "load_scenario", "save_scenario",
     "scenario_table", "price_change",

@@ -196,6 +196,13 @@ def _dual_indirect(model: Model, budget) -> Solution:
     g = _dual.given(model)
     m, u = model.income, model.level
     _dual.check_monotone_level(model, model.expr, u)
+    v = _dual.published_inverse(model, model.expr, u, m, notes, "e(p, u) = m for u")
+    if v is not None:
+        return Solution(value=v, demands=tuple(d.xreplace({u: v}) for d in g.demands),
+                        route="catalogue",
+                        method="the published indirect utility, which solves e(p, u) = m "
+                        "for u; Marshallian demands are the Hicksian ones at u = v(p, m)",
+                        source=g.source, notes=tuple(notes))
     v = _dual.invert(model, model.expr, u, m, budget, notes, "e(p, u) = m for u")
     if v is not None:
         return Solution(value=v, demands=tuple(d.xreplace({u: v}) for d in g.demands),

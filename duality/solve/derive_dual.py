@@ -65,6 +65,39 @@ def _invert_worker(expr, var, target):
     return [s for s in sp.solve(sp.Eq(expr, target), var) if s.is_real is not False]
 
 
+def _passes(model: Model, expr, var, target, cand) -> bool:
+    """expr(cand) = target at the sampled points (cand real and finite there)."""
+    syms = sorted((expr.free_symbols | {target}) - {var}, key=str)
+    f = _fn(expr, [var] + syms)
+    g = _fn(cand, syms)
+    for pt in sample_points(model, levels=False):
+        pt = dict(pt)
+        pt[target] = float(np.random.default_rng(len(pt)).uniform(1.0, 3.0)) \
+            if target.is_positive else 0.7
+        with np.errstate(all="ignore"):
+            try:
+                val = complex(g(*[pt[s] for s in syms]))
+                back = complex(f(val.real, *[pt[s] for s in syms]))
+            except (ArithmeticError, ValueError, TypeError, KeyError):
+                return False
+        if (abs(val.imag) > 1e-9 * (1 + abs(val.real)) or
+                not abs(back - pt[target]) <= 1e-8 * (1 + abs(pt[target]))):
+            return False
+    return True
+
+
+def published_inverse(model: Model, expr, var, target, notes: list, label: str):
+    """The catalogue's published solution of expr(var) = target, verified; or None."""
+    form = DUAL_FORMS.get(model.form)
+    if form is None or form.other_dual is None:
+        return None
+    cand = form.other_dual(model)
+    if _passes(model, expr, var, target, cand):
+        return cand
+    notes.append(f"the published solution of {label} did not pass the numeric check")
+    return None
+
+
 def invert(model: Model, expr, var, target, budget, notes: list, label: str):
     """Closed-form solutions of expr(var) = target, verified numerically; or None."""
     try:
@@ -75,27 +108,8 @@ def invert(model: Model, expr, var, target, budget, notes: list, label: str):
     except Exception as exc:  # noqa: BLE001 - a failed solve is a note
         notes.append(f"solving {label} failed: {type(exc).__name__}: {exc}")
         return None
-    syms = sorted((expr.free_symbols | {target}) - {var}, key=str)
-    f = _fn(expr, [var] + syms)
     for cand in cands:
-        g = _fn(cand, syms)
-        ok = True
-        for pt in sample_points(model, levels=False):
-            pt = dict(pt)
-            pt[target] = float(np.random.default_rng(len(pt)).uniform(1.0, 3.0)) \
-                if target.is_positive else 0.7
-            with np.errstate(all="ignore"):
-                try:
-                    val = complex(g(*[pt[s] for s in syms]))
-                    back = complex(f(val.real, *[pt[s] for s in syms]))
-                except (ArithmeticError, ValueError, TypeError, KeyError):
-                    ok = False
-                    break
-            if (abs(val.imag) > 1e-9 * (1 + abs(val.real)) or
-                    not abs(back - pt[target]) <= 1e-8 * (1 + abs(pt[target]))):
-                ok = False
-                break
-        if ok:
+        if _passes(model, expr, var, target, cand):
             return cand
     notes.append(f"no closed-form solution of {label} passed the numeric check")
     return None
@@ -183,6 +197,6 @@ def check_monotone_level(model: Model, expr, var, why: str = "") -> None:
                                   "it cannot be inverted for the other dual")
 
 
-__all__ = ["given", "invert", "numeric_inverse", "bisect_increasing", "dual_source",
+__all__ = ["given", "invert", "published_inverse", "numeric_inverse", "bisect_increasing", "dual_source",
            "check_monotone_level", "LEMMA"]
 

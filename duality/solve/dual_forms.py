@@ -124,6 +124,155 @@ def aids_expenditure(prices=2, *, utility: str = "u", income: str = "m", params=
                                 form="aids_expenditure")
 
 
+def quaids_expenditure(prices=2, *, utility: str = "u", income: str = "m", params=None,
+                       goods=None, name: str = "") -> Model:
+    """Quadratic Almost Ideal expenditure function (Banks, Blundell and Lewbel 1997).
+
+    ln e = ln a(p) + b(p)·u / (1 − λ(p)·u) with ln a(p) as in :func:`aids_expenditure`
+    (``a0, a1.., g11, g12..``), b(p) = Π p_k^{b_k} and λ(p) = Σ l_k ln p_k (``l1, l2, …``).
+    The utility level u is Banks, Blundell and Lewbel's ln V; the budget shares are
+    w_i = a_i + Σ_j g_ij ln p_j + b_i ln(m/a(p)) + (l_i / b(p))·(ln(m/a(p)))².
+    With every l_k = 0 it is the Almost Ideal form with b0 = 1.
+    """
+    ps = _names(prices, "p")
+    idx = [str(i + 1) for i in range(len(ps))]
+    L = [f"log({p})" for p in ps]
+    quad, gnames = _quadratic(L, idx, "g")
+    first = " + ".join(f"a{i}*{l}" for i, l in zip(idx, L))
+    prod = "*".join(f"{p}^b{i}" for i, p in zip(idx, ps))
+    lam = " + ".join(f"l{i}*{l}" for i, l in zip(idx, L))
+    formula = (f"exp(a0 + {first} + {quad} + {prod}*{utility}/(1 - ({lam})*{utility}))")
+    names = (["a0"] + [f"a{i}" for i in idx] + gnames + [f"b{i}" for i in idx]
+             + [f"l{i}" for i in idx])
+    return expenditure_function(formula, ps, goods, utility=utility, income=income,
+                                params=_params(names, params),
+                                name=name or "quadratic Almost Ideal demand system",
+                                form="quaids_expenditure")
+
+
+def _number_text(x) -> str:
+    """A weight or reference price as formula text (exact for ints and fractions)."""
+    try:
+        r = sp.nsimplify(x, rational=True) if not isinstance(x, str) else sp.sympify(x)
+    except (TypeError, ValueError, sp.SympifyError) as exc:
+        raise ModelError(f"{x!r} is not a number") from exc
+    if not r.is_number or not r.is_real or not r > 0:
+        raise ModelError(f"weights and reference prices must be positive numbers, not {x!r}")
+    return f"({r})"
+
+
+def _normalized_quadratic_core(ps, idx, weights, reference, output):
+    """Σ b_i w_i y + ½ Σ_{i,j<n} s_ij v_i v_j / (θ·w) y with v_i = w_i − (w*_i / w*_n) w_n:
+    the quadratic form wᵀSw with S w* = 0 built in (S's last row and column eliminated)."""
+    n = len(ps)
+    weights = [1 / sp.Integer(n)] * n if weights is None else list(weights)
+    reference = [1] * n if reference is None else list(reference)
+    for what, vals in (("weights", weights), ("reference", reference)):
+        if len(vals) != n:
+            raise ModelError(f"{what}: {len(vals)} numbers for {n} prices")
+    th = [_number_text(t) for t in weights]
+    ref = [_number_text(r) for r in reference]
+    index = " + ".join(f"{t}*{p}" for t, p in zip(th, ps))
+    v = [f"({ps[i]} - {ref[i]}/{ref[-1]}*{ps[-1]})" for i in range(n - 1)]
+    quad, snames = _quadratic(v, idx[:-1], "s")
+    linear = " + ".join(f"b{i}*{p}" for i, p in zip(idx, ps))
+    core = f"{output}*({linear} + ({quad})/({index}))"
+    return core, index, [f"b{i}" for i in idx] + snames
+
+
+def normalized_quadratic_cost(prices=2, *, output: str = "y", params=None, quantities=None,
+                              weights=None, reference=None, name: str = "") -> Model:
+    """Normalized quadratic cost function (Diewert and Wales 1987), constant returns:
+
+    c(w, y) = y·[Σ b_i w_i + ½ wᵀ S w / (θ·w)],  S symmetric with S w* = 0,
+
+    θ fixed nonnegative weights (``weights``, default 1/n each; Diewert and Wales suggest
+    the sample mean quantities) and w* a reference price vector (``reference``, default
+    ones).  S w* = 0 is built in: S's free entries are the leading (n−1)×(n−1) block
+    ``s11, s12, …`` (i <= j < n), written through v_i = w_i − (w*_i / w*_n) w_n, so that
+    wᵀSw = Σ s_ij v_i v_j.  The function is homogeneous of degree one in w by construction;
+    it is concave in w for all prices iff the block is negative semidefinite
+    (:func:`concave_block` builds such a block from a lower-triangular one).
+    """
+    ps = _names(prices, "w")
+    idx = [str(i + 1) for i in range(len(ps))]
+    core, _index, names = _normalized_quadratic_core(ps, idx, weights, reference, output)
+    return cost_function(core, ps, quantities, output=output, params=_params(names, params),
+                         name=name or "normalized quadratic cost",
+                         form="normalized_quadratic_cost")
+
+
+def symmetric_generalized_mcfadden_cost(prices=2, *, output: str = "y", params=None,
+                                        quantities=None, weights=None, reference=None,
+                                        name: str = "") -> Model:
+    """Symmetric generalized McFadden cost function (Diewert and Wales 1987):
+
+    c(w, y) = y·[Σ b_i w_i + ½ wᵀ S w / (θ·w)] + Σ c_i w_i + byy·(θ·w)·y²,
+
+    the normalized quadratic core (:func:`normalized_quadratic_cost`, same ``weights``,
+    ``reference`` and S w* = 0 built in) with input-specific fixed terms ``c1, c2, …`` and a
+    quadratic output term ``byy`` that make it flexible in output as well.  Concave in w for
+    all prices iff the S block is negative semidefinite.
+    """
+    ps = _names(prices, "w")
+    idx = [str(i + 1) for i in range(len(ps))]
+    core, index, names = _normalized_quadratic_core(ps, idx, weights, reference, output)
+    fixed = " + ".join(f"c{i}*{p}" for i, p in zip(idx, ps))
+    formula = f"{core} + {fixed} + byy*({index})*{output}^2"
+    names = names + [f"c{i}" for i in idx] + ["byy"]
+    return cost_function(formula, ps, quantities, output=output, params=_params(names, params),
+                         name=name or "symmetric generalized McFadden cost",
+                         form="symmetric_generalized_mcfadden_cost")
+
+
+def concave_block(lower, *, prefix: str = "s") -> dict[str, float]:
+    """Values ``s11, s12, …`` of a negative semidefinite block S = −L Lᵀ.
+
+    ``lower`` is an (n−1)×(n−1) lower-triangular matrix L (entries above the diagonal are
+    ignored); any L gives a negative semidefinite S, and every such S arises from some L —
+    the Cholesky-type reparametrisation by which Diewert and Wales (1987) impose global
+    concavity on the normalized quadratic and symmetric generalized McFadden forms.
+    """
+    import numpy as np  # deferred: numpy is only needed here, sympy elsewhere in the module
+    L = np.tril(np.asarray(lower, float))
+    if L.ndim != 2 or L.shape[0] != L.shape[1] or L.shape[0] < 1:
+        raise ModelError("concave_block needs a square lower-triangular matrix")
+    if not np.isfinite(L).all():
+        raise ModelError("concave_block: the matrix has entries that are not finite")
+    S = -L @ L.T
+    k = S.shape[0]
+    return {f"{prefix}{i + 1}{j + 1}": float(S[i, j]) for i in range(k) for j in range(i, k)}
+
+
+def _aids_pieces(model: Model):
+    """ln a(p), the g matrix entry function and the parameter symbols of an (Q)AIDS model."""
+    ps = list(model.prices)
+    sym = {p.name: p.symbol for p in model.params}
+    n = len(ps)
+    lnp = [sp.log(p) for p in ps]
+
+    def g(i, j):
+        a, b = sorted((i, j))
+        return sym[f"g{a + 1}{b + 1}"]
+    lna = sym["a0"] + sum(sym[f"a{k + 1}"] * lnp[k] for k in range(n)) + sp.Rational(1, 2) * \
+        sum(g(k, j) * lnp[k] * lnp[j] for k in range(n) for j in range(n))
+    return ps, sym, lnp, g, lna
+
+
+def quaids_indirect_utility(model: Model) -> sp.Expr:
+    """Indirect utility of a quadratic Almost Ideal model, as published by Banks, Blundell
+    and Lewbel (1997): ln V = {[(ln m − ln a(p)) / b(p)]⁻¹ + λ(p)}⁻¹, i.e.
+    u = z / (b(p) + λ(p)·z) with z = ln m − ln a(p)."""
+    if model.form != "quaids_expenditure":
+        raise ModelError("this indirect utility needs a model from quaids_expenditure()")
+    ps, sym, lnp, _g, lna = _aids_pieces(model)
+    n = len(ps)
+    b = sp.Mul(*[p ** sym[f"b{k + 1}"] for k, p in enumerate(ps)])
+    lam = sum(sym[f"l{k + 1}"] * lnp[k] for k in range(n))
+    z = sp.log(model.income) - lna
+    return z / (b + lam * z)
+
+
 def aids_share_equations(model: Model, *, index: str = "exact",
                          observed: Sequence[str] | None = None) -> list[sp.Expr]:
     """Budget-share equations of an AIDS model, in prices, income and parameters.
@@ -174,6 +323,10 @@ class DualForm:
     side: str
     price_letter: str
     build: Callable[..., Model]
+    #: the published closed form of the other dual in the model's own symbols (for an
+    #: expenditure form its indirect utility v(p, m)), when the engine's inversion
+    #: would not find it within a budget; derivation verifies it numerically
+    other_dual: Callable[[Model], sp.Expr] | None = None
 
 
 #: the dual-side catalogue, in the order it is listed (the one source of it)
@@ -191,6 +344,20 @@ DUAL_FORMS: tuple[DualForm, ...] = (
              "Deaton and Muellbauer, 'An almost ideal demand system', American "
              "Economic Review 70 (1980) (from memory)",
              "preference", "expenditure", "p", aids_expenditure),
+    DualForm("quaids_expenditure", "quadratic Almost Ideal expenditure function",
+             "Banks, Blundell and Lewbel, 'Quadratic Engel curves and consumer demand', "
+             "Review of Economics and Statistics 79 (1997) (from memory)",
+             "preference", "expenditure", "p", quaids_expenditure,
+             other_dual=quaids_indirect_utility),
+    DualForm("normalized_quadratic_cost", "normalized quadratic cost function",
+             "Diewert and Wales, 'Flexible functional forms and global curvature "
+             "conditions', Econometrica 55 (1987) (from memory)",
+             "technology", "cost", "w", normalized_quadratic_cost),
+    DualForm("symmetric_generalized_mcfadden_cost",
+             "symmetric generalized McFadden cost function",
+             "Diewert and Wales, 'Flexible functional forms and global curvature "
+             "conditions', Econometrica 55 (1987) (from memory)",
+             "technology", "cost", "w", symmetric_generalized_mcfadden_cost),
 )
 #: form name -> :class:`DualForm`
 BY_NAME: dict[str, DualForm] = {f.name: f for f in DUAL_FORMS}
@@ -208,4 +375,6 @@ def get_form(name: str) -> DualForm:
 
 
 __all__ = ["DualForm", "DUAL_FORMS", "BY_NAME", "get_form", "DUAL_CATALOGUE", "translog_cost", "generalized_leontief_cost", "aids_expenditure",
-           "aids_share_equations"]
+           "quaids_expenditure", "quaids_indirect_utility", "aids_share_equations",
+           "normalized_quadratic_cost", "symmetric_generalized_mcfadden_cost",
+           "concave_block"]

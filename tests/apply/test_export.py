@@ -67,6 +67,14 @@ def translog_with_shares(translog):
 
 
 @pytest.fixture(scope="module")
+def normalized_quadratic_with_shares():
+    # a negative definite block: concave for all prices (Diewert and Wales 1987, from memory)
+    c = dy.cost(dy.normalized_quadratic_cost(3, params=dict(
+        b1=0.5, b2=0.8, b3=0.3, s11=-0.4, s12=0.1, s22=-0.3)))
+    return [c, dy.shares(c)]
+
+
+@pytest.fixture(scope="module")
 def substitutes():
     # perfect substitutes: cost y*min(a*w1, b*w2), demands by cases
     return dy.technology("x1/a + x2/b", ["x1", "x2"], params={"a": 0.5, "b": 2})
@@ -87,7 +95,7 @@ def _import(path: Path, modname: str):
 # ----------------------------------------------------------------------------- python
 
 @pytest.mark.parametrize("case", ["cobb_douglas", "ces", "translog_with_shares",
-                                  "substitutes"])
+                                  "normalized_quadratic_with_shares", "substitutes"])
 def test_python_export_matches_engine(case, request, tmp_path):
     what = request.getfixturevalue(case)
     col = collect(what)
@@ -527,3 +535,19 @@ def test_estimating_equations_export_as_code(tmp_path):
         assert "share_L_equation" in export(m, target, name="tl", equations=True)
     with pytest.raises(DualityError, match="give equations=True"):
         export(m, "python", name="tl", fixed={"a0": 1})
+
+
+def test_bundle_symmetric_generalized_mcfadden():
+    c = dy.cost(dy.symmetric_generalized_mcfadden_cost(3, params=dict(
+        b1=0.5, b2=0.8, b3=0.3, s11=-0.4, s12=0.1, s22=-0.3, c1=0.2, c2=0.1, c3=0.05,
+        byy=0.04)))
+    doc = json.loads(export(c, "bundle"))
+    assert [e["function"] for e in doc["equations"]] == ["share_x1", "share_x2"]
+    # homogeneity and S w* = 0 are built into the form: nothing left to restrict
+    assert doc["restrictions"] == []
+    back = load_json(json.dumps(doc))
+    shares = dy.shares(c)
+    for q in ("x1", "x2", "x3"):
+        pts = _points(shares[q], seed=7)
+        np.testing.assert_allclose(back["functions"][f"share_{q}"](**pts), shares[q](**pts),
+                                   rtol=RTOL, atol=0)

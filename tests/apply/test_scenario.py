@@ -400,8 +400,7 @@ FORMULAS = ["{0}^a", "{0}^a * {1}^(1 - a)", "a*log({0}) + (1 - a)*log({1})",
 
 @st.composite
 def scenarios(draw):
-    form = draw(st.sampled_from([None, None, "translog_cost", "generalized_leontief_cost",
-                                 "aids_expenditure"]))
+    form = draw(st.sampled_from([None, None, *dual_forms.BY_NAME]))
     n = draw(st.integers(2, 3))
     pool = draw(st.lists(NAME, min_size=2 * n + 6, max_size=2 * n + 6, unique=True))
     quantities, prices, rest = pool[:n], pool[n:2 * n], pool[2 * n:]

@@ -130,8 +130,16 @@ STRATEGIES = {
 FORMS = sorted(STRATEGIES)
 
 
+#: forms whose identities are tested in test_dual_form_properties.py (every form there, with
+#: its own meta-test) and against their papers in test_quaids.py and test_diewert_wales.py
+ELSEWHERE = {"quaids_expenditure", "normalized_quadratic_cost",
+             "symmetric_generalized_mcfadden_cost"}
+
+
 def test_every_dual_side_form_has_a_strategy():
-    assert set(STRATEGIES) == set(dy.DUAL_CATALOGUE)
+    # a new form fails here until it has a strategy in STRATEGIES or is named in ELSEWHERE
+    assert set(STRATEGIES) | ELSEWHERE == set(dy.DUAL_CATALOGUE)
+    assert not set(STRATEGIES) & ELSEWHERE
 
 
 # =========================================================================================

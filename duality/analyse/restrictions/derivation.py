@@ -47,6 +47,15 @@ def _euler(G, logs: _Logs, degree, uses_log):
     return num
 
 
+def _rational_and_homogeneous(F, prices, degree, is_log) -> bool:
+    """True when F (not ln F) is rational in ``prices`` and Σ p_i ∂F/∂p_i = degree·F
+    identically; False means "not shown", and the general test runs."""
+    if is_log or not F.is_rational_function(*prices):
+        return False
+    e = sp.Add(*[p * sp.diff(F, p) for p in prices]) - degree * F
+    return sp.cancel(sp.together(e)) == 0
+
+
 def homogeneous_by_construction(expr, prices, degree=1, *, is_log=False) -> bool:
     """True when ``expr`` is homogeneous of ``degree`` in ``prices`` for every parameter value."""
     F = _sympify(expr)
@@ -108,7 +117,11 @@ def derive_restrictions(expr, prices, params, *, degree=1, log_form=None, shares
     pnames = ", ".join(p.name for p in prices)
     items: list[_Item] = []
 
-    E = _euler(G, logs, degree, uses_log)
+    # A function rational in the prices (normalized quadratic, generalized McFadden, …) is
+    # tested in levels first, where cancelling is quick; in logs the same test can take
+    # minutes.  When Euler's identity holds there it holds in any form, and with it adding-up.
+    E = (sp.Integer(0) if _rational_and_homogeneous(F, prices, degree, is_log)
+         else _euler(G, logs, degree, uses_log))
     lhs = "Σ_i ∂ln F/∂ln p_i" if uses_log else "Σ_i p_i ∂F/∂p_i"
     rhs = f"{degree}" if uses_log else f"{degree}·F"
     for basis, coef in _identity_coefficients(E, argsyms, logs.all_logs):

@@ -16,7 +16,6 @@ lemma).
 """
 from __future__ import annotations
 
-from typing import Sequence
 
 import sympy as sp
 

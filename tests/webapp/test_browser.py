@@ -298,6 +298,9 @@ def test_save_a_scenario(page, server):
     name = page.get_by_role("textbox", name="file name")
     name.fill("browser_saved.toml")
     name.press("Enter")
+    # the button saves under the name of the run that drew it: wait for the run that has
+    # taken the new name (its plan says so), not only for any idle moment
+    page.get_by_text("saves a new file browser_saved.toml").wait_for()
     wait_idle(page)
     page.get_by_role("button", name="Save scenario").click()
     page.get_by_text(re.compile(r"^saved .*browser_saved\.toml$")).wait_for()

@@ -259,6 +259,17 @@ def _aids_pieces(model: Model):
     return ps, sym, lnp, g, lna
 
 
+def aids_indirect_utility(model: Model) -> sp.Expr:
+    """Indirect utility of an Almost Ideal model, as published by Deaton and Muellbauer
+    (1980): ln e = ln a(p) + u·b0·Π p_k^{b_k} solved for u,
+    u = (ln m − ln a(p)) / (b0·Π p_k^{b_k})."""
+    if model.form != "aids_expenditure":
+        raise ModelError("this indirect utility needs a model from aids_expenditure()")
+    ps, sym, _lnp, _g, lna = _aids_pieces(model)
+    b = sym["b0"] * sp.Mul(*[p ** sym[f"b{k + 1}"] for k, p in enumerate(ps)])
+    return (sp.log(model.income) - lna) / b
+
+
 def quaids_indirect_utility(model: Model) -> sp.Expr:
     """Indirect utility of a quadratic Almost Ideal model, as published by Banks, Blundell
     and Lewbel (1997): ln V = {[(ln m − ln a(p)) / b(p)]⁻¹ + λ(p)}⁻¹, i.e.
@@ -343,7 +354,8 @@ DUAL_FORMS: tuple[DualForm, ...] = (
     DualForm("aids_expenditure", "Almost Ideal expenditure function",
              "Deaton and Muellbauer, 'An almost ideal demand system', American "
              "Economic Review 70 (1980) (from memory)",
-             "preference", "expenditure", "p", aids_expenditure),
+             "preference", "expenditure", "p", aids_expenditure,
+             other_dual=aids_indirect_utility),
     DualForm("quaids_expenditure", "quadratic Almost Ideal expenditure function",
              "Banks, Blundell and Lewbel, 'Quadratic Engel curves and consumer demand', "
              "Review of Economics and Statistics 79 (1997) (from memory)",
@@ -375,6 +387,6 @@ def get_form(name: str) -> DualForm:
 
 
 __all__ = ["DualForm", "DUAL_FORMS", "BY_NAME", "get_form", "DUAL_CATALOGUE", "translog_cost", "generalized_leontief_cost", "aids_expenditure",
-           "quaids_expenditure", "quaids_indirect_utility", "aids_share_equations",
+           "quaids_expenditure", "aids_indirect_utility", "quaids_indirect_utility", "aids_share_equations",
            "normalized_quadratic_cost", "symmetric_generalized_mcfadden_cost",
            "concave_block"]

@@ -261,7 +261,10 @@ def _spending_solution(model: Model, budget) -> Solution:
     found = _symbolic(model, account, notes, _spending_candidates, _verify_spending)
     if found is not None:
         method, value, demands = found
-        conds = _additive.interior_conditions(demands) if method == "additive" else ()
+        # every symbolic route solves the interior first-order conditions: where a demand
+        # would be negative the optimum is a corner it does not give, so the result says
+        # it is valid only where each demand is positive (never a negative quantity)
+        conds = _additive.interior_conditions(demands)
         return Solution(value=value, demands=demands, route="symbolic", method=method,
                         notes=tuple(notes), conditions=conds, spent=account.spent)
     _numeric_allowed(model, notes)
@@ -539,7 +542,8 @@ def _indirect_solution(model: Model, budget) -> Solution:
             if ok:
                 return Solution(value=v, demands=marsh, route="symbolic",
                                 method=f"e(p, u) = m solved for u; e by the {spend.method} "
-                                "route", notes=tuple(notes))
+                                "route", notes=tuple(notes),
+                                conditions=_additive.interior_conditions(marsh))
             notes.append(f"candidate v(p, m) rejected by the numeric check: {why}")
     _numeric_allowed(model, notes)
     return _numeric_solution(notes)

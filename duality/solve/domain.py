@@ -38,6 +38,8 @@ REASONS: dict[str, str] = {
     "income_short": "income does not buy the least bundle of the function's domain",
     "no_interior_max": "no interior maximum was found; the shut-down profit p·f(0) is "
                        "only a lower bound here",
+    "kkt_fails": "a quantity sits at zero but the Kuhn–Tucker conditions fail there (not "
+                 "a corner optimum)",
 }
 CODES: tuple[str, ...] = tuple(REASONS)
 

@@ -29,6 +29,7 @@ from ..errors import NoSolutionError
 from ..model.base import Model
 from ..model.lambdas import numpy_function
 from . import batch
+from . import corners as _corners
 from .domain import CODES, REASONS, code, explain, level_floor, model_domain
 from .result import BatchSolution, NumericWarning
 
@@ -386,14 +387,24 @@ class Batch:
             else:
                 value[k], Y[k], X[k], ok[k] = profit_point(
                     F, float(flat[m.output_price][k]), prices[k])
+        extra = {"spending": m.level, "utility": m.income}.get(self.kind, m.output_price)
+        corner = _corners.rescue(self.kind, self.comp, prices, flat[extra], params, lower,
+                                 value, X, Y, ok, RESCUE_LIMIT)
         reason = self._check(flat, prices, params, value, X, Y, ok, lower)
+        corner |= _corners.verify(self.kind, batch.compiled(m), prices, flat[extra], params,
+                                  lower, X, reason)
+        corner &= reason == code("ok")
+        value[reason != code("ok")] = np.nan
+        X[reason != code("ok")] = np.nan
+        if Y is not None:
+            Y[reason != code("ok")] = np.nan
         ys = np.full(ok.size, np.nan) if Y is None else Y
         return BatchSolution(
             value=value.reshape(shape),
             quantities=tuple(X[:, i].reshape(shape) for i in range(X.shape[1])),
             output=ys.reshape(shape), converged=ok.reshape(shape),
             iterations=res.iterations.reshape(shape), residual=res.residual.reshape(shape),
-            reasons=reason.reshape(shape))
+            reasons=reason.reshape(shape), corners=corner.reshape(shape))
 
     @property
     def comp_domain(self):

@@ -81,6 +81,9 @@ class SolverReport:
     #: per point, the reason code (:data:`duality.solve.domain.REASONS`): ``"ok"`` or why
     #: the point carries no number
     reasons: np.ndarray | None = None
+    #: per point, True where the returned optimum is a corner (a non-negativity bound
+    #: binds, the Kuhn–Tucker conditions checked there)
+    corners: np.ndarray | None = None
 
 
 @dataclass(frozen=True, eq=False, kw_only=True)
@@ -315,7 +318,8 @@ class Derived:
         if out.reasons is not None:
             reasons = np.asarray(CODES, dtype=object)[np.asarray(out.reasons, int)]
         return SolverReport(iterations=out.iterations, residual=out.residual,
-                            converged=out.converged, reasons=reasons)
+                            converged=out.converged, reasons=reasons,
+                            corners=getattr(out, "corners", None))
 
     def _point(self, values: Mapping[str, object]) -> tuple[dict, bool]:
         names = {str(a): a for a in self.args}
@@ -463,6 +467,9 @@ class BatchSolution:
     iterations: np.ndarray
     residual: np.ndarray
     reasons: np.ndarray | None = None
+    #: per point, True where a non-negativity bound binds at the returned optimum (a corner
+    #: solution, checked by the Kuhn–Tucker conditions; :mod:`duality.solve.corners`)
+    corners: np.ndarray | None = None
 
 
 __all__ = ["Derived", "KINDS", "ROUTES", "NumericWarning", "Unavailable", "SolverReport",

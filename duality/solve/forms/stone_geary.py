@@ -28,6 +28,11 @@ class StoneGeary(Form):
             b[rest], g[rest] = e, -shift
         if set(b) != set(xs) or all(v == 0 for v in g.values()):
             return None
+        # a negative subsistence quantity (log(1 + x1)) lets the linear expenditure system
+        # demand a negative amount at low income or a high price: the optimum is then a
+        # corner on x_i >= 0, which these closed forms do not give, so another route solves it
+        if any(v.is_negative for v in g.values()):
+            return None
         return {"b": tuple(b[x] for x in xs), "gamma": tuple(g[x] for x in xs)}
 
     def requirements(self, pieces, xs):

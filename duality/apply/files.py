@@ -101,6 +101,24 @@ def _running(pid: int) -> bool:
     return True
 
 
+def _new_file_mode() -> int:
+    """rw for whom the process's umask allows (what ``open(path, "w")`` would give)."""
+    mask = os.umask(0)
+    os.umask(mask)
+    return 0o666 & ~mask
+
+
+def _set_mode(tmp: str, target: Path) -> None:
+    """The temporary file (0600 from mkstemp) gets the mode the written file should have:
+    the previous file's mode when it is replaced, else the umask's (common practice of
+    atomic writers, no source)."""
+    try:
+        mode = (target.stat().st_mode & 0o7777) if target.exists() else _new_file_mode()
+        os.chmod(tmp, mode)
+    except OSError:
+        pass                               # a file system without modes keeps its own
+
+
 def _copy_synced(src: Path, dst: Path) -> None:
     """Copy ``src`` to ``dst`` atomically too (a half-written backup is never left)."""
     data = src.read_bytes()
@@ -149,6 +167,7 @@ def atomic_path(path: str | os.PathLike, *, backup: bool = False,
     os.close(fd)
     inside = True
     try:
+        _set_mode(tmp, target)
         yield Path(tmp)
         inside = False
         _sync_file(tmp)

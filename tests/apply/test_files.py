@@ -3,6 +3,7 @@ Common practice, no source (write to a temporary file in the same folder, fsync,
 from __future__ import annotations
 
 import os
+import stat
 from pathlib import Path
 
 import pytest
@@ -88,3 +89,23 @@ def test_failed_rename_names_the_file_and_keeps_the_old_one(tmp_path, monkeypatc
 def test_missing_folder_is_a_clear_error(tmp_path):
     with pytest.raises(DualityError, match=r"folder .*nowhere does not exist"):
         write_atomic(tmp_path / "nowhere" / "f.txt", "x")
+
+
+@pytest.mark.skipif(os.name != "posix", reason="file modes are POSIX")
+def test_written_files_follow_the_umask_and_keep_a_replaced_files_mode(tmp_path):
+    # a new file gets 0666 less the umask, as open(path, "w") would give (POSIX open(2),
+    # common practice, no source); a replaced file keeps its own mode
+    old = os.umask(0o022)
+    try:
+        path = tmp_path / "out.txt"
+        write_atomic(path, "a")
+        assert stat.S_IMODE(path.stat().st_mode) == 0o644
+        os.chmod(path, 0o640)
+        write_atomic(path, "b")
+        assert stat.S_IMODE(path.stat().st_mode) == 0o640
+        os.umask(0o077)
+        other = tmp_path / "other.txt"
+        write_atomic(other, "c")
+        assert stat.S_IMODE(other.stat().st_mode) == 0o600
+    finally:
+        os.umask(old)

@@ -44,9 +44,24 @@ def _float_big_numbers(expr):
     return expr.xreplace(big) if big else expr
 
 
+def _no_ite(expr):
+    """If-then-else conditions (from a piecewise level put into a piecewise condition)
+    written as (c & a) | (~c & b): sympy's numpy printer would otherwise run
+    ``simplify_logic`` on each, which takes seconds on relational conditions."""
+    if not isinstance(expr, sp.Basic) or not expr.has(sp.ITE):
+        return expr
+    return expr.replace(lambda e: isinstance(e, sp.ITE),
+                        lambda e: sp.Or(sp.And(e.args[0], e.args[1]),
+                                        sp.And(sp.Not(e.args[0]), e.args[2])))
+
+
 def numpy_function(args: Sequence, expr, *, cse: bool = False) -> Callable:
     """``sympy.lambdify`` with the package's numpy modules (exact numbers too large for a
     float evaluate as floats, giving inf or 0 rather than an OverflowError)."""
+    if isinstance(expr, (list, tuple)):
+        expr = type(expr)(_no_ite(e) for e in expr)
+    else:
+        expr = _no_ite(expr)
     return sp.lambdify(args, _float_big_numbers(expr), modules=NUMPY_MODULES, cse=cse)
 
 

@@ -27,6 +27,8 @@ import math
 import numpy as np
 from scipy import optimize
 
+from .domain import code
+
 #: a quantity at most this share of what the budget (or spending) could buy of it is at
 #: its bound x_i = 0
 BOUND_SHARE = 1e-8
@@ -150,18 +152,20 @@ class _Point:
             return np.real(np.asarray(self.c.grad(*x, *self.p), dtype=complex)).reshape(-1)
 
 
-def rescue(kind, comp, prices, arg, params, lower, value, X, Y, ok, limit) -> np.ndarray:
-    """Points the interior solver did not finish, solved with the bounds x ≥ 0 and kept
-    where the Kuhn–Tucker conditions hold (in place); returns the corner mask."""
+def rescue(kind, comp, prices, arg, params, lower, value, X, Y, ok, which) -> np.ndarray:
+    """The points ``which`` (indices the interior solver did not finish), solved with the
+    bounds x ≥ 0 and kept where a bound binds and the Kuhn–Tucker conditions hold (in
+    place; an interior point stays with the interior solver's stricter test, and x = 0 in
+    a profit problem is the shut-down comparison's); returns the corner mask."""
     corner = np.zeros(ok.size, dtype=bool)
-    for k in np.flatnonzero(~ok)[:limit]:
+    for k in which:
         F = _Point(comp, tuple(float(p[k]) for p in params))
         try:
             out = bounded_point(kind, F, prices[k], float(arg[k]),
                                 None if lower is None else lower[k])
         except (ArithmeticError, ValueError):
             out = None
-        if out is None:
+        if out is None or not out[3].any() or (kind == "profit" and out[3].all()):
             continue
         value[k], X[k] = out[0], out[1]
         if Y is not None:
@@ -175,7 +179,6 @@ def verify(kind, bcomp, prices, arg, params, lower, X, reason) -> np.ndarray:
     """At every solved point where a quantity sits at zero, check the Kuhn–Tucker
     conditions; a point where they fail gets the reason ``kkt_fails`` (in place).  Returns
     the mask of points that are checked corners."""
-    from .domain import code
     good = reason == code("ok")
     if not good.any():
         return np.zeros(reason.size, dtype=bool)

@@ -105,7 +105,8 @@ class Domain:
     def contains(self, X: np.ndarray, P: Sequence[np.ndarray]) -> np.ndarray:
         """Mask of the rows of ``X`` (N, n) inside the domain (NaN rows are outside)."""
         X = np.asarray(X, dtype=float)
-        ok = np.all(np.isfinite(X), axis=1) & np.all(X > 0, axis=1)
+        # x_i = 0 is a corner, inside wherever the formula's own conditions allow it
+        ok = np.all(np.isfinite(X), axis=1) & np.all(X >= 0, axis=1)
         for fn, strict in _compiled(self):
             with np.errstate(all="ignore"):
                 a = np.asarray(fn(*[X[:, i] for i in range(X.shape[1])], *P))

@@ -377,7 +377,8 @@ class Batch:
         dom = self.comp_domain
         lower = dom.lower(params, ok.size) if dom.has_bounds else None
         # points the batched Newton could not finish: one careful solve each
-        for k in np.flatnonzero(~ok)[:RESCUE_LIMIT]:
+        tried = np.flatnonzero(~ok)[:RESCUE_LIMIT]
+        for k in tried:
             F = _Fns(self.comp, tuple(float(p[k]) for p in params),
                      None if lower is None else lower[k])
             if self.kind == "spending":
@@ -388,8 +389,9 @@ class Batch:
                 value[k], Y[k], X[k], ok[k] = profit_point(
                     F, float(flat[m.output_price][k]), prices[k])
         extra = {"spending": m.level, "utility": m.income}.get(self.kind, m.output_price)
+        # the same points, where still unsolved: a bounded solve for a corner optimum
         corner = _corners.rescue(self.kind, self.comp, prices, flat[extra], params, lower,
-                                 value, X, Y, ok, RESCUE_LIMIT)
+                                 value, X, Y, ok, tried[~ok[tried]])
         reason = self._check(flat, prices, params, value, X, Y, ok, lower)
         corner |= _corners.verify(self.kind, batch.compiled(m), prices, flat[extra], params,
                                   lower, X, reason)

@@ -108,13 +108,16 @@ def test_non_convergent_points_are_reported_not_returned(rng):
     assert not res.converged.any()
     assert np.isnan(res.value).all()
     assert list(res.failed) == [0, 1, 2, 3, 4]
+    # the numeric route then solves with the bounds x >= 0 and keeps the corner where the
+    # Kuhn-Tucker conditions hold: only the cheaper input, x = sqrt(y), c = sqrt(y) min(w)
+    # (hand working: with f convex the cost minimum is at a vertex; at (0, 2) with
+    # w = (2, 1), mu = w2 / f2 = 1/4 and mu f1(0) = 0 <= w1)
     c = dy.cost(t, budget=1)
-    rep = c.solver_report(w1=np.array([1.0, 2.0]), w2=1.0, y=4.0)
-    assert not rep.converged.any()
+    rep = c.solver_report(w1=np.array([1.5, 2.0]), w2=1.0, y=4.0)
+    assert rep.converged.all() and rep.corners.all()
     assert rep.iterations.shape == rep.residual.shape == (2,)
-    assert set(rep.reasons) == {"not_converged"}
-    with pytest.warns(dy.NumericWarning, match="no numeric solution at 2 of 2"):
-        c(w1=np.array([1.0, 2.0]), w2=1.0, y=4.0)
+    assert c(w1=np.array([1.5, 2.0]), w2=1.0, y=4.0) == pytest.approx([2.0, 2.0], rel=1e-9)
+    assert c.demands["x1"](w1=2.0, w2=1.0, y=4.0) == pytest.approx(0.0, abs=1e-12)
 
 
 def test_kinked_catalogue_forms_are_never_given_a_wrong_number():

@@ -250,3 +250,19 @@ def test_derived_functions_carry_the_published_source(key, author):
     d = dy.cost(model) if model.is_technology else dy.expenditure(model)
     assert d.route == "catalogue" and d.source == entry["source"]
     assert dual_forms.DUAL_CATALOGUE is dy.DUAL_CATALOGUE
+
+
+def test_aids_indirect_utility_is_the_published_closed_form():
+    # Deaton and Muellbauer (1980), from memory: ln e = ln a(p) + u b0 prod p_k^b_k, so
+    # v(p, m) = (ln m - ln a(p)) / (b0 prod p_k^b_k); worked at one point by hand
+    vals = {"a0": 0.5, "a1": 0.4, "a2": 0.6, "g11": 0.1, "g12": -0.1, "g22": 0.1,
+            "b0": 2.0, "b1": 0.2, "b2": -0.2}
+    m = dual_forms.aids_expenditure(2, params=vals)
+    v = dy.indirect_utility(m)
+    assert v.route == "catalogue"
+    p1, p2, inc = 2.0, 3.0, 10.0
+    l1, l2 = math.log(p1), math.log(p2)
+    lna = 0.5 + 0.4 * l1 + 0.6 * l2 + 0.5 * (0.1 * l1 * l1 - 0.2 * l1 * l2 + 0.1 * l2 * l2)
+    want = (math.log(inc) - lna) / (2.0 * p1 ** 0.2 * p2 ** -0.2)
+    assert v(p1=p1, p2=p2, m=inc) == pytest.approx(want, rel=1e-12)
+    assert dy.expenditure(m)(p1=p1, p2=p2, u=want) == pytest.approx(inc, rel=1e-12)

@@ -17,8 +17,7 @@ from __future__ import annotations
 
 import math
 import warnings
-from dataclasses import dataclass
-from functools import lru_cache
+from functools import cached_property, lru_cache
 from typing import Callable
 
 import numpy as np
@@ -43,31 +42,39 @@ SOLVER = ("batched Newton on the first-order conditions in log-quantities (analy
 RESCUE_LIMIT = 1000
 
 
-@dataclass(frozen=True)
 class Compiled:
-    """f, its gradient and Hessian as numpy functions of (x, *parameter values)."""
+    """f, its gradient and Hessian as numpy functions of (x, *parameter values).
 
-    n: int
-    f: Callable
-    grad: Callable
-    hess: Callable
-    params: tuple[sp.Symbol, ...]
+    f is compiled at once; ∇f and ∇²f when first used (sampling points for the checks
+    needs f only, and compiling the Hessian costs more than the rest of a check)."""
+
+    def __init__(self, model: Model):
+        self._xs = list(model.quantities)
+        self.n = len(self._xs)
+        self.params: tuple[sp.Symbol, ...] = tuple(
+            sorted(model.expr.free_symbols - set(self._xs), key=str))
+        self._expr = model.expr
+        self._args = self._xs + list(self.params)
+        self.f: Callable = numpy_function(self._args, model.expr, cse=True)
+
+    @cached_property
+    def _grad_exprs(self) -> list:
+        return [sp.diff(self._expr, x) for x in self._xs]
+
+    @cached_property
+    def grad(self) -> Callable:
+        return numpy_function(self._args, sp.Matrix(self._grad_exprs), cse=True)
+
+    @cached_property
+    def hess(self) -> Callable:
+        hess = [[sp.diff(g, x) for x in self._xs] for g in self._grad_exprs]
+        return numpy_function(self._args, sp.Matrix(hess), cse=True)
 
 
 @lru_cache(maxsize=64)
 def compile_model(model: Model) -> Compiled:
-    """Lambdify f, ∇f and ∇²f of a model once (cached per model)."""
-    xs = list(model.quantities)
-    params = tuple(sorted(model.expr.free_symbols - set(xs), key=str))
-    f = model.expr
-    grad = [sp.diff(f, x) for x in xs]
-    hess = [[sp.diff(g, x) for x in xs] for g in grad]
-    args = xs + list(params)
-    return Compiled(len(xs),
-                    numpy_function(args, f, cse=True),
-                    numpy_function(args, sp.Matrix(grad), cse=True),
-                    numpy_function(args, sp.Matrix(hess), cse=True),
-                    params)
+    """Lambdify f of a model at once, ∇f and ∇²f when first needed (cached per model)."""
+    return Compiled(model)
 
 
 class _Fns:

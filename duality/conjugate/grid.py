@@ -373,8 +373,10 @@ def _locate(s, q):
     return np.searchsorted(s, q, side="left"), None
 
 
-def _eval_line(hx, hf, s, q, outside):
-    """f*(q) = q·x_k − f_k with k the hull vertex for slope q; also returns k (-1: inf).
+def _eval_line(hx, hf, s, q, outside, label=None):
+    """f*(q) = q·x_k − f_k with k the hull vertex for slope q; also returns k (-1: inf),
+    or ``label[k]`` when ``label`` is given (gathered in the lookup's order, which is
+    cheaper than gathering afterwards in the caller's).
 
     ``outside="inf"``: +inf for q outside [s_0, s_last] (also for a single vertex, which
     has no edge).  ``outside="extend"``: the plain maximum over the samples, i.e. the end
@@ -385,6 +387,8 @@ def _eval_line(hx, hf, s, q, outside):
     vals = hx[k]
     vals *= qo
     vals -= hf[k]
+    if label is not None:
+        k = label[k]
     if outside == "inf":
         if s.size == 0:
             vals[...] = np.inf
@@ -476,9 +480,8 @@ def conjugate_samples(f, x, p=None, *, convex: bool = False,
         q = np.linspace(s[0], s[-1], xa.size) if s[-1] > s[0] else s[:1].copy()
     else:
         q = _slopes_1d(p)
-    vals, k = _eval_line(hx, hf, s, q.ravel(), "inf")
-    argmax = hull[k]
-    argmax[k < 0] = -1
+    vals, argmax = _eval_line(hx, hf, s, q.ravel(), "inf", label=hull)
+    k = argmax  # -1 where the slope is outside the range, as the hull index is
     argmax = argmax.reshape(q.shape)
     vals = vals.reshape(q.shape)
     notes = []

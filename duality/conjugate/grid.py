@@ -275,7 +275,8 @@ def _hull_indices(x, f):
     slopes are the weighted non-decreasing (isotonic) regression of d: pooling adjacent
     violators of d merges exactly the edges a chord replaces (Barlow, Bartholomew, Bremner
     & Brunk, Statistical Inference under Order Restrictions, 1972, ch. 1; from memory).
-    The pool boundaries are therefore the hull vertices.  scipy's compiled pool-adjacent-
+    The pool boundaries are therefore the hull vertices.  Strictly increasing difference
+    quotients (convex data) are detected first, in one pass, and need no pooling.  scipy's compiled pool-adjacent-
     violators routine (a general statistics tool) computes them in O(n); a final chord
     pass (:func:`_prune`, normally dropping nothing) removes any point that rounding in
     the pooled means left on or above a chord, so the slopes returned strictly increase.
@@ -286,9 +287,13 @@ def _hull_indices(x, f):
     n = x.size
     if n <= 2:
         return np.arange(n), np.diff(f) / np.diff(x)
+    dx = np.diff(x)
+    d = np.diff(f) / dx
+    if bool(np.all(d[1:] > d[:-1])):
+        # convex data, detected in one pass: every point is a vertex and the difference
+        # quotients are the edge slopes (what :func:`_prune` would return unchanged)
+        return np.arange(n), d
     if _pava is not None:
-        dx = np.diff(x)
-        d = np.diff(f) / dx
         idx = np.asarray(_pava(d, weights=dx).blocks, dtype=np.intp)
     else:  # pragma: no cover
         idx = np.arange(n)

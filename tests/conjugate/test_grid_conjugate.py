@@ -651,3 +651,26 @@ def test_unsorted_slopes_long_hull_match_naive_maximum():
         ref = (q[:, None] * x[None, :] - f[None, :]).max(axis=1)
         np.testing.assert_allclose(g.values, ref, rtol=0, atol=1e-12)
         assert np.all(g.values[g.argmax >= 0] == q * x[g.argmax] - f[g.argmax])
+
+
+def test_convexity_detection_agrees_with_the_hull():
+    """The one-pass detection of convex samples returns what pooling and pruning return:
+    the same vertices and bit-identical edge slopes (the hull of convex points is all of
+    them; common practice, no source); near-convex samples (a tiny dent, collinear
+    points) are not taken as convex and still get the hull."""
+    rng = np.random.default_rng(5)
+    x = np.sort(rng.uniform(-2, 2, 5000))
+    kinds = []
+    for f in (x**2, np.exp(x), x**2 + 1e-5 * rng.standard_normal(x.size),
+              np.where(x < 0, 0.0, x)):
+        idx, s = grid_mod._hull_indices(x, f)
+        dx = np.diff(x)
+        d = np.diff(f) / dx
+        kinds.append(idx.size == x.size)
+        ref = (np.asarray(grid_mod._pava(d, weights=dx).blocks, dtype=np.intp)
+               if grid_mod._pava is not None else np.arange(x.size))
+        ridx, rs = grid_mod._prune(x, f, ref)
+        assert np.array_equal(idx, ridx)
+        assert np.array_equal(s, rs)
+        assert np.all(np.diff(s) > 0)
+    assert kinds == [True, True, False, False]  # both branches ran

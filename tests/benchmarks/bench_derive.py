@@ -206,9 +206,9 @@ def bench_symbolic(limit: float) -> None:
             headline("derive", f"symbolic route vs Lagrangian sympy.solve, {name}", r, 5,
                      at_most=False, note="" if lag[1] else "lower bound: Lagrangian stopped")
         else:  # the goal counts only where both finish: no ratio exists here
-            print(f"  symbolic route vs Lagrangian sympy.solve, {name}: no ratio (the "
-                  f"{'Lagrangian gives ' + str(lag[1]) if best else 'symbolic routes give'}"
-                  f" no verified result)")
+            why = (f"Lagrangian: {lag[1] if lag[1] is not False else 'no solution'}"
+                   if best is not None else "no verified symbolic route")
+            print(f"  symbolic route vs Lagrangian sympy.solve, {name}: no ratio ({why})")
     print("   (route times include starting the worker process; ratio = Lagrangian time / "
           "fastest verified route)")
 

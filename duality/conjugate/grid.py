@@ -275,7 +275,8 @@ def _hull_indices(x, f):
     slopes are the weighted non-decreasing (isotonic) regression of d: pooling adjacent
     violators of d merges exactly the edges a chord replaces (Barlow, Bartholomew, Bremner
     & Brunk, Statistical Inference under Order Restrictions, 1972, ch. 1; from memory).
-    The pool boundaries are therefore the hull vertices.  scipy's compiled pool-adjacent-
+    The pool boundaries are therefore the hull vertices.  Strictly increasing difference
+    quotients (convex data) are detected first, in one pass, and need no pooling.  scipy's compiled pool-adjacent-
     violators routine (a general statistics tool) computes them in O(n); a final chord
     pass (:func:`_prune`, normally dropping nothing) removes any point that rounding in
     the pooled means left on or above a chord, so the slopes returned strictly increase.
@@ -286,9 +287,13 @@ def _hull_indices(x, f):
     n = x.size
     if n <= 2:
         return np.arange(n), np.diff(f) / np.diff(x)
+    dx = np.diff(x)
+    d = np.diff(f) / dx
+    if bool(np.all(d[1:] > d[:-1])):
+        # convex data, detected in one pass: every point is a vertex and the difference
+        # quotients are the edge slopes (what :func:`_prune` would return unchanged)
+        return np.arange(n), d
     if _pava is not None:
-        dx = np.diff(x)
-        d = np.diff(f) / dx
         idx = np.asarray(_pava(d, weights=dx).blocks, dtype=np.intp)
     else:  # pragma: no cover
         idx = np.arange(n)
@@ -336,42 +341,73 @@ def _rounding_bound(x, f, s, j):
     return 8.0 * (err(j - 1) + err(j))
 
 
+def _sort_order(q):
+    """A permutation putting ``q`` (float64, 1-D, no NaN) in order, up to ties in its
+    leading bits, from one ``np.sort`` of 64-bit integers instead of an ``argsort``.
+
+    The bit pattern of a float, with the magnitude bits flipped for negatives, is an
+    integer in the same order as the float (IEEE 754 layout; common practice, no
+    source).  Its lowest ⌈log2 m⌉ bits are replaced by the position, so sorting the
+    integers carries the permutation along; values equal in all other bits may come out
+    of order, which costs the sweep below a little speed and never its result."""
+    m = q.size
+    bits = max(1, int(m - 1).bit_length())
+    b = np.ascontiguousarray(q, dtype=np.float64).view(np.int64)
+    key = b ^ ((b >> 63) & np.int64(0x7FFFFFFFFFFFFFFF))
+    key >>= bits
+    key <<= bits
+    key |= np.arange(m, dtype=np.int64)
+    key.sort()
+    key &= np.int64((1 << bits) - 1)
+    return key
+
+
 def _locate(s, q):
     """``np.searchsorted(s, q, side="left")``, fast also for many unsorted queries.
 
+    Returns ``(k, order)``: ``order`` is None when ``k[j]`` belongs to ``q[j]``; else
+    ``k[j]`` belongs to ``q[order[j]]`` (queries taken in nearly sorted order).
     Sorted queries are located in one merge-like sweep (numpy reuses the previous bound).
     Many unsorted queries into a long hull make every binary search miss the cache; then
-    sorting the queries once, locating them in order and scattering back is faster (its
-    cost is that of one argsort of q, the only super-linear step).
+    the queries are put in order once (:func:`_sort_order`, the only super-linear step)
+    and located in that order, so that the later gathers from the hull run in order too.
     """
     if s.size > 2**15 and q.size > 2**10 and not bool(np.all(q[1:] >= q[:-1])):
-        order = np.argsort(q)
-        k = np.empty(q.size, dtype=np.intp)
-        k[order] = np.searchsorted(s, q[order], side="left")
-        return k
-    return np.searchsorted(s, q, side="left")
+        order = _sort_order(q)
+        return np.searchsorted(s, q[order], side="left"), order
+    return np.searchsorted(s, q, side="left"), None
 
 
-def _eval_line(hx, hf, s, q, outside):
-    """f*(q) = q·x_k − f_k with k the hull vertex for slope q; also returns k (-1: inf).
+def _eval_line(hx, hf, s, q, outside, label=None):
+    """f*(q) = q·x_k − f_k with k the hull vertex for slope q; also returns k (-1: inf),
+    or ``label[k]`` when ``label`` is given (gathered in the lookup's order, which is
+    cheaper than gathering afterwards in the caller's).
 
     ``outside="inf"``: +inf for q outside [s_0, s_last] (also for a single vertex, which
     has no edge).  ``outside="extend"``: the plain maximum over the samples, i.e. the end
     vertex beyond the range.
     """
-    k = _locate(s, q)  # s[k-1] < q <= s[k]
+    k, order = _locate(s, q)  # s[k-1] < q <= s[k]
+    qo = q if order is None else q[order]
     vals = hx[k]
-    vals *= q
+    vals *= qo
     vals -= hf[k]
+    if label is not None:
+        k = label[k]
     if outside == "inf":
         if s.size == 0:
             vals[...] = np.inf
             k[...] = -1
         else:
-            out = (q < s[0]) | (q > s[-1])
+            out = (qo < s[0]) | (qo > s[-1])
             if out.any():
                 vals[out] = np.inf
                 k[out] = -1
+    if order is not None:  # back to the caller's order
+        v2, k2 = np.empty_like(vals), np.empty_like(k)
+        v2[order] = vals
+        k2[order] = k
+        vals, k = v2, k2
     return vals, k
 
 
@@ -449,9 +485,8 @@ def conjugate_samples(f, x, p=None, *, convex: bool = False,
         q = np.linspace(s[0], s[-1], xa.size) if s[-1] > s[0] else s[:1].copy()
     else:
         q = _slopes_1d(p)
-    vals, k = _eval_line(hx, hf, s, q.ravel(), "inf")
-    argmax = hull[k]
-    argmax[k < 0] = -1
+    vals, argmax = _eval_line(hx, hf, s, q.ravel(), "inf", label=hull)
+    k = argmax  # -1 where the slope is outside the range, as the hull index is
     argmax = argmax.reshape(q.shape)
     vals = vals.reshape(q.shape)
     notes = []

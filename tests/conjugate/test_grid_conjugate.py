@@ -617,3 +617,60 @@ def test_public_entry_point(rng):
     c = duality.conjugate("x^2")
     assert isinstance(c, Conjugate)
     assert sp.simplify(c.expr - sp.Symbol("p", real=True) ** 2 / 4) == 0
+
+
+# -- the ordered lookup of many unsorted slopes -----------------------------------------
+def test_sorted_lookup_matches_searchsorted():
+    """The lookup that puts many unsorted slopes in order through one integer sort gives
+    exactly numpy's ``searchsorted`` (the reference; general-purpose library as oracle),
+    also with ties, signed zeros, both signs, infinities and slopes beyond the ends."""
+    rng = np.random.default_rng(3)
+    s = np.sort(rng.normal(size=40_000))
+    s = np.unique(np.concatenate([s, [0.0, 1.0]]))
+    q = np.concatenate([rng.normal(size=3000) * 2, s[::37], [-0.0, 0.0, np.inf, -np.inf],
+                        np.repeat(s[100], 50), rng.normal(size=3000) * 1e-300])
+    rng.shuffle(q)
+    k, order = grid_mod._locate(s, q)
+    assert order is not None  # the ordered path ran
+    assert np.array_equal(np.sort(order), np.arange(q.size))  # a permutation
+    assert np.array_equal(k, np.searchsorted(s, q[order], side="left"))
+    hx = np.arange(s.size + 1.0)  # any vertex values: the lookup is what is tested
+    vals, kk = grid_mod._eval_line(hx, hx, s, q, "extend")
+    assert np.array_equal(kk, np.searchsorted(s, q, side="left"))
+
+
+def test_unsorted_slopes_long_hull_match_naive_maximum():
+    """Convex and near-convex samples with 1e5 hull vertices and unsorted slopes: the
+    transform equals the naive maximum over all samples (definition of the discrete
+    Legendre–Fenchel transform; common practice, no source) to 1e-12."""
+    rng = np.random.default_rng(4)
+    x = np.sort(rng.uniform(-2, 2, 100_000))
+    for f in (x**2, x**2 + 1e-9 * rng.standard_normal(x.size)):
+        q = rng.uniform(-3.5, 3.5, 2000)
+        g = conjugate_samples(f, x, q)
+        ref = (q[:, None] * x[None, :] - f[None, :]).max(axis=1)
+        np.testing.assert_allclose(g.values, ref, rtol=0, atol=1e-12)
+        assert np.all(g.values[g.argmax >= 0] == q * x[g.argmax] - f[g.argmax])
+
+
+def test_convexity_detection_agrees_with_the_hull():
+    """The one-pass detection of convex samples returns what pooling and pruning return:
+    the same vertices and bit-identical edge slopes (the hull of convex points is all of
+    them; common practice, no source); near-convex samples (a tiny dent, collinear
+    points) are not taken as convex and still get the hull."""
+    rng = np.random.default_rng(5)
+    x = np.sort(rng.uniform(-2, 2, 5000))
+    kinds = []
+    for f in (x**2, np.exp(x), x**2 + 1e-5 * rng.standard_normal(x.size),
+              np.where(x < 0, 0.0, x)):
+        idx, s = grid_mod._hull_indices(x, f)
+        dx = np.diff(x)
+        d = np.diff(f) / dx
+        kinds.append(idx.size == x.size)
+        ref = (np.asarray(grid_mod._pava(d, weights=dx).blocks, dtype=np.intp)
+               if grid_mod._pava is not None else np.arange(x.size))
+        ridx, rs = grid_mod._prune(x, f, ref)
+        assert np.array_equal(idx, ridx)
+        assert np.array_equal(s, rs)
+        assert np.all(np.diff(s) > 0)
+    assert kinds == [True, True, False, False]  # both branches ran

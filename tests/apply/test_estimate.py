@@ -440,6 +440,86 @@ def test_local_concavity_that_does_not_bind_changes_nothing(electricity):
         dy.estimate(_cobb_douglas_cost(), d, columns={"c": "cost"}, curvature="local")
 
 
+def _engine_slutsky(model, n):
+    """C = diag(w) E at p = 1, m = 1 from the regularity engine's compensated elasticities E
+    and shares w: C_ij = p_i p_j S_ij / m for the Slutsky matrix S, so C is negative
+    semidefinite iff S is (common practice, no source)."""
+    point = pd.DataFrame({**{f"p{i + 1}": [1.0] for i in range(n)}, "m": [1.0]})
+    rows = dy.regularity(model, point).rows.iloc[0]
+    w = np.array([rows[f"share_x{i + 1}"] for i in range(n)])
+    E = np.array([[rows[f"hicks_x{i + 1}_p{j + 1}"] for j in range(n)] for i in range(n)])
+    return w[:, None] * E
+
+
+def _aids_violating_data(rng, n=200):
+    # Γ chosen so that C = Γ + aa' − diag(a) at p = 1, m = 1 has positive eigenvalues
+    # (the Slutsky condition fails there); adding-up, homogeneity, symmetry hold
+    truth = {"a0": 0.0, "a1": 0.3, "a2": 0.45, "a3": 0.25, "g11": 0.3, "g12": -0.1,
+             "g13": -0.2, "g22": 0.35, "g23": -0.25, "g33": 0.45, "b0": 1.0, "b1": 0.05,
+             "b2": -0.08, "b3": 0.03}
+    m = dy.aids_expenditure(3, params=truth)
+    P = np.exp(rng.normal(0, 0.2, size=(n, 3)))
+    M = np.exp(rng.normal(0, 0.3, size=n))
+    vals = {p.symbol: p.value for p in m.params}
+    S = np.column_stack([sp.lambdify(list(m.prices) + [m.income], e.xreplace(vals))(*P.T, M)
+                         for e in dy.aids_share_equations(m, index="exact")])
+    e = rng.normal(0, 0.01, size=(n, 2))
+    S[:, :2] += e
+    S[:, 2] -= e.sum(axis=1)
+    return pd.DataFrame({"p1": P[:, 0], "p2": P[:, 1], "p3": P[:, 2], "m": M,
+                         "s1": S[:, 0], "s2": S[:, 1], "s3": S[:, 2]})
+
+
+@pytest.mark.slow
+def test_almost_ideal_slutsky_condition_is_imposed_where_the_data_violate_it(rng):
+    from duality.apply.estimation.curvature import slutsky_reference_matrix
+    data = _aids_violating_data(rng)
+    sh = {"x1": "s1", "x2": "s2", "x3": "s3"}
+    kw = dict(shares=sh, fixed={"a0": 0, "b0": 1})
+    free = dy.estimate(dy.aids_expenditure(3), data, curvature="check", **kw)
+    C_free = _engine_slutsky(free.model, 3)
+    # the closed form C = Γ + ℓbb' + ww' − diag(w) (Deaton and Muellbauer 1980; Moschini
+    # 1998, from memory) is the matrix the engine derives from the fitted model
+    np.testing.assert_allclose(slutsky_reference_matrix(free.params, 3, 0.0), C_free,
+                               atol=1e-9)
+    assert np.linalg.eigvalsh((C_free + C_free.T) / 2).max() > 0.05
+    res = dy.estimate(dy.aids_expenditure(3), data, curvature="local", **kw)
+    C = _engine_slutsky(res.model, 3)
+    assert np.linalg.eigvalsh((C + C.T) / 2).max() <= 1e-8
+    np.testing.assert_allclose(slutsky_reference_matrix(res.params, 3, 0.0), C, atol=1e-9)
+    for g in ("g11", "g12", "g22"):
+        assert res.table.loc[g, "status"] == "from curvature"
+    assert res.loglik < free.loglik
+    assert "Slutsky" in res.curvature["imposed"]
+    before = int(res.curvature["rows violating before"].split()[0])
+    after = int(res.curvature["rows violating after"].split()[0])
+    assert before == int(free.curvature["rows violating"].split()[0]) > 0
+    assert 0 <= after <= 200
+    assert any("binds at its boundary" in n for n in res.notes)
+    # Stone's index with a0 = 0.5: at p = 1, m = 1 the income term ln(m/P) = −a0 ≠ 0 enters
+    stone = dy.estimate(dy.aids_expenditure(3), data, index="stone", curvature="local",
+                        shares=sh, fixed={"a0": 0.5, "b0": 1})
+    C = _engine_slutsky(stone.model, 3)
+    assert np.linalg.eigvalsh((C + C.T) / 2).max() <= 1e-8
+    np.testing.assert_allclose(slutsky_reference_matrix(stone.params, 3, -0.5), C, atol=1e-9)
+
+
+@pytest.mark.slow
+def test_almost_ideal_slutsky_condition_that_does_not_bind_changes_nothing(rng):
+    from duality.apply.estimation.curvature import slutsky_reference_matrix
+    data, truth = _aids_data(rng, n=200)
+    # the truth is regular at p = 1, m = 1: C there is negative semidefinite
+    assert np.linalg.eigvalsh(slutsky_reference_matrix(truth, 3, 0.0)).max() < 1e-12
+    kw = dict(shares={"x1": "s1", "x2": "s2", "x3": "s3"}, fixed={"a0": 0, "b0": 1})
+    free = dy.estimate(dy.aids_expenditure(3), data, curvature="none", **kw)
+    res = dy.estimate(dy.aids_expenditure(3), data, curvature="local", **kw)
+    for k in ("a1", "a2", "b1", "b2", "g11", "g12", "g22", "g13", "g33"):
+        assert res.params[k] == pytest.approx(free.params[k], abs=1e-6), k
+    assert res.loglik == pytest.approx(free.loglik, abs=1e-6)
+    with pytest.raises(dy.DualityError, match="drops the last share"):
+        dy.estimate(dy.aids_expenditure(3), data, curvature="local", drop="x1", **kw)
+
+
 # -- data at scale -----------------------------------------------------------------------------
 @pytest.mark.parametrize("method", ["iterated", "sur", "ols"])
 def test_cross_products_by_chunks_equal_linearmodels(electricity, method):

@@ -40,6 +40,7 @@ from . import (check as run_checks, conjugate as conj, cost, elasticities, expen
                preference, technology)
 from .apply import export as _exp, scenario as _scn
 from .apply.estimation import EQUATIONS, METHODS, estimate, fit, log_linear_equation
+from .apply.estimation.fitting import CURVATURE
 from .apply.evaluate import evaluate_file, functions_of
 from .apply.welfare import scenario_table
 from .solve.derive import DEFAULT_BUDGET, duals as derive_duals
@@ -603,7 +604,7 @@ _FORM_BUILDERS = {"translog_cost": translog_cost,
 @click.option("--index", type=click.Choice(["exact", "stone"]), default="exact",
               show_default=True, help="Price index of an Almost Ideal system.")
 @click.option("--drop", default=None, help="Quantity whose share equation is dropped.")
-@click.option("--curvature", type=click.Choice(["check", "local", "none"]), default="check",
+@click.option("--curvature", type=click.Choice(list(CURVATURE)), default="check",
               show_default=True,
               help="Count rows violating curvature (check), or impose it where every price "
                    "and the output (or total expenditure) equal one (local: translog cost, "

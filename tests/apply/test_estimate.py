@@ -404,6 +404,10 @@ def test_bad_input_gets_one_line_messages(nerlove, electricity):
         dy.estimate(cd, same, columns={"c": "cost", "q": "output"})
     with pytest.raises(dy.DualityError, match="fixed parameter zz is not a parameter"):
         dy.estimate(cd, nerlove, columns={"c": "cost", "q": "output"}, fixed={"zz": 1})
+    for engine in ("library", "crossproducts"):
+        with pytest.raises(dy.DualityError, match="did not converge in 1 iterations"):
+            dy.estimate(_translog(), electricity, columns={"c": "cost"}, shares=SHARES,
+                        max_iter=1, engine=engine, curvature="none")
     with pytest.raises(dy.DualityError, match="method 'gmm' is not one of"):
         dy.estimate(_translog(), electricity, columns={"c": "cost"}, shares=SHARES,
                     method="gmm")

@@ -624,3 +624,17 @@ def test_typed_nonlinear_cost_function_against_curve_fit(rng):
     np.testing.assert_allclose([res.params["d"], res.params["r"]], p, rtol=1e-6)
     np.testing.assert_allclose([res.std_errors["d"], res.std_errors["r"]],
                                np.sqrt(np.diag(cov)), rtol=1e-4)
+
+
+def test_parameters_the_data_cannot_tell_apart_are_named(rng):
+    """d and e enter only as their product d·e: the error names both (common practice, no
+    source: a singular information matrix has the unidentified direction as null vector)."""
+    n = 200
+    w1, w2 = np.exp(rng.normal(0, .4, n)), np.exp(rng.normal(0, .4, n))
+    y = np.exp(rng.normal(0, 1, n))
+    c = y * (0.4 * w1 ** -0.5 + 0.6 * w2 ** -0.5) ** (1 / -0.5) * np.exp(rng.normal(0, .01, n))
+    data = pd.DataFrame({"w1": w1, "w2": w2, "y": y, "c": c})
+    model = dy.cost_function("y*(d*e*w1^r + (1-d*e)*w2^r)^(1/r)", ["w1", "w2"], output="y",
+                             params={"d": None, "e": None, "r": None})
+    with pytest.raises(dy.DualityError, match=r"not identified.*: (d, e|e, d) move together"):
+        dy.estimate(model, data, start={"d": 0.5, "e": 1, "r": -1}, curvature="none")

@@ -391,6 +391,9 @@ def test_bad_input_gets_one_line_messages(nerlove, electricity):
     raw.loc[raw.index[5], "sl"] += 0.2
     with pytest.raises(dy.DualityError, match=r"sum to 1\.2.*row"):
         dy.estimate(_translog(), raw, columns={"c": "cost"}, shares=SHARES)
+    raw.loc[raw.index[[9, 30]], "sk"] -= 0.1
+    with pytest.raises(dy.DualityError, match=r"3 rows off .*: rows 6, 10, 31\)"):
+        dy.estimate(_translog(), raw, columns={"c": "cost"}, shares=SHARES)
     with pytest.raises(dy.DualityError, match="a0, ay, gyy do not enter.*fix them"):
         dy.estimate(_translog(), electricity, equations="shares", shares=SHARES)
     with pytest.raises(dy.DualityError, match="b0 do not enter.*fix"):

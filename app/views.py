@@ -17,6 +17,7 @@ import streamlit as st
 
 import duality as dy
 from duality.apply import scenario as sc
+from duality.apply.estimation.fitting import CURVATURE
 from duality.errors import DualityError, number_file_rows
 from duality.texts import CAUTION
 
@@ -677,10 +678,14 @@ def view_estimation(model) -> None:
         hide_index=True, disabled=["name", "meaning"],
         column_config={"column": st.column_config.SelectboxColumn(
             "data column", options=options, required=True)})
-    c = st.columns(3)
+    c = st.columns(4)
     equations = c[0].selectbox("equations", list(dy.estimation.EQUATIONS), key="est_eqs")
     method = c[1].selectbox("method", list(dy.estimation.METHODS), key="est_method")
     index = c[2].selectbox("price index (Almost Ideal)", ["exact", "stone"], key="est_index")
+    curvature = c[3].selectbox("curvature", list(CURVATURE), key="est_curv",
+                               help="check: count rows that violate it; local: impose it "
+                                    "where every price and the output (or total "
+                                    "expenditure) equal one")
     fixed_text = st.text_input("fixed parameters (name=value, comma-separated)", "",
                                key="est_fixed")
     fixed = {}
@@ -695,9 +700,11 @@ def view_estimation(model) -> None:
         return
     kw = dict(equations=equations, method=method, fixed=fixed, index=index)
     with st.spinner("Estimating…"):
-        res = A.estimate_from_mapping(model, data, mapping, **kw)
+        res = A.estimate_from_mapping(model, data, mapping, curvature=curvature, **kw)
     st.caption(f"{res.estimator}; {res.n} rows; {len(res.system.equations)} equation(s)"
                + (f"; dropped for adding-up: {res.dropped}" if res.dropped else ""))
+    if res.curvature:
+        st.caption("curvature — " + "; ".join(f"{k}: {v}" for k, v in res.curvature.items()))
     with st.expander("estimating equations"):
         for eq in res.system.equations:
             st.latex(eq.as_latex())

@@ -40,6 +40,7 @@ from . import (check as run_checks, conjugate as conj, cost, elasticities, expen
                preference, technology)
 from .apply import export as _exp, scenario as _scn
 from .apply.estimation import EQUATIONS, METHODS, estimate, fit, log_linear_equation
+from .apply.estimation.fitting import CURVATURE
 from .apply.evaluate import evaluate_file, functions_of
 from .apply.welfare import scenario_table
 from .solve.derive import DEFAULT_BUDGET, duals as derive_duals
@@ -603,6 +604,11 @@ _FORM_BUILDERS = {"translog_cost": translog_cost,
 @click.option("--index", type=click.Choice(["exact", "stone"]), default="exact",
               show_default=True, help="Price index of an Almost Ideal system.")
 @click.option("--drop", default=None, help="Quantity whose share equation is dropped.")
+@click.option("--curvature", type=click.Choice(list(CURVATURE)), default="check",
+              show_default=True,
+              help="Count rows violating curvature (check), or impose it where every price "
+                   "and the output (or total expenditure) equal one (local: translog cost, "
+                   "Almost Ideal) and count rows before and after.")
 @click.option("--share-tol", type=float, default=1e-3, show_default=True,
               help="How far observed shares may sum from one.")
 @click.option("--elasticities", "with_elasticities", is_flag=True,
@@ -621,7 +627,7 @@ _FORM_BUILDERS = {"translog_cost": translog_cost,
 @click.pass_context
 @guarded
 def estimate_cmd(ctx, scenario_path, budget, form, data_path, column_map, share_map, fix_map,
-                 equations, method, index, drop, share_tol, with_elasticities, normalise,
+                 equations, method, index, drop, curvature, share_tol, with_elasticities, normalise,
                  rows, chunksize, as_json, **model_kw):
     """Estimate a model from the equations derived from it (theory imposed)."""
     columns = _pairs(column_map, "--column", "c=cost")
@@ -656,7 +662,8 @@ def estimate_cmd(ctx, scenario_path, budget, form, data_path, column_map, share_
         return
     res = estimate(model, table, columns=columns, shares=shares, fixed=fixed,
                    equations=equations, method=method, index=index, drop=drop,
-                   share_tol=share_tol, budget=budget, chunksize=chunksize or 100_000,
+                   share_tol=share_tol, curvature=curvature, budget=budget,
+                   chunksize=chunksize or 100_000,
                    progress=chunksize is not None)
     el = res.elasticities() if with_elasticities else None
     if as_json:

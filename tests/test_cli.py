@@ -209,6 +209,28 @@ def test_estimate_a_translog_cost_and_share_system(tmp_path):
         assert abs(doc["parameters"][k]["estimate"] - p["estimate"]) < 1e-6, k
 
 
+def test_estimate_imposes_curvature_at_the_reference_point(tmp_path):
+    """--curvature local on the translog cost with prices and output divided by their
+    means: the JSON reports the rows violating curvature before and after."""
+    import pandas as pd
+    csv = _electricity_csv(tmp_path)
+    d = pd.read_csv(csv)
+    for c in ("pl", "pk", "pf", "q"):
+        d[c] = d[c] / d[c].mean()
+    d.to_csv(csv, index=False)
+    base = ["estimate", "--form", "translog_cost", "--prices", "pl,pk,pf", "-q", "L,K,F",
+            "--data", str(csv), "--column", "c=cost,y=q", "--shares", "L=sl,K=sk,F=sf",
+            "--json"]
+    r = _run(*base, "--curvature", "local")
+    assert r.exit_code == 0, r.output
+    out = json.loads(r.output)
+    assert out["curvature"]["imposed"].startswith("concavity at the point")
+    assert out["curvature"]["rows violating before"].endswith("of 123")
+    assert out["curvature"]["rows violating after"].endswith("of 123")
+    r = CliRunner().invoke(main, base + ["--curvature", "everywhere"])
+    assert r.exit_code == 2 and "--curvature" in r.output
+
+
 def test_export_estimating_equations(tmp_path):
     r = _run("export", "--scenario", "scenarios/ferry_operator_translog.toml", "-t", "python",
              "--equations", "--fix", "gyy=0")
@@ -265,7 +287,7 @@ def test_each_command_has_exactly_its_option_groups():
                            "--fix"},
         "estimate": model | {"--scenario", "--budget", "--data", "--normalise", "--column",
                              "--rows", "--json", "--form", "--shares", "--fix", "--equations",
-                             "--method", "--index", "--drop", "--share-tol",
+                             "--method", "--index", "--drop", "--curvature", "--share-tol",
                              "--elasticities", "--chunksize"},
         "scenarios": set(),
         "app": {"--port", "--save-dir"},

@@ -79,8 +79,9 @@ def test_nerlove_cobb_douglas_through_estimate(nerlove):
 def test_generalized_cobb_douglas_on_christensen_greene_against_statsmodels(electricity):
     """ln(c/pf) = b0 + bq ln q + ½ bqq (ln q)² + bl ln(pl/pf) + bk ln(pk/pf): the generalized
     Cobb–Douglas cost equation of Christensen and Greene (1976), as in Greene's textbook.
-    The published coefficients were not at hand; the oracle is statsmodels' OLS on the same
-    regression written out by hand."""
+    The oracle is statsmodels' OLS on the same regression written out by hand; of the
+    published coefficients only the constant is checked, from memory (no copy of the table
+    was at hand to cite its page)."""
     sm = pytest.importorskip("statsmodels.api")
     model = dy.cost_function("exp(b0 + bq*log(q) + 1/2*bqq*log(q)^2)*pl^bl*pk^bk*pf^bf",
                              ["pl", "pk", "pf"], output="q",
@@ -96,6 +97,10 @@ def test_generalized_cobb_douglas_on_christensen_greene_against_statsmodels(elec
     np.testing.assert_allclose([res.std_errors[k] for k in ("b0", "bq", "bqq", "bl", "bk")],
                                ref.bse, rtol=1e-8)
     assert res.equation_fits[0].r_squared == pytest.approx(ref.rsquared, rel=1e-10)
+    # Greene, Econometric Analysis (7th ed.), the stochastic cost frontier example on the
+    # 123 firms of 1970, least squares column: constant -7.294 (from memory; table and page
+    # not verified)
+    assert res.params["b0"] == pytest.approx(-7.294, abs=5e-4)
     # returns to scale at the mean fall as output grows: 1/(bq + bqq ln q) (the closed form)
     at = {"q": float(np.exp(np.log(d.q).mean())), "pl": 1.0, "pk": 1.0, "pf": 1.0}
     rts = res.elasticities(at=at, kinds=["returns to scale"]).iloc[0]["estimate"]
@@ -220,6 +225,35 @@ def test_delta_method_against_finite_differences_and_simulation(electricity, tra
     draws = rng.multivariate_normal(res.theta, res.cov, size=20000)
     sims = elast(draws.T)
     np.testing.assert_allclose(sims.std(axis=1), table["std_error"], rtol=0.05)
+
+
+@pytest.mark.slow
+def test_delta_method_against_a_parametric_bootstrap(electricity):
+    """The delta-method standard error of returns to scale of the generalized Cobb–Douglas
+    cost equation against a parametric bootstrap: data simulated from the estimates with
+    normal errors of the estimated variance, re-estimated by dy.estimate (Efron and
+    Tibshirani, An Introduction to the Bootstrap (1993), ch. 6; from memory)."""
+    model = dy.cost_function("exp(b0 + bq*log(q) + 1/2*bqq*log(q)^2)*pl^bl*pk^bk*pf^bf",
+                             ["pl", "pk", "pf"], output="q",
+                             params=dict.fromkeys(["b0", "bq", "bqq", "bl", "bk", "bf"]))
+    kw = dict(columns={"c": "cost"}, curvature="none")
+    res = dy.estimate(model, electricity, **kw)
+    lq_mean = float(np.log(electricity.q).mean())
+    at = {"q": float(np.exp(lq_mean)), "pl": 1.0, "pk": 1.0, "pf": 1.0}
+    delta = res.elasticities(at=at, kinds=["returns to scale"]).iloc[0]["std_error"]
+    p = res.params
+    d = electricity
+    lnc_hat = (p["b0"] + p["bq"] * np.log(d.q) + p["bqq"] / 2 * np.log(d.q) ** 2
+               + p["bl"] * np.log(d.pl) + p["bk"] * np.log(d.pk) + p["bf"] * np.log(d.pf))
+    sigma = res.equation_fits[0].se_regression
+    rng = np.random.default_rng(7)
+    draws = []
+    for _ in range(400):
+        sim = d.assign(cost=np.exp(lnc_hat + rng.normal(0, sigma, len(d))))
+        b = dy.estimate(model, sim, **kw).params
+        draws.append(1 / (b["bq"] + b["bqq"] * lq_mean))   # returns to scale, closed form
+    # 400 draws: the spread is known to about 1/sqrt(800) ≈ 3.5 %
+    assert np.std(draws, ddof=1) == pytest.approx(delta, rel=0.12)
 
 
 def test_wald_test_of_one_restriction_is_the_squared_t(electricity):
@@ -357,6 +391,9 @@ def test_bad_input_gets_one_line_messages(nerlove, electricity):
     raw.loc[raw.index[5], "sl"] += 0.2
     with pytest.raises(dy.DualityError, match=r"sum to 1\.2.*row"):
         dy.estimate(_translog(), raw, columns={"c": "cost"}, shares=SHARES)
+    raw.loc[raw.index[[9, 30]], "sk"] -= 0.1
+    with pytest.raises(dy.DualityError, match=r"3 rows off .*: rows 6, 10, 31\)"):
+        dy.estimate(_translog(), raw, columns={"c": "cost"}, shares=SHARES)
     with pytest.raises(dy.DualityError, match="a0, ay, gyy do not enter.*fix them"):
         dy.estimate(_translog(), electricity, equations="shares", shares=SHARES)
     with pytest.raises(dy.DualityError, match="b0 do not enter.*fix"):
@@ -370,6 +407,10 @@ def test_bad_input_gets_one_line_messages(nerlove, electricity):
         dy.estimate(cd, same, columns={"c": "cost", "q": "output"})
     with pytest.raises(dy.DualityError, match="fixed parameter zz is not a parameter"):
         dy.estimate(cd, nerlove, columns={"c": "cost", "q": "output"}, fixed={"zz": 1})
+    for engine in ("library", "crossproducts"):
+        with pytest.raises(dy.DualityError, match="did not converge in 1 iterations"):
+            dy.estimate(_translog(), electricity, columns={"c": "cost"}, shares=SHARES,
+                        max_iter=1, engine=engine, curvature="none")
     with pytest.raises(dy.DualityError, match="method 'gmm' is not one of"):
         dy.estimate(_translog(), electricity, columns={"c": "cost"}, shares=SHARES,
                     method="gmm")
@@ -440,6 +481,86 @@ def test_local_concavity_that_does_not_bind_changes_nothing(electricity):
         dy.estimate(_cobb_douglas_cost(), d, columns={"c": "cost"}, curvature="local")
 
 
+def _engine_slutsky(model, n):
+    """C = diag(w) E at p = 1, m = 1 from the regularity engine's compensated elasticities E
+    and shares w: C_ij = p_i p_j S_ij / m for the Slutsky matrix S, so C is negative
+    semidefinite iff S is (common practice, no source)."""
+    point = pd.DataFrame({**{f"p{i + 1}": [1.0] for i in range(n)}, "m": [1.0]})
+    rows = dy.regularity(model, point).rows.iloc[0]
+    w = np.array([rows[f"share_x{i + 1}"] for i in range(n)])
+    E = np.array([[rows[f"hicks_x{i + 1}_p{j + 1}"] for j in range(n)] for i in range(n)])
+    return w[:, None] * E
+
+
+def _aids_violating_data(rng, n=200):
+    # Γ chosen so that C = Γ + aa' − diag(a) at p = 1, m = 1 has positive eigenvalues
+    # (the Slutsky condition fails there); adding-up, homogeneity, symmetry hold
+    truth = {"a0": 0.0, "a1": 0.3, "a2": 0.45, "a3": 0.25, "g11": 0.3, "g12": -0.1,
+             "g13": -0.2, "g22": 0.35, "g23": -0.25, "g33": 0.45, "b0": 1.0, "b1": 0.05,
+             "b2": -0.08, "b3": 0.03}
+    m = dy.aids_expenditure(3, params=truth)
+    P = np.exp(rng.normal(0, 0.2, size=(n, 3)))
+    M = np.exp(rng.normal(0, 0.3, size=n))
+    vals = {p.symbol: p.value for p in m.params}
+    S = np.column_stack([sp.lambdify(list(m.prices) + [m.income], e.xreplace(vals))(*P.T, M)
+                         for e in dy.aids_share_equations(m, index="exact")])
+    e = rng.normal(0, 0.01, size=(n, 2))
+    S[:, :2] += e
+    S[:, 2] -= e.sum(axis=1)
+    return pd.DataFrame({"p1": P[:, 0], "p2": P[:, 1], "p3": P[:, 2], "m": M,
+                         "s1": S[:, 0], "s2": S[:, 1], "s3": S[:, 2]})
+
+
+@pytest.mark.slow
+def test_almost_ideal_slutsky_condition_is_imposed_where_the_data_violate_it(rng):
+    from duality.apply.estimation.curvature import slutsky_reference_matrix
+    data = _aids_violating_data(rng)
+    sh = {"x1": "s1", "x2": "s2", "x3": "s3"}
+    kw = dict(shares=sh, fixed={"a0": 0, "b0": 1})
+    free = dy.estimate(dy.aids_expenditure(3), data, curvature="check", **kw)
+    C_free = _engine_slutsky(free.model, 3)
+    # the closed form C = Γ + ℓbb' + ww' − diag(w) (Deaton and Muellbauer 1980; Moschini
+    # 1998, from memory) is the matrix the engine derives from the fitted model
+    np.testing.assert_allclose(slutsky_reference_matrix(free.params, 3, 0.0), C_free,
+                               atol=1e-9)
+    assert np.linalg.eigvalsh((C_free + C_free.T) / 2).max() > 0.05
+    res = dy.estimate(dy.aids_expenditure(3), data, curvature="local", **kw)
+    C = _engine_slutsky(res.model, 3)
+    assert np.linalg.eigvalsh((C + C.T) / 2).max() <= 1e-8
+    np.testing.assert_allclose(slutsky_reference_matrix(res.params, 3, 0.0), C, atol=1e-9)
+    for g in ("g11", "g12", "g22"):
+        assert res.table.loc[g, "status"] == "from curvature"
+    assert res.loglik < free.loglik
+    assert "Slutsky" in res.curvature["imposed"]
+    before = int(res.curvature["rows violating before"].split()[0])
+    after = int(res.curvature["rows violating after"].split()[0])
+    assert before == int(free.curvature["rows violating"].split()[0]) > 0
+    assert 0 <= after <= 200
+    assert any("binds at its boundary" in n for n in res.notes)
+    # Stone's index with a0 = 0.5: at p = 1, m = 1 the income term ln(m/P) = −a0 ≠ 0 enters
+    stone = dy.estimate(dy.aids_expenditure(3), data, index="stone", curvature="local",
+                        shares=sh, fixed={"a0": 0.5, "b0": 1})
+    C = _engine_slutsky(stone.model, 3)
+    assert np.linalg.eigvalsh((C + C.T) / 2).max() <= 1e-8
+    np.testing.assert_allclose(slutsky_reference_matrix(stone.params, 3, -0.5), C, atol=1e-9)
+
+
+@pytest.mark.slow
+def test_almost_ideal_slutsky_condition_that_does_not_bind_changes_nothing(rng):
+    from duality.apply.estimation.curvature import slutsky_reference_matrix
+    data, truth = _aids_data(rng, n=200)
+    # the truth is regular at p = 1, m = 1: C there is negative semidefinite
+    assert np.linalg.eigvalsh(slutsky_reference_matrix(truth, 3, 0.0)).max() < 1e-12
+    kw = dict(shares={"x1": "s1", "x2": "s2", "x3": "s3"}, fixed={"a0": 0, "b0": 1})
+    free = dy.estimate(dy.aids_expenditure(3), data, curvature="none", **kw)
+    res = dy.estimate(dy.aids_expenditure(3), data, curvature="local", **kw)
+    for k in ("a1", "a2", "b1", "b2", "g11", "g12", "g22", "g13", "g33"):
+        assert res.params[k] == pytest.approx(free.params[k], abs=1e-6), k
+    assert res.loglik == pytest.approx(free.loglik, abs=1e-6)
+    with pytest.raises(dy.DualityError, match="drops the last share"):
+        dy.estimate(dy.aids_expenditure(3), data, curvature="local", drop="x1", **kw)
+
+
 # -- data at scale -----------------------------------------------------------------------------
 @pytest.mark.parametrize("method", ["iterated", "sur", "ols"])
 def test_cross_products_by_chunks_equal_linearmodels(electricity, method):
@@ -506,3 +627,17 @@ def test_typed_nonlinear_cost_function_against_curve_fit(rng):
     np.testing.assert_allclose([res.params["d"], res.params["r"]], p, rtol=1e-6)
     np.testing.assert_allclose([res.std_errors["d"], res.std_errors["r"]],
                                np.sqrt(np.diag(cov)), rtol=1e-4)
+
+
+def test_parameters_the_data_cannot_tell_apart_are_named(rng):
+    """d and e enter only as their product d·e: the error names both (common practice, no
+    source: a singular information matrix has the unidentified direction as null vector)."""
+    n = 200
+    w1, w2 = np.exp(rng.normal(0, .4, n)), np.exp(rng.normal(0, .4, n))
+    y = np.exp(rng.normal(0, 1, n))
+    c = y * (0.4 * w1 ** -0.5 + 0.6 * w2 ** -0.5) ** (1 / -0.5) * np.exp(rng.normal(0, .01, n))
+    data = pd.DataFrame({"w1": w1, "w2": w2, "y": y, "c": c})
+    model = dy.cost_function("y*(d*e*w1^r + (1-d*e)*w2^r)^(1/r)", ["w1", "w2"], output="y",
+                             params={"d": None, "e": None, "r": None})
+    with pytest.raises(dy.DualityError, match=r"not identified.*: (d, e|e, d) move together"):
+        dy.estimate(model, data, start={"d": 0.5, "e": 1, "r": -1}, curvature="none")

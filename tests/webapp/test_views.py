@@ -332,3 +332,9 @@ def test_estimation_view_maps_columns_and_estimates(app):
     assert _metric(app, "rows") == ["80"]
     assert len(app.get("plotly_chart")) == 1
     assert any("Wald test" in t.value for t in app.text)
+    assert any("curvature — rows violating" in c.value for c in app.caption)
+    app.selectbox(key="est_curv").set_value("local").run()
+    app.button(key="est_run").click().run()
+    assert not app.exception, [e.value for e in app.exception]
+    assert any("rows violating before" in c.value and "rows violating after" in c.value
+               for c in app.caption), [c.value for c in app.caption]

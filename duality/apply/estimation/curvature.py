@@ -1,4 +1,5 @@
-"""Concavity of a translog cost function imposed at a reference point.
+"""Concavity of a translog cost function imposed at a reference point (and, further down,
+the Slutsky condition of an Almost Ideal system).
 
 A translog cost function is concave in prices at a point where its shares are s iff
 
@@ -40,7 +41,8 @@ def concave_at_reference(system: EquationSystem) -> tuple[EquationSystem, dict]:
     model = system.model
     if model.form != "translog_cost":
         raise DualityError("curvature='local' is available for translog cost functions "
-                           "(concavity at the reference point); use curvature='check'")
+                           "(concavity at the reference point) and Almost Ideal systems (the "
+                           "Slutsky condition there); use curvature='check'")
     sym = {p.name: p.symbol for p in model.params}
     n = len(model.prices)
     free = set(system.free)
@@ -92,4 +94,106 @@ def start_values(system: EquationSystem, concave: EquationSystem, L: dict,
     return np.array([vals[p.name] for p in concave.free])
 
 
-__all__ = ["concave_at_reference", "start_values"]
+
+
+# -- the Almost Ideal system: the Slutsky condition at a reference point --------------------
+# At prices p and total expenditure m an Almost Ideal system with shares w has the
+# substitution (Slutsky) matrix S with
+#
+#     C_ij = p_i p_j S_ij / m = g_ij + b_i b_j ln(m/P) + w_i w_j − δ_ij w_i
+#
+# (the Hicksian share derivative is g_ij + b_i b_j ln(m/P), since ln(m/P) = u·b0·Π p^b at
+# e = m; Deaton and Muellbauer 1980; Moschini 1998, from memory; checked in the tests
+# against the Slutsky matrix the regularity engine derives from the fitted model).  C is
+# S scaled by positive numbers on both sides, so one is negative semidefinite iff the
+# other is.  At the reference point where every price and m equal one, ℓ = ln(m/P) = −a0
+# and w = a + ℓ b.  Adding-up, homogeneity and symmetry give C 1 = 0, so C is negative
+# semidefinite iff its leading (n−1)×(n−1) block is, and writing that block as −L L'
+#
+#     Γ̃ = −L L' − ℓ b̃ b̃' − w̃ w̃' + diag(w̃),   w̃ = ã + ℓ b̃,
+#
+# the same Cholesky reparametrisation as for the translog cost (Lau 1978; Diewert and
+# Wales 1987), with the income term added.
+
+def _aids_ell(system: EquationSystem) -> float:
+    """ℓ = ln(m/P) at p = 1, m = 1, i.e. −a0 (a0 is fixed: not identified otherwise)."""
+    a0 = {k.name: v for k, v in system.fixed.items()}.get("a0")
+    if a0 is None:
+        raise DualityError("curvature='local' of an Almost Ideal system needs a0 fixed, "
+                           "e.g. fixed={'a0': 0}")
+    return -float(a0)
+
+
+def slutsky_reference_matrix(params: dict, n: int, ell: float) -> np.ndarray:
+    """C = Γ + ℓ b b' + w w' − diag(w) of an Almost Ideal system at p = 1 with
+    ln(m/P) = ℓ (the full n×n matrix), from parameter values by name."""
+    a = np.array([params[f"a{i + 1}"] for i in range(n)])
+    b = np.array([params[f"b{i + 1}"] for i in range(n)])
+    G = np.array([[params["g%d%d" % tuple(sorted((i + 1, j + 1)))] for j in range(n)]
+                  for i in range(n)])
+    w = a + ell * b
+    return G + ell * np.outer(b, b) + np.outer(w, w) - np.diag(w)
+
+
+def slutsky_at_reference(system: EquationSystem) -> tuple[EquationSystem, dict]:
+    """The Almost Ideal share system with its free g_ij (i, j < n) replaced so that the
+    Slutsky matrix is negative semidefinite where every price and total expenditure
+    equal one; returns it and {l symbol: (i, j)}."""
+    model = system.model
+    if model.form != "aids_expenditure":
+        raise DualityError("the Slutsky condition is imposed on Almost Ideal systems "
+                           "(aids_expenditure)")
+    ell = _aids_ell(system)
+    sym = {p.name: p.symbol for p in model.params}
+    n = len(model.prices)
+    free = set(system.free)
+    gt = [[_g(sym, i, j) for j in range(n - 1)] for i in range(n - 1)]
+    a = [sym[f"a{i + 1}"] for i in range(n - 1)]
+    b = [sym[f"b{i + 1}"] for i in range(n - 1)]
+    needed = {g for row in gt for g in row} | set(a) | set(b)
+    if not needed <= free:
+        held = sorted(p.name for p in needed - free)
+        raise DualityError(f"curvature='local' needs {', '.join(held)} free (not fixed, and "
+                           "the last share dropped)")
+    L = {}
+    for i in range(n - 1):
+        for j in range(i + 1):
+            L[sp.Symbol(f"l{i + 1}{j + 1}", real=True)] = (i, j)
+    Lm = sp.zeros(n - 1, n - 1)
+    for s_, (i, j) in L.items():
+        Lm[i, j] = s_
+    ell_s = sp.nsimplify(ell)
+    B = sp.Matrix(b)
+    W = sp.Matrix(a) + ell_s * B
+    G = -Lm * Lm.T - ell_s * B * B.T - W * W.T + sp.diag(*W)
+    repl = {gt[i][j]: sp.expand(G[i, j]) for i in range(n - 1) for j in range(i, n - 1)}
+    eqs = tuple(replace(e, rhs=sp.expand(e.rhs.xreplace(repl))) for e in system.equations)
+    new_free = tuple(p for p in system.free if p not in repl) + tuple(L)
+    derived = {k: sp.expand(v.xreplace(repl)) for k, v in system.derived.items()}
+    derived.update(repl)
+    how = dict(system.derived_how)
+    how.update({g: "from curvature" for g in repl})
+    note = ("Slutsky matrix negative semidefinite at the point where every price and total "
+            "expenditure equal one: Γ̃ = −LL' − ℓb̃b̃' − w̃w̃' + diag(w̃), w̃ = ã + ℓb̃, "
+            "ℓ = −a0 (Lau 1978; Diewert and Wales 1987)")
+    return replace(system, equations=eqs, free=new_free, derived=derived, linear=False,
+                   derived_how=how, notes=system.notes + (note,)), L
+
+
+def slutsky_start_values(system: EquationSystem, concave: EquationSystem, L: dict,
+                         unconstrained: dict) -> np.ndarray:
+    """Start values for :func:`slutsky_at_reference`: the unconstrained estimates with the
+    leading block of C projected onto the negative semidefinite matrices and factored."""
+    n = len(system.model.prices)
+    C = slutsky_reference_matrix(unconstrained, n, _aids_ell(system))[:n - 1, :n - 1]
+    w, v = np.linalg.eigh(-C)
+    P = (v * np.clip(w, 1e-6, None)) @ v.T
+    F = np.linalg.cholesky(P)
+    vals = dict(unconstrained)
+    for s_, (i, j) in L.items():
+        vals[s_.name] = F[i, j]
+    return np.array([vals[p.name] for p in concave.free])
+
+
+__all__ = ["concave_at_reference", "start_values", "slutsky_at_reference",
+           "slutsky_start_values", "slutsky_reference_matrix"]

@@ -36,6 +36,12 @@ def _row(frame: pd.DataFrame, i: int) -> str:
     return f"row {frame.index[i]!r}"
 
 
+def _rows(frame: pd.DataFrame, idx, shown: int = 5) -> str:
+    """The labels of rows ``idx`` (positions), the first ``shown`` of them."""
+    labels = ", ".join(repr(frame.index[j]) for j in idx[:shown])
+    return f"rows {labels}" + (f" and {len(idx) - shown} more" if len(idx) > shown else "")
+
+
 def column_for(name: str, columns: Mapping[str, str], shares: Mapping[str, str]) -> str:
     if name.startswith("s_") and name[2:] in shares:
         return shares[name[2:]]
@@ -87,7 +93,8 @@ def resolve(system: EquationSystem, data, *, columns: Mapping[str, str] | None =
             i = bad[0]
             raise DualityError(f"the shares ({', '.join(shares[str(q)] for q in system.quantities)}) "
                                f"sum to {total[i]:.6g}, not 1, at {_row(frame, i)} ({bad.size} "
-                               f"rows off by more than share_tol={share_tol:g})")
+                               f"rows off by more than share_tol={share_tol:g}: "
+                               f"{_rows(frame, bad)})")
     n = len(frame)
     if n == 0:
         raise DualityError("the data have no rows")

@@ -21,7 +21,8 @@ from ...solve.derive import DEFAULT_BUDGET
 from .data import SHARE_TOL, as_frame, resolve
 from .equations import derive_system
 from ..evaluate import _chunks, _count_rows, _file_kind, _progress
-from .curvature import concave_at_reference, start_values
+from .curvature import (concave_at_reference, slutsky_at_reference, slutsky_start_values,
+                        start_values)
 from .crossprod import CHUNK, CrossProducts, accumulate, compile_system, solve
 from .linear import METHODS, RawFit, fit_linear
 from .nonlinear import fit_nonlinear
@@ -83,8 +84,9 @@ def estimate(model: Model, data, *, columns: Mapping[str, str] | None = None,
     curvature : {"check", "local", "none"}
         ``"check"`` counts the rows where the fitted model violates curvature (needs every
         parameter); ``"local"`` imposes concavity of a translog cost at the point where
-        every price and the output equal one (:mod:`.curvature`) and reports the rows
-        violating curvature before and after; ``"none"`` skips both.
+        every price and the output equal one, or a negative semidefinite Slutsky matrix of
+        an Almost Ideal system where every price and total expenditure equal one
+        (:mod:`.curvature`), and reports the rows violating curvature before and after; ``"none"`` skips both.
     engine : {"auto", "library", "crossproducts"}
         For a linear system in memory: linearmodels / statsmodels (``"library"``), or
         cross-products accumulated by chunks of ``chunksize`` rows (``"crossproducts"``);
@@ -158,8 +160,15 @@ def estimate(model: Model, data, *, columns: Mapping[str, str] | None = None,
     if drop is not None and drop != str(system.quantities[-1]):
         raise DualityError("curvature='local' drops the last share equation; leave drop "
                            "unset")
-    concave, L = concave_at_reference(system)
-    theta0 = start_values(system, concave, L, result.params)
+    if system.model.form == "aids_expenditure":
+        concave, L = slutsky_at_reference(system)
+        theta0 = slutsky_start_values(system, concave, L, result.params)
+        where = ("a negative semidefinite Slutsky matrix at the point where every price and "
+                 "total expenditure equal one")
+    else:
+        concave, L = concave_at_reference(system)
+        theta0 = start_values(system, concave, L, result.params)
+        where = "concavity at the point where every price and the output equal one"
     raw = fit_nonlinear(concave, arrays, n, theta0, method=method, max_iter=max_iter, tol=tol,
                         boundary_ok=True)
     Lhat = np.array([raw.theta[concave.free.index(s_)] for s_ in L])
@@ -170,7 +179,7 @@ def estimate(model: Model, data, *, columns: Mapping[str, str] | None = None,
     constrained = _result(model, concave, raw, n, arrays, rows_kept, notes)
     after = _curvature(constrained, source.frame, columns, budget)
     constrained.curvature.update({
-        "imposed": "concavity at the point where every price and the output equal one",
+        "imposed": where,
         "rows violating before": before.get("rows violating", before.get("checked")),
         "rows violating after": after.get("rows violating", after.get("checked")),
         "monotonicity violated": after.get("monotonicity violated", "")})

@@ -104,8 +104,12 @@ def fit_nonlinear(system: EquationSystem, arrays, n: int, start: np.ndarray, *,
     JtJ = Jw.T @ Jw
     if np.linalg.matrix_rank(JtJ) < k:
         if not boundary_ok:
+            _, vecs = np.linalg.eigh(JtJ)
+            null = np.abs(vecs[:, 0])   # the direction the data do not determine
+            names = [system.free[i].name for i in np.argsort(-null) if null[i] > 0.1]
             raise DualityError("the parameters are not identified at the estimates "
-                               "(singular Jacobian); fix one of them")
+                               f"(singular Jacobian): {', '.join(names)} move together "
+                               "without changing the fit; fix one of them")
         cov = np.linalg.pinv(JtJ)
     else:
         cov = np.linalg.inv(JtJ)

@@ -40,6 +40,14 @@ def _compile(system: EquationSystem, arrays, n: int):
     return Y, resid, jac
 
 
+def _at_boundary(J, W, tol) -> bool:
+    """The whitened Jacobian is numerically singular (its smallest singular value below
+    √tol times its largest): the parameters sit where a reparametrisation degenerates."""
+    n, G, k = J.shape
+    sv = np.linalg.svd(np.einsum("ngk,gh->nhk", J, W).reshape(n * G, k), compute_uv=False)
+    return bool(sv[-1] <= np.sqrt(tol) * sv[0])
+
+
 def fit_nonlinear(system: EquationSystem, arrays, n: int, start: np.ndarray, *,
                   method: str = "iterated", max_iter: int = 200, tol: float = 1e-8,
                   boundary_ok: bool = False) -> RawFit:
@@ -95,11 +103,11 @@ def fit_nonlinear(system: EquationSystem, arrays, n: int, start: np.ndarray, *,
             # where a reparametrisation reaches its boundary (curvature that binds) the
             # parameters creep along directions of almost equal fit (the objective is quartic
             # there); the iteration then stops once the residual covariance has settled
-            R1 = resid(theta)
-            if boundary_ok and (np.max(np.abs(R1.T @ R1 / n - S))
-                                <= np.sqrt(tol) * np.max(np.abs(S))):
-                stopped_on_fit = True
-                break
+            if boundary_ok and _at_boundary(jac(theta), W, tol):
+                R1 = resid(theta)
+                if np.max(np.abs(R1.T @ R1 / n - S)) <= np.sqrt(tol) * np.max(np.abs(S)):
+                    stopped_on_fit = True
+                    break
         else:
             raise DualityError(f"iterated nonlinear SUR did not converge in {max_iter} "
                                "iterations; raise max_iter or use method='sur'")

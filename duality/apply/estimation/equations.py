@@ -264,9 +264,13 @@ def _derive(model: Model, *, equations, shares, fixed, drop, index, impose_theor
     exact_shares: tuple = ()
     value_name = "c" if side == "cost" else "m"
 
+    # the quadratic Almost Ideal shares stay factored: expanding (ln m − ln a(p))²/b(p)
+    # gives hundreds of terms, slow to fit, export and read
+    tidy = (lambda e: e) if model.form == "quaids_expenditure" else sp.expand
+
     def sub(e):
         e = e.xreplace(mapping) if mapping else e
-        return sp.expand(e.xreplace(fix)) if fix else sp.expand(e)
+        return tidy(e.xreplace(fix)) if fix else tidy(e)
 
     def pick_drop(names):
         if drop is None:

@@ -286,16 +286,23 @@ def quaids_indirect_utility(model: Model) -> sp.Expr:
 
 def aids_share_equations(model: Model, *, index: str = "exact",
                          observed: Sequence[str] | None = None) -> list[sp.Expr]:
-    """Budget-share equations of an AIDS model, in prices, income and parameters.
+    """Budget-share equations of an AIDS or quadratic AIDS model, in prices, income and
+    parameters.
 
     ``index="exact"`` uses ln P = ln a(p) (the model's own price index); ``"stone"`` uses
     Stone's index ln P* = Σ_k w_k ln p_k with observed shares ``w_k`` (symbols named by
     ``observed``, default ``s1, s2, …``), the linear approximation common in estimation.
+    A quadratic Almost Ideal model (Banks, Blundell and Lewbel 1997) adds
+    (l_i / b(p))·(ln m − ln a(p))², b(p) = Π p_k^{b_k}; its index is always the exact one.
     """
-    if model.form != "aids_expenditure":
-        raise ModelError("share equations of this kind need a model from aids_expenditure()")
+    if model.form not in ("aids_expenditure", "quaids_expenditure"):
+        raise ModelError("share equations of this kind need a model from aids_expenditure() "
+                         "or quaids_expenditure()")
     if index not in ("exact", "stone"):
         raise ModelError(f"index {index!r} is not one of exact, stone")
+    if model.form == "quaids_expenditure" and index != "exact":
+        raise ModelError("the quadratic Almost Ideal shares use the exact price index a(p); "
+                         "index='stone' is for the Almost Ideal model")
     ps = list(model.prices)
     sym = {p.name: p.symbol for p in model.params}
     n = len(ps)
@@ -314,8 +321,13 @@ def aids_share_equations(model: Model, *, index: str = "exact",
             raise ModelError(f"{n} goods but {len(names)} observed share names")
         shares = [sp.Symbol(s, real=True) for s in names]
         lnP = sum(s * l for s, l in zip(shares, lnp))
-    return [sym[f"a{i + 1}"] + sum(g(i, j) * lnp[j] for j in range(n))
-            + sym[f"b{i + 1}"] * (sp.log(m) - lnP) for i in range(n)]
+    shares = [sym[f"a{i + 1}"] + sum(g(i, j) * lnp[j] for j in range(n))
+              + sym[f"b{i + 1}"] * (sp.log(m) - lnP) for i in range(n)]
+    if model.form == "quaids_expenditure":
+        b = sp.Mul(*[p ** sym[f"b{k + 1}"] for k, p in enumerate(ps)])
+        shares = [w + sym[f"l{i + 1}"] / b * (sp.log(m) - lnP) ** 2
+                  for i, w in enumerate(shares)]
+    return shares
 
 
 @dataclass(frozen=True)

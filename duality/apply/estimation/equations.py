@@ -236,11 +236,12 @@ def _derive(model: Model, *, equations, shares, fixed, drop, index, impose_theor
     # a value set on the model is a start value, never a fixed one
     notes: list[str] = []
     qnames = [str(q) for q in quantities]
-    is_aids = model.form == "aids_expenditure"
+    is_aids = model.form in ("aids_expenditure", "quaids_expenditure")
     if side == "expenditure" and not is_aids:
         raise DualityError("an expenditure function contains unobserved utility; estimation "
-                           "of expenditure systems covers the Almost Ideal model "
-                           "(aids_expenditure) through its budget shares")
+                           "of expenditure systems covers the Almost Ideal models "
+                           "(aids_expenditure, quaids_expenditure) through their budget "
+                           "shares")
 
     # -- restrictions -----------------------------------------------------------------
     imposed, mapping = [], {}
@@ -263,9 +264,13 @@ def _derive(model: Model, *, equations, shares, fixed, drop, index, impose_theor
     exact_shares: tuple = ()
     value_name = "c" if side == "cost" else "m"
 
+    # the quadratic Almost Ideal shares stay factored: expanding (ln m − ln a(p))²/b(p)
+    # gives hundreds of terms, slow to fit, export and read
+    tidy = (lambda e: e) if model.form == "quaids_expenditure" else sp.expand
+
     def sub(e):
         e = e.xreplace(mapping) if mapping else e
-        return sp.expand(e.xreplace(fix)) if fix else sp.expand(e)
+        return tidy(e.xreplace(fix)) if fix else tidy(e)
 
     def pick_drop(names):
         if drop is None:
@@ -281,6 +286,9 @@ def _derive(model: Model, *, equations, shares, fixed, drop, index, impose_theor
                                f"not equations={equations!r}")
         if index not in ("exact", "stone"):
             raise DualityError(f"index {index!r} is not one of exact, stone")
+        if index == "stone" and model.form == "quaids_expenditure":
+            raise DualityError("the quadratic Almost Ideal shares use the exact price index; "
+                               "leave index='exact'")
         if not shares:
             raise DualityError("the Almost Ideal budget shares need observed shares: give "
                                "shares={quantity: column}")

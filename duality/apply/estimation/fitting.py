@@ -23,6 +23,7 @@ from .equations import derive_system
 from ..evaluate import _chunks, _count_rows, _file_kind, _progress
 from .curvature import (concave_at_reference, slutsky_at_reference, slutsky_start_values,
                         start_values)
+from .global_curvature import concave_everywhere, global_start_values
 from .crossprod import CHUNK, CrossProducts, accumulate, compile_system, solve
 from .linear import METHODS, RawFit, fit_linear
 from .nonlinear import fit_nonlinear
@@ -81,12 +82,14 @@ def estimate(model: Model, data, *, columns: Mapping[str, str] | None = None,
         ``"nonrobust"`` or ``"robust"`` for a system.
     share_tol : float or None
         Tolerance of the check that observed shares sum to one (``None`` skips it).
-    curvature : {"check", "local", "none"}
+    curvature : {"check", "local", "global", "none"}
         ``"check"`` counts the rows where the fitted model violates curvature (needs every
         parameter); ``"local"`` imposes concavity of a translog cost at the point where
         every price and the output equal one, or a negative semidefinite Slutsky matrix of
         an Almost Ideal system where every price and total expenditure equal one
-        (:mod:`.curvature`), and reports the rows violating curvature before and after; ``"none"`` skips both.
+        (:mod:`.curvature`); ``"global"`` imposes concavity at every price on a normalized
+        quadratic or symmetric generalized McFadden cost (:mod:`.global_curvature`); both
+        report the rows violating curvature before and after; ``"none"`` skips both.
     engine : {"auto", "library", "crossproducts"}
         For a linear system in memory: linearmodels / statsmodels (``"library"``), or
         cross-products accumulated by chunks of ``chunksize`` rows (``"crossproducts"``);
@@ -149,37 +152,43 @@ def estimate(model: Model, data, *, columns: Mapping[str, str] | None = None,
     if curvature == "none":
         return result
     if not rows_kept:
-        if curvature == "local":
-            raise DualityError("curvature='local' needs the data in memory (a DataFrame)")
+        if curvature in ("local", "global"):
+            raise DualityError(f"curvature={curvature!r} needs the data in memory (a "
+                               "DataFrame)")
         result.curvature["checked"] = "no: the data were read in chunks"
         return result
     before = _curvature(result, source.frame, columns, budget)
     if curvature == "check":
         result.curvature.update(before)
         return result
-    if drop is not None and drop != str(system.quantities[-1]):
-        raise DualityError("curvature='local' drops the last share equation; leave drop "
-                           "unset")
-    if system.model.form == "aids_expenditure":
-        concave, L = slutsky_at_reference(system)
-        theta0 = slutsky_start_values(system, concave, L, result.params)
-        where = ("a negative semidefinite Slutsky matrix at the point where every price and "
-                 "total expenditure equal one")
+    if curvature == "global":
+        concave, L = concave_everywhere(system)
+        theta0 = global_start_values(concave, L, result.params)
+        imposed = "concavity at every price (S = −AAᵀ, Diewert and Wales 1987)"
     else:
-        concave, L = concave_at_reference(system)
-        theta0 = start_values(system, concave, L, result.params)
-        where = "concavity at the point where every price and the output equal one"
+        if drop is not None and drop != str(system.quantities[-1]):
+            raise DualityError("curvature='local' drops the last share equation; leave drop "
+                               "unset")
+        if system.model.form == "aids_expenditure":
+            concave, L = slutsky_at_reference(system)
+            theta0 = slutsky_start_values(system, concave, L, result.params)
+            imposed = ("a negative semidefinite Slutsky matrix at the point where every price "
+                       "and total expenditure equal one")
+        else:
+            concave, L = concave_at_reference(system)
+            theta0 = start_values(system, concave, L, result.params)
+            imposed = "concavity at the point where every price and the output equal one"
     raw = fit_nonlinear(concave, arrays, n, theta0, method=method, max_iter=max_iter, tol=tol,
                         boundary_ok=True)
     Lhat = np.array([raw.theta[concave.free.index(s_)] for s_ in L])
     if np.max(np.abs(Lhat)) < 1e-6 or np.linalg.matrix_rank(raw.cov) < len(concave.free):
-        notes = notes + ["curvature binds at its boundary (a singular L): the standard errors "
-                         "of the l parameters are not defined and those derived from them use "
-                         "a pseudo-inverse"]
+        notes = notes + ["curvature binds at its boundary (a singular factor): the standard "
+                         "errors of the factor's parameters are not defined and those derived "
+                         "from them use a pseudo-inverse"]
     constrained = _result(model, concave, raw, n, arrays, rows_kept, notes)
     after = _curvature(constrained, source.frame, columns, budget)
     constrained.curvature.update({
-        "imposed": where,
+        "imposed": imposed,
         "rows violating before": before.get("rows violating", before.get("checked")),
         "rows violating after": after.get("rows violating", after.get("checked")),
         "monotonicity violated": after.get("monotonicity violated", "")})
@@ -187,7 +196,7 @@ def estimate(model: Model, data, *, columns: Mapping[str, str] | None = None,
 
 
 #: the curvature options
-CURVATURE = ("check", "local", "none")
+CURVATURE = ("check", "local", "global", "none")
 
 
 def _result(model, system, raw, n, arrays, rows_kept, notes) -> Estimation:

@@ -40,6 +40,14 @@ def _compile(system: EquationSystem, arrays, n: int):
     return Y, resid, jac
 
 
+def _at_boundary(J, W, tol) -> bool:
+    """The whitened Jacobian is numerically singular (its smallest singular value below
+    √tol times its largest): the parameters sit where a reparametrisation degenerates."""
+    n, G, k = J.shape
+    sv = np.linalg.svd(np.einsum("ngk,gh->nhk", J, W).reshape(n * G, k), compute_uv=False)
+    return bool(sv[-1] <= np.sqrt(tol) * sv[0])
+
+
 def fit_nonlinear(system: EquationSystem, arrays, n: int, start: np.ndarray, *,
                   method: str = "iterated", max_iter: int = 200, tol: float = 1e-8,
                   boundary_ok: bool = False) -> RawFit:
@@ -76,6 +84,7 @@ def fit_nonlinear(system: EquationSystem, arrays, n: int, start: np.ndarray, *,
         raise DualityError("the equations are not defined at the start values; give start "
                            "values (start={...}) where they are")
     W = np.eye(G)
+    stopped_on_fit = False
     sol = solve(start, W)
     theta = sol.x
     iterations, converged = 1, bool(sol.success)
@@ -91,6 +100,14 @@ def fit_nonlinear(system: EquationSystem, arrays, n: int, start: np.ndarray, *,
             converged = bool(new.success)
             if method == "sur" or step < tol:
                 break
+            # where a reparametrisation reaches its boundary (curvature that binds) the
+            # parameters creep along directions of almost equal fit (the objective is quartic
+            # there); the iteration then stops once the residual covariance has settled
+            if boundary_ok and _at_boundary(jac(theta), W, tol):
+                R1 = resid(theta)
+                if np.max(np.abs(R1.T @ R1 / n - S)) <= np.sqrt(tol) * np.max(np.abs(S)):
+                    stopped_on_fit = True
+                    break
         else:
             raise DualityError(f"iterated nonlinear SUR did not converge in {max_iter} "
                                "iterations; raise max_iter or use method='sur'")
@@ -119,8 +136,10 @@ def fit_nonlinear(system: EquationSystem, arrays, n: int, start: np.ndarray, *,
     est = ("nonlinear least squares" if G == 1 or method == "ols" else
            {"sur": "two-step nonlinear SUR", "iterated": "iterated nonlinear SUR"}[method])
     ks = [sum(1 for p in system.free if p in e.rhs.free_symbols) for e in system.equations]
+    how = ("scipy least_squares; stopped when the residual covariance settled to a relative "
+           f"{np.sqrt(tol):.0e}" if stopped_on_fit else "scipy least_squares")
     return RawFit(theta, cov, R.T @ R, ((Y - Y.mean(axis=0)) ** 2).sum(axis=0), ks,
-                  iterations, True, f"{est} (scipy least_squares)")
+                  iterations, True, f"{est} ({how})")
 
 
 __all__ = ["fit_nonlinear"]

@@ -103,6 +103,27 @@ def no_closed_form(d: Derived) -> DualityError:
         "to export; evaluate it with duality itself (evaluate, evaluate_file) instead")
 
 
+#: the most terms a distributed product may have for :func:`tidy` to form it
+TIDY_TERMS = 2000
+
+
+def _expanded_terms(e: sp.Basic) -> int:
+    """How many terms distributing every product of sums in ``e`` gives, at most (a sum adds
+    the counts of its terms, a product multiplies those of its factors; a sum inside a
+    function's argument is expanded there, which adds its count)."""
+    if isinstance(e, sp.Add):
+        return sum(_expanded_terms(a) for a in e.args)
+    if isinstance(e, sp.Mul):
+        out = 1
+        for a in e.args:
+            out *= _expanded_terms(a)
+            if out > 10 * TIDY_TERMS:
+                break
+        return out
+    inner = sum(_expanded_terms(a) for a in e.args if isinstance(a, sp.Expr)) if e.args else 0
+    return max(1, inner)
+
+
 def tidy(expr: sp.Expr) -> sp.Expr:
     """An equivalent, shorter form when a cheap rewrite finds one.
 
@@ -113,8 +134,11 @@ def tidy(expr: sp.Expr) -> sp.Expr:
     best, size = expr, sp.count_ops(expr)
     try:
         e1 = sp.powsimp(expr, combine="exp")
-        e2 = sp.expand(e1, mul=True, multinomial=False, power_exp=False, power_base=False,
-                       log=False)
+        # distributing a product of long sums multiplies their lengths: skipped when the
+        # result would have more than TIDY_TERMS terms (it could not be shorter, and would
+        # take minutes, as for the Marshallian demands of a quadratic Almost Ideal system)
+        e2 = (sp.expand(e1, mul=True, multinomial=False, power_exp=False, power_base=False,
+                        log=False) if _expanded_terms(e1) <= TIDY_TERMS else e1)
     except Exception:  # noqa: BLE001 - tidying is optional
         return expr
     for cand in (e1, e2):

@@ -27,7 +27,7 @@ def estimating_collection(what, *, fixed: Mapping[str, float] | None = None) -> 
         raise DualityError("estimating equations are derived from a model; give the model, "
                            f"not a {type(what).__name__}")
     qs = [str(q) for q in what.quantities]
-    aids = what.form == "aids_expenditure"
+    aids = what.form in ("aids_expenditure", "quaids_expenditure")
     system = derive_system(what, equations="shares" if aids else "cost+shares", shares=qs,
                            fixed=dict(fixed or {}), index="exact")
     order = list(system.data.values())

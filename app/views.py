@@ -386,6 +386,8 @@ def _card(card) -> None:
     with head[1]:
         _badge(card.route)
     st.latex(card.latex)
+    if card.parameters:
+        st.caption(plain(f"with the parameter values {card.parameters}"))
     prov = A.ROUTE_TEXT.get(card.route, card.route)
     if card.method:
         prov += f" — {card.method}"

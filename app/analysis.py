@@ -110,6 +110,12 @@ def derive_all(model: Model) -> dict[str, Derived | Unavailable]:
 _AGREES: dict = {}
 
 
+def instant(model: Model) -> bool:
+    """Whether the duals of ``model`` come without symbolic work: its structure was
+    derived before and is evaluated with the values (a parameter or price edit)."""
+    return bool(model.params) and bool(_AGREES.get(structure(model)))
+
+
 def structure(model: Model) -> Model:
     """``model`` with every parameter left free (same formula, names and assumptions):
     the key under which the app derives once."""

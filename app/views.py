@@ -413,7 +413,8 @@ def _derive(model):
     """Cards and baseline point, with a status box while symbolic work runs."""
     ss = st.session_state
     key = ("derived", model)
-    if ss.get("last_derived") == key:
+    if ss.get("last_derived") == key or A.instant(model):
+        ss.last_derived = key
         return A.cards(model, ss.scenario.points()[0])
     with st.status("Deriving the dual functions…", expanded=False) as box:
         box.write(f"Symbolic solving is limited to {A.BUDGET:g} s per function; after "

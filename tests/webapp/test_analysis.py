@@ -299,3 +299,11 @@ def test_values_that_change_which_duals_exist_are_derived_as_given():
     assert not isinstance(an.derive_all(drs)["profit"], Unavailable)
     crs = drs.with_values(b=0.7)
     assert isinstance(an.derive_all(crs)["profit"], Unavailable)
+
+
+def test_an_edit_of_a_derived_structure_is_instant_and_a_new_structure_is_not():
+    model = dy.technology("B*x1^0.2*x2^0.6", ["x1", "x2"], params={"B": 1.5})
+    assert not an.instant(model)                      # nothing derived yet
+    an.derive_all(model)
+    assert an.instant(model.with_values(B=2.5))       # same structure, new value
+    assert not an.instant(dy.technology("B*x1^0.25*x2^0.6", ["x1", "x2"], params={"B": 1.5}))

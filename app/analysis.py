@@ -13,6 +13,7 @@ view can show every part that does work.
 """
 from __future__ import annotations
 
+import dataclasses
 import math
 import re
 from dataclasses import dataclass
@@ -57,6 +58,8 @@ class Card:
     notes: tuple[str, ...] = ()
     value: float | None = None
     demands: tuple["Card", ...] = ()
+    #: parameter values the formula is evaluated with (``A = 1.8, a = 0.3``), if it names any
+    parameters: str = ""
 
 
 @dataclass(frozen=True)
@@ -75,9 +78,101 @@ TITLES = {"cost": "Cost function", "profit": "Profit function",
 
 @lru_cache(maxsize=64)
 def derive_all(model: Model) -> dict[str, Derived | Unavailable]:
-    """Each dual of ``model`` (:func:`duality.solve.derive.duals`, cached here with its
-    compiled functions); a dual that does not exist maps to :class:`Unavailable`."""
-    return duals(model, budget=BUDGET)
+    """Each dual of ``model``; a dual that does not exist maps to :class:`Unavailable`.
+
+    Derived once per model *structure* (:func:`structure`: every parameter left free),
+    then evaluated with the parameter values (:func:`bind`), so an edit of a value
+    derives nothing.  The first model of a structure is also derived with its values, and
+    the structure is used only where both agree (same duals, same routes, closed forms):
+    the existence of a dual can depend on the values (a translog cost with constant
+    returns has no profit function).  Where the structure carries conditions on the
+    parameters alone that these values break, the values are derived as given.
+    """
+    if not model.params:
+        return duals(model, budget=BUDGET)
+    shape = structure(model)
+    free = _structural(shape)
+    if shape not in _AGREES:
+        valued = duals(model, budget=BUDGET)
+        _AGREES[shape] = _agree(free, valued)
+        if not _AGREES[shape]:
+            return valued
+    if not _AGREES[shape]:
+        return duals(model, budget=BUDGET)
+    values = model.values
+    bound = {k: d if isinstance(d, Unavailable) else bind(d, values) for k, d in free.items()}
+    if not all(_holds(d, values) for d in bound.values() if isinstance(d, Derived)):
+        return duals(model, budget=BUDGET)
+    return bound
+
+
+#: structure -> whether its free-parameter duals agree with a derivation at values
+_AGREES: dict = {}
+
+
+def instant(model: Model) -> bool:
+    """Whether the duals of ``model`` come without symbolic work: its structure was
+    derived before and is evaluated with the values (a parameter or price edit)."""
+    return bool(model.params) and bool(_AGREES.get(structure(model)))
+
+
+def structure(model: Model) -> Model:
+    """``model`` with every parameter left free (same formula, names and assumptions):
+    the key under which the app derives once."""
+    if not model.params or all(p.value is None for p in model.params):
+        return model
+    out = dataclasses.replace(
+        model, params=tuple(dataclasses.replace(p, value=None) for p in model.params))
+    out.__dict__.pop("_identity", None)
+    out.__dict__.pop("numeric_expr", None)
+    return out
+
+
+@lru_cache(maxsize=32)
+def _structural(shape: Model) -> dict[str, Derived | Unavailable]:
+    return duals(shape, budget=BUDGET)
+
+
+def _agree(free: dict, valued: dict) -> bool:
+    if set(free) != set(valued):
+        return False
+    for k, d in free.items():
+        v = valued[k]
+        if isinstance(d, Unavailable) or isinstance(v, Unavailable):
+            if not (isinstance(d, Unavailable) and isinstance(v, Unavailable)):
+                return False
+            continue
+        if d.route != v.route or d.expr is None or v.expr is None:
+            return False
+    return True
+
+
+def bind(d: Derived, values: dict) -> Derived:
+    """The free-parameter function ``d`` evaluated with ``values`` (symbol -> value):
+    same closed form, compiled code shared with ``d`` (nothing is derived or compiled
+    again); its demands bound alike."""
+    factory = None
+    if d.demand_factory is not None:
+        def factory(d=d):
+            return {k: bind(x, values) for k, x in d.demands.items()}
+    out = dataclasses.replace(d, params=dict(values), demand_factory=factory)
+    for key in ("_lambda", "_condition_fns", "_beyond_float"):
+        out.__dict__[key] = getattr(d, key)
+    return out
+
+
+def _holds(d: Derived, values: dict) -> bool:
+    """Whether the conditions of ``d`` that name parameters only hold at ``values``."""
+    args = set(d.args)
+    for c in d.conditions:
+        syms = c.free_symbols
+        if syms and not syms & args and syms <= set(values):
+            try:
+                if not bool(c.xreplace(values)):
+                    return False
+            except TypeError:
+                return False
+    return True
 
 
 def point_for(d: Derived, point: dict) -> dict[str, float]:
@@ -94,7 +189,8 @@ def _card(title: str, d: Derived, point: dict, with_demands: bool) -> Card:
         except DualityError:
             dem = {}
         demands = tuple(_card(name, x, point, False) for name, x in dem.items())
-    return Card(title=title, latex=latex_of(d), route=d.route, method=d.method or "",
+    return Card(title=title, latex=latex_of(d), parameters=parameter_text(d),
+                route=d.route, method=d.method or "",
                 source=d.source, conditions=tuple(sp.latex(c) for c in d.conditions),
                 notes=tuple(d.notes), value=value_at(d, point), demands=demands)
 
@@ -149,11 +245,28 @@ def latex_of(d: Derived) -> str:
     """
     if d.expr is None:
         return d.latex()
-    head = d.latex().split("(", 1)[0]
-    if d.name and head == sp.latex(sp.Symbol(d.name)):
-        head = tex(sp.Symbol(d.name))
-    lhs, expr = log_form(f"{head}({_args_tex(d.args)})", decimals(d.expr), ln=r"\ln ")
-    return broken(lhs, expr)
+    return _latex_of(d.kind, d.name, d.args, d.expr)
+
+
+@lru_cache(maxsize=512)
+def _latex_of(kind: str, name: str, args: tuple, expr) -> str:
+    # cached by formula: a function bound to new parameter values (:func:`bind`) keeps
+    # its structural formula, so an edit prints nothing again
+    head = Derived(kind=kind, args=args, expr=expr, route="symbolic", method="",
+                   name=name).latex().split("(", 1)[0]
+    if name and head == sp.latex(sp.Symbol(name)):
+        head = tex(sp.Symbol(name))
+    lhs, out = log_form(f"{head}({_args_tex(args)})", decimals(expr), ln=r"\ln ")
+    return broken(lhs, out)
+
+
+def parameter_text(d: Derived) -> str:
+    """The parameter values a structural formula of ``d`` is evaluated with, as
+    ``A = 1.8, a = 0.3`` (empty when its formula names none)."""
+    if d.expr is None:
+        return ""
+    named = sorted((s for s in d.params if s in d.expr.free_symbols), key=str)
+    return ", ".join(f"{s} = {float(d.params[s]):.6g}" for s in named)
 
 
 #: rough width of one displayed line, in characters of LaTeX source
@@ -172,7 +285,13 @@ def broken(lhs: str, expr) -> str:
 
 
 def model_latex(model: Model) -> str:
-    """The model as an equation: ``y = f(x)``, ``u = U(x)`` or the given dual."""
+    """The model as an equation: ``y = f(x)``, ``u = U(x)`` or the given dual (its
+    parameters as symbols: printed once per structure)."""
+    return _model_latex(structure(model))
+
+
+@lru_cache(maxsize=64)
+def _model_latex(model: Model) -> str:
     head = model.given.latex
     if model.is_primal:
         return f"{tex(model.level)} = {head}({_args_tex(model.quantities)}) = {tex(model.expr)}"

@@ -26,7 +26,10 @@ def warm(scenario: str | None) -> None:
     path = Path(scenario) if scenario else workspace.SCENARIO_DIR / workspace.DEFAULT_SCENARIO
     try:
         s = sc.load(path)
-        analysis.cards(s.build_model(), s.points()[0])
+        model = s.build_model()
+        analysis.cards(model, s.points()[0])
+        analysis.model_latex(model)
+        analysis.broken_restrictions(model)   # the restriction warning of every view
     except DualityError:
         pass  # the page shows the problem to the visitor
 

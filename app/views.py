@@ -387,6 +387,8 @@ def _card(card) -> None:
     with head[1]:
         _badge(card.route)
     st.latex(card.latex)
+    if card.parameters:
+        st.caption(plain(f"with the parameter values {card.parameters}"))
     prov = A.ROUTE_TEXT.get(card.route, card.route)
     if card.method:
         prov += f" — {card.method}"
@@ -412,7 +414,8 @@ def _derive(model):
     """Cards and baseline point, with a status box while symbolic work runs."""
     ss = st.session_state
     key = ("derived", model)
-    if ss.get("last_derived") == key:
+    if ss.get("last_derived") == key or A.instant(model):
+        ss.last_derived = key
         return A.cards(model, ss.scenario.points()[0])
     with st.status("Deriving the dual functions…", expanded=False) as box:
         box.write(f"Symbolic solving is limited to {A.BUDGET:g} s per function; after "

@@ -14,6 +14,7 @@ import math
 import os
 import re
 import secrets
+import time
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -401,7 +402,33 @@ def write_draft(folder: Path, draft_id: str, raw: dict, origin: Path | None,
         raise DualityError(f"{path.parent}: cannot keep a draft there "
                            f"({exc.strerror or exc})") from None
     write_atomic(path, text, what="keep the draft")
+    prune_drafts(folder, keep=path)
     return path
+
+
+#: days after its last change that a draft nobody came back to is removed
+DRAFT_DAYS = 30
+
+
+def prune_drafts(folder: Path, *, keep: Path | None = None, now: float | None = None) -> list[Path]:
+    """Remove the drafts under ``folder`` left unchanged for more than :data:`DRAFT_DAYS`
+    days (a tab closed with unsaved edits and never reloaded); returns those removed.
+
+    The rule for drafts: a draft is removed when its edits are saved or undone
+    (:func:`drop_draft`), and otherwise once it is older than :data:`DRAFT_DAYS` days,
+    checked whenever a draft is written.  ``keep`` (the draft being written) stays."""
+    now = time.time() if now is None else now
+    out = []
+    for path in (Path(folder) / DRAFTS).glob("*.json"):
+        if keep is not None and path == keep:
+            continue
+        try:
+            if now - path.stat().st_mtime > DRAFT_DAYS * 86400:
+                path.unlink()
+                out.append(path)
+        except FileNotFoundError:        # removed meanwhile by another session
+            continue
+    return out
 
 
 def read_draft(folder: Path, draft_id: str) -> tuple[dict, Path | None, str]:

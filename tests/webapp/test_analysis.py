@@ -3,6 +3,7 @@ numbers on the cards and in the tables against textbook closed forms."""
 from __future__ import annotations
 
 import math
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -13,7 +14,11 @@ import duality as dy
 from app import analysis as an
 from duality.apply import scenario as sc
 from duality.apply.export import TARGETS
+from duality.solve.derive import duals
+from duality.solve.points import value_at
 from duality.solve.result import Unavailable
+
+SCENARIOS = Path(an.__file__).resolve().parents[1] / "scenarios"
 
 # y = x1^0.25 x2^0.25 (decreasing returns, degree ½): c = 2 (w1 w2)^½ y², conditional demand
 # x1 = (w2 / w1)^½ y², profit π = p² / (8 (w1 w2)^½) at supply y* = p / (4 (w1 w2)^½)
@@ -232,3 +237,73 @@ def test_closed_conjugate_of_textbook_functions():
                                          (400.0, "400")])
 def test_fmt(value, text):
     assert an.fmt(value) == text
+
+
+# -- instant edits: derived once per structure, evaluated with the values ---------------
+def _counting(monkeypatch):
+    calls = []
+    real = an.duals
+
+    def counted(model, **kw):
+        calls.append(model)
+        return real(model, **kw)
+    monkeypatch.setattr(an, "duals", counted)
+    return calls
+
+
+@pytest.mark.parametrize("name", ["pottery_workshop.toml", "orchard_village_aids.toml",
+                                  "hillcrest_tearoom_quasilinear.toml",
+                                  "larkspur_households_quaids.toml"])
+def test_a_parameter_edit_derives_nothing_and_equals_a_fresh_derivation(monkeypatch, name):
+    scenario = dy.load_scenario(SCENARIOS / name)
+    model = scenario.build_model()
+    an.derive_all(model)                                  # the structure is derived here
+    calls = _counting(monkeypatch)
+    p = model.params[0]
+    edited = model.with_values(**{p.name: p.value * 1.05})
+    cards, pt = an.cards(edited, scenario.points()[0])
+    assert calls == []                                     # the edit derived nothing
+    # oracle: the library's derivation of the model with the values put in
+    # (common practice, no source: a closed form in free parameters evaluated at values
+    # equals the closed form derived at those values)
+    fresh = duals(edited)
+    for card in cards:
+        kind = next(k for k, t in an.TITLES.items() if t == card.title)
+        if isinstance(card, an.UnavailableCard):
+            assert isinstance(fresh[kind], Unavailable)
+            continue
+        want = value_at(fresh[kind], pt)
+        assert card.value == pytest.approx(want, rel=1e-9)
+        for d in card.demands:
+            assert d.value == pytest.approx(value_at(fresh[kind].demands[d.title], pt),
+                                            rel=1e-9)
+
+
+def test_cobb_douglas_cost_after_an_edit_matches_its_textbook_closed_form():
+    # Varian, Microeconomic Analysis, 3rd ed., ch. 4 (Cobb-Douglas cost function):
+    # c(w, y) = A^(-1/r) r prod (w_i / a_i)^(a_i / r) y^(1/r), r = sum a_i
+    model = dy.technology("A*x1^0.3*x2^0.5", ["x1", "x2"], params={"A": 2.0})
+    an.derive_all(model)
+    edited = model.with_values(A=3.0)
+    c = an.derive_all(edited)["cost"]
+    assert c.free_params == ()
+    w1, w2, y, r = 2.0, 5.0, 4.0, 0.8
+    want = 3.0 ** (-1 / r) * r * (w1 / 0.3) ** (0.3 / r) * (w2 / 0.5) ** (0.5 / r) * y ** (1 / r)
+    assert c(w1=w1, w2=w2, y=y) == pytest.approx(want, rel=1e-12)
+
+
+def test_values_that_change_which_duals_exist_are_derived_as_given():
+    # constant returns (a + b = 1): no profit function (Varian, Microeconomic Analysis,
+    # 3rd ed., ch. 2: with constant returns maximum profit is zero or unbounded; from memory)
+    drs = dy.technology("x1^a*x2^b", ["x1", "x2"], params={"a": 0.3, "b": 0.5})
+    assert not isinstance(an.derive_all(drs)["profit"], Unavailable)
+    crs = drs.with_values(b=0.7)
+    assert isinstance(an.derive_all(crs)["profit"], Unavailable)
+
+
+def test_an_edit_of_a_derived_structure_is_instant_and_a_new_structure_is_not():
+    model = dy.technology("B*x1^0.2*x2^0.6", ["x1", "x2"], params={"B": 1.5})
+    assert not an.instant(model)                      # nothing derived yet
+    an.derive_all(model)
+    assert an.instant(model.with_values(B=2.5))       # same structure, new value
+    assert not an.instant(dy.technology("B*x1^0.25*x2^0.6", ["x1", "x2"], params={"B": 1.5}))

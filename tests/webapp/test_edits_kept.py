@@ -221,3 +221,17 @@ def test_a_dual_side_model_draws_its_recovered_level_curve(app):
     app.selectbox(key="pick").set_value("kettle_lane_bakery.toml").run()
     app.segmented_control(key="view").set_value("Figures").run()
     assert not _ok(app).info and len(app.get("plotly_chart")) == 3
+
+
+def test_saving_the_edits_removes_their_draft(app, tmp_path):
+    app.number_input(key="par:1:A").set_value(2.4).run()
+    _ok(app)
+    assert len(_drafts(tmp_path)) == 1
+    app.segmented_control(key="view").set_value("Export & save").run()
+    name_box = next(t for t in app.text_input if str(t.key).startswith("save_name"))
+    name_box.set_value("pottery_edited.toml").run()
+    app.button(key="save_go").click().run()
+    assert any("saved" in _plain(s.value) for s in _ok(app).success)
+    saved = dy.load_scenario(tmp_path / "pottery_edited.toml").build_model()
+    assert {p.name: p.value for p in saved.params}["A"] == 2.4
+    assert not _drafts(tmp_path) and "edited, not saved" not in _captions(app)

@@ -144,3 +144,23 @@ def test_a_negative_variant_price_is_named_by_its_key():
     frame.loc["kiln_energy_spike", "w_kiln"] = -1.0
     with pytest.raises(DualityError, match="variants.kiln_energy_spike.prices.w_kiln"):
         W.build(W.with_variants(raw, frame))
+
+
+def test_drafts_nobody_came_back_to_are_removed_after_their_days(tmp_path):
+    # the rule (common practice, no source): a draft goes when saved or undone, or once
+    # it has been left unchanged for more than DRAFT_DAYS days
+    import os
+    import time
+    raw, origin = W.read_file(W.SCENARIO_DIR / W.DEFAULT_SCENARIO)
+    old = W.write_draft(tmp_path, "0" * 16, raw, origin, "old")
+    recent = W.write_draft(tmp_path, "1" * 16, raw, origin, "recent")
+    past = time.time() - (W.DRAFT_DAYS + 1) * 86400
+    os.utime(old, (past, past))
+    W.write_draft(tmp_path, "2" * 16, raw, origin, "new")
+    assert not old.exists() and recent.exists()
+    assert sorted(p.name for p in (tmp_path / W.DRAFTS).glob("*.json")) == \
+        ["1" * 16 + ".json", "2" * 16 + ".json"]
+    # a draft just under the limit stays
+    edge = time.time() - (W.DRAFT_DAYS - 1) * 86400
+    os.utime(recent, (edge, edge))
+    assert W.prune_drafts(tmp_path) == [] and recent.exists()

@@ -608,7 +608,8 @@ _FORM_BUILDERS = {"translog_cost": translog_cost,
               show_default=True,
               help="Count rows violating curvature (check), or impose it where every price "
                    "and the output (or total expenditure) equal one (local: translog cost, "
-                   "Almost Ideal) and count rows before and after.")
+                   "Almost Ideal) or at every price (global: normalized quadratic, symmetric "
+                   "generalized McFadden cost) and count rows before and after.")
 @click.option("--share-tol", type=float, default=1e-3, show_default=True,
               help="How far observed shares may sum from one.")
 @click.option("--elasticities", "with_elasticities", is_flag=True,

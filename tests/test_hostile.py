@@ -14,7 +14,6 @@ Property tests run derandomised (the repeatable profile of ``tests/conftest.py``
 from __future__ import annotations
 
 import os
-import re
 import signal
 import subprocess
 import sys

@@ -7,11 +7,9 @@ oracle.
 from __future__ import annotations
 
 import math
-import warnings
 
 import numpy as np
 import pytest
-import sympy as sp
 from scipy import optimize
 
 import duality as dy

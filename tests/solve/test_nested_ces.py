@@ -2,7 +2,6 @@
 against scipy as an independent oracle."""
 from __future__ import annotations
 
-import math
 
 import numpy as np
 import pytest

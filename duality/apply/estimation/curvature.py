@@ -35,6 +35,33 @@ def _g(sym, i, j):
     return sym.get(f"g{a + 1}{b + 1}")
 
 
+def lower_factor(k: int, letter: str = "l") -> tuple[dict, sp.Matrix]:
+    """A k×k lower-triangular matrix of new symbols ``<letter>11, <letter>21, …``;
+    returns {symbol: (i, j)} and the matrix."""
+    factor, M = {}, sp.zeros(k, k)
+    for i in range(k):
+        for j in range(i + 1):
+            s_ = sp.Symbol(f"{letter}{i + 1}{j + 1}", real=True)
+            factor[s_] = (i, j)
+            M[i, j] = s_
+    return factor, M
+
+
+def reparametrised(system: EquationSystem, repl: dict, factor: dict, note: str, *,
+                   expand: bool = True) -> EquationSystem:
+    """``system`` with the parameters in ``repl`` written through the new free symbols of
+    ``factor`` (the replaced ones reported as derived "from curvature")."""
+    tidy = sp.expand if expand else (lambda e: e)
+    eqs = tuple(replace(e, rhs=tidy(e.rhs.xreplace(repl))) for e in system.equations)
+    new_free = tuple(p for p in system.free if p not in repl) + tuple(factor)
+    derived = {k: tidy(v.xreplace(repl)) for k, v in system.derived.items()}
+    derived.update(repl)
+    how = dict(system.derived_how)
+    how.update({g: "from curvature" for g in repl})
+    return replace(system, equations=eqs, free=new_free, derived=derived, linear=False,
+                   derived_how=how, notes=system.notes + (note,))
+
+
 def concave_at_reference(system: EquationSystem) -> tuple[EquationSystem, dict]:
     """The system with the free second-order price parameters of a translog cost replaced
     by Γ̃ = −L L' − ã ã' + diag(ã); returns it and {l symbol: (i, j)}."""
@@ -53,26 +80,13 @@ def concave_at_reference(system: EquationSystem) -> tuple[EquationSystem, dict]:
         held = sorted(p.name for p in needed - free)
         raise DualityError(f"curvature='local' needs {', '.join(held)} free (not fixed, and "
                            "the last share dropped)")
-    L = {}
-    for i in range(n - 1):
-        for j in range(i + 1):
-            L[sp.Symbol(f"l{i + 1}{j + 1}", real=True)] = (i, j)
-    Lm = sp.zeros(n - 1, n - 1)
-    for s_, (i, j) in L.items():
-        Lm[i, j] = s_
+    L, Lm = lower_factor(n - 1)
     A = sp.Matrix(a)
     G = -Lm * Lm.T - A * A.T + sp.diag(*a)
     repl = {gt[i][j]: sp.expand(G[i, j]) for i in range(n - 1) for j in range(i, n - 1)}
-    eqs = tuple(replace(e, rhs=sp.expand(e.rhs.xreplace(repl))) for e in system.equations)
-    new_free = tuple(p for p in system.free if p not in repl) + tuple(L)
-    derived = {k: sp.expand(v.xreplace(repl)) for k, v in system.derived.items()}
-    derived.update(repl)
-    how = dict(system.derived_how)
-    how.update({g: "from curvature" for g in repl})
     note = ("concavity imposed at the point where every price and the output equal one: "
             "Γ̃ = −LL' − ãã' + diag(ã) (Diewert and Wales 1987)")
-    return replace(system, equations=eqs, free=new_free, derived=derived, linear=False,
-                   derived_how=how, notes=system.notes + (note,)), L
+    return reparametrised(system, repl, L, note), L
 
 
 def start_values(system: EquationSystem, concave: EquationSystem, L: dict,
@@ -155,29 +169,16 @@ def slutsky_at_reference(system: EquationSystem) -> tuple[EquationSystem, dict]:
         held = sorted(p.name for p in needed - free)
         raise DualityError(f"curvature='local' needs {', '.join(held)} free (not fixed, and "
                            "the last share dropped)")
-    L = {}
-    for i in range(n - 1):
-        for j in range(i + 1):
-            L[sp.Symbol(f"l{i + 1}{j + 1}", real=True)] = (i, j)
-    Lm = sp.zeros(n - 1, n - 1)
-    for s_, (i, j) in L.items():
-        Lm[i, j] = s_
+    L, Lm = lower_factor(n - 1)
     ell_s = sp.nsimplify(ell)
     B = sp.Matrix(b)
     W = sp.Matrix(a) + ell_s * B
     G = -Lm * Lm.T - ell_s * B * B.T - W * W.T + sp.diag(*W)
     repl = {gt[i][j]: sp.expand(G[i, j]) for i in range(n - 1) for j in range(i, n - 1)}
-    eqs = tuple(replace(e, rhs=sp.expand(e.rhs.xreplace(repl))) for e in system.equations)
-    new_free = tuple(p for p in system.free if p not in repl) + tuple(L)
-    derived = {k: sp.expand(v.xreplace(repl)) for k, v in system.derived.items()}
-    derived.update(repl)
-    how = dict(system.derived_how)
-    how.update({g: "from curvature" for g in repl})
     note = ("Slutsky matrix negative semidefinite at the point where every price and total "
             "expenditure equal one: Γ̃ = −LL' − ℓb̃b̃' − w̃w̃' + diag(w̃), w̃ = ã + ℓb̃, "
             "ℓ = −a0 (Lau 1978; Diewert and Wales 1987)")
-    return replace(system, equations=eqs, free=new_free, derived=derived, linear=False,
-                   derived_how=how, notes=system.notes + (note,)), L
+    return reparametrised(system, repl, L, note), L
 
 
 def slutsky_start_values(system: EquationSystem, concave: EquationSystem, L: dict,

@@ -19,12 +19,12 @@ every A, since it is built into the form.
 """
 from __future__ import annotations
 
-from dataclasses import replace
 
 import numpy as np
 import sympy as sp
 
 from ...errors import DualityError
+from .curvature import lower_factor, reparametrised
 from .equations import EquationSystem
 
 #: the forms whose curvature can be imposed at every price, and the letter of their block
@@ -56,28 +56,16 @@ def concave_everywhere(system: EquationSystem) -> tuple[EquationSystem, dict]:
         held = sorted(p.name for p in needed - free)
         raise DualityError(f"curvature='global' needs {', '.join(held)} free (not fixed)")
     taken = {p.name for p in model.params}
-    A, factor = sp.zeros(k, k), {}
-    for i in range(k):
-        for j in range(i + 1):
-            name = f"{FACTOR}{i + 1}{j + 1}"
-            if name in taken:
-                raise DualityError(f"curvature='global' names its factor {name}, which is "
-                                   "already a parameter of the model")
-            s_ = sp.Symbol(name, real=True)
-            A[i, j] = s_
-            factor[s_] = (i, j)
+    factor, A = lower_factor(k, FACTOR)
+    clash = sorted(s_.name for s_ in factor if s_.name in taken)
+    if clash:
+        raise DualityError(f"curvature='global' names its factor {clash[0]}, which is "
+                           "already a parameter of the model")
     Bt = -A * A.T
     repl = {B[i][j]: sp.expand(Bt[i, j]) for i in range(k) for j in range(i, k)}
-    eqs = tuple(replace(e, rhs=e.rhs.xreplace(repl)) for e in system.equations)
-    new_free = tuple(p for p in system.free if p not in repl) + tuple(factor)
-    derived = {s_: v.xreplace(repl) for s_, v in system.derived.items()}
-    derived.update(repl)
-    how = dict(system.derived_how)
-    how.update({s_: "from curvature" for s_ in repl})
     note = ("concavity imposed at every price: the block of S is −AAᵀ with A lower "
             "triangular (Diewert and Wales 1987)")
-    return replace(system, equations=eqs, free=new_free, derived=derived, linear=False,
-                   derived_how=how, notes=system.notes + (note,)), factor
+    return reparametrised(system, repl, factor, note, expand=False), factor
 
 
 def global_start_values(concave: EquationSystem, factor: dict,

@@ -390,7 +390,12 @@ def _eval_line(hx, hf, s, q, outside, label=None):
     k, order = _locate(s, q)  # s[k-1] < q <= s[k]
     qo = q if order is None else q[order]
     vals = hx[k]
-    vals *= qo
+    with np.errstate(invalid="ignore"):
+        vals *= qo
+    lost = np.isnan(vals)
+    if lost.any():  # 0·(±inf): the vertex at x = 0 gives q·0 = 0 for any slope q
+        lost &= ~np.isnan(qo)
+        vals[lost] = 0.0
     vals -= hf[k]
     if label is not None:
         k = label[k]

@@ -637,6 +637,10 @@ def test_sorted_lookup_matches_searchsorted():
     hx = np.arange(s.size + 1.0)  # any vertex values: the lookup is what is tested
     vals, kk = grid_mod._eval_line(hx, hx, s, q, "extend")
     assert np.array_equal(kk, np.searchsorted(s, q, side="left"))
+    # the vertex at x = 0 with slope −inf: q·x − f = 0 − f(0), not 0·(−inf) = NaN
+    # (definition of the transform; common practice, no source)
+    assert not np.isnan(vals).any()
+    assert vals[q == -np.inf][0] == -hx[0] and vals[q == np.inf][0] == np.inf
 
 
 def test_unsorted_slopes_long_hull_match_naive_maximum():

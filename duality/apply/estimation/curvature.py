@@ -62,6 +62,22 @@ def reparametrised(system: EquationSystem, repl: dict, factor: dict, note: str, 
                    derived_how=how, notes=system.notes + (note,))
 
 
+def factored_start(M: np.ndarray, factor: dict, concave: EquationSystem, unconstrained: dict,
+                   floor: float | None = 1e-6) -> np.ndarray:
+    """Start values of a reparametrised system: the unconstrained estimates, with −M
+    projected onto the positive semidefinite matrices (eigenvalues clipped at ``floor``;
+    ``None``: 1e-6 of the largest, a small ridge that keeps the factor defined) and
+    factored by Cholesky into the symbols of ``factor``."""
+    w, v = np.linalg.eigh(-M)
+    if floor is None:
+        floor = max(1e-8, 1e-6 * float(np.abs(w).max()))
+    F = np.linalg.cholesky((v * np.clip(w, floor, None)) @ v.T)
+    vals = dict(unconstrained)
+    for s_, (i, j) in factor.items():
+        vals[s_.name] = F[i, j]
+    return np.array([vals[p.name] for p in concave.free])
+
+
 def concave_at_reference(system: EquationSystem) -> tuple[EquationSystem, dict]:
     """The system with the free second-order price parameters of a translog cost replaced
     by Γ̃ = −L L' − ã ã' + diag(ã); returns it and {l symbol: (i, j)}."""
@@ -98,14 +114,7 @@ def start_values(system: EquationSystem, concave: EquationSystem, L: dict,
     a = np.array([unconstrained[f"a{i + 1}"] for i in range(n - 1)])
     Gt = np.array([[unconstrained["g%d%d" % tuple(sorted((i + 1, j + 1)))]
                     for j in range(n - 1)] for i in range(n - 1)])
-    M = Gt + np.outer(a, a) - np.diag(a)
-    w, v = np.linalg.eigh(-M)
-    P = (v * np.clip(w, 1e-6, None)) @ v.T
-    C = np.linalg.cholesky(P)
-    vals = dict(unconstrained)
-    for s_, (i, j) in L.items():
-        vals[s_.name] = C[i, j]
-    return np.array([vals[p.name] for p in concave.free])
+    return factored_start(Gt + np.outer(a, a) - np.diag(a), L, concave, unconstrained)
 
 
 
@@ -187,13 +196,7 @@ def slutsky_start_values(system: EquationSystem, concave: EquationSystem, L: dic
     leading block of C projected onto the negative semidefinite matrices and factored."""
     n = len(system.model.prices)
     C = slutsky_reference_matrix(unconstrained, n, _aids_ell(system))[:n - 1, :n - 1]
-    w, v = np.linalg.eigh(-C)
-    P = (v * np.clip(w, 1e-6, None)) @ v.T
-    F = np.linalg.cholesky(P)
-    vals = dict(unconstrained)
-    for s_, (i, j) in L.items():
-        vals[s_.name] = F[i, j]
-    return np.array([vals[p.name] for p in concave.free])
+    return factored_start(C, L, concave, unconstrained)
 
 
 __all__ = ["concave_at_reference", "start_values", "slutsky_at_reference",

@@ -24,7 +24,7 @@ import numpy as np
 import sympy as sp
 
 from ...errors import DualityError
-from .curvature import lower_factor, reparametrised
+from .curvature import factored_start, lower_factor, reparametrised
 from .equations import EquationSystem
 
 #: the forms whose curvature can be imposed at every price, and the letter of their block
@@ -77,13 +77,7 @@ def global_start_values(concave: EquationSystem, factor: dict,
     k = len(model.prices) - 1
     B = np.array([[unconstrained[f"s{min(i, j) + 1}{max(i, j) + 1}"] for j in range(k)]
                   for i in range(k)])
-    w, v = np.linalg.eigh(-(B + B.T) / 2)
-    scale = max(1e-8, 1e-6 * float(np.abs(w).max()))
-    C = np.linalg.cholesky((v * np.clip(w, scale, None)) @ v.T)
-    vals = dict(unconstrained)
-    for s_, (i, j) in factor.items():
-        vals[s_.name] = C[i, j]
-    return np.array([vals[p.name] for p in concave.free])
+    return factored_start((B + B.T) / 2, factor, concave, unconstrained, floor=None)
 
 
 __all__ = ["GLOBAL_FORMS", "concave_everywhere", "global_start_values"]
